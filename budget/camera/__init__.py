@@ -1,0 +1,1 @@
+"""The rig: description, virtual rig, components, imaging and camera choice."""

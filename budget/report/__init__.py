@@ -1,0 +1,1 @@
+"""Reports: pure writers that take results and never compute uncertainty."""
