@@ -1,0 +1,339 @@
+"""The law of propagation of uncertainty (JCGM 100:2008 clause 5, annex G).
+
+Sensitivity coefficients come from the model itself by central differences with
+steps scaled to each input's standard uncertainty; every perturbed point goes to
+the model in one vectorized call.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from budget.errors import field_error
+from budget.propagation.model import SINGLE, Model, correlation_matrix, evaluate
+from budget.propagation.quantities import InputQuantity, as_quantities
+
+__all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
+
+STEP = 1e-2
+"""First derivatives: step h_i = STEP·u(x_i) in a five-point stencil (error O(h⁴))."""
+STEP2 = 5e-2
+"""Second and third derivatives (second-order terms): h_i = STEP2·u(x_i)."""
+NEGLIGIBLE = 1e-9
+"""A first-order contribution below NEGLIGIBLE·u_c counts as zero sensitivity."""
+
+
+@dataclass(frozen=True)
+class Row:
+    """One input quantity's line of a budget (JCGM 100 7.2.2)."""
+
+    name: str
+    estimate: float
+    u: float
+    sensitivity: float
+    contribution: float
+    dof: float
+    percent: float
+    group: str
+    evaluation: str
+    distribution: str
+    unit: str
+    source: str
+    value: float
+    divisor: float
+
+
+@dataclass(frozen=True)
+class GroupRow:
+    """A budget component: a named group of input quantities."""
+
+    name: str
+    contribution: float
+    percent: float
+    dof: float
+    evaluation: str
+    inputs: tuple[str, ...]
+    sources: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class LinearResult:
+    """Result of the linear method for one output.
+
+    ``u`` is the combined standard uncertainty u_c, ``nu_eff`` the effective
+    degrees of freedom (``math.inf`` when infinite), ``k`` the coverage factor
+    t_p(ν_eff), ``U = k·u``. With ``second_order`` the second-order terms of
+    JCGM 100 eq. (14) are included in ``u`` and listed in ``u_second_order``.
+    """
+
+    output: str
+    estimate: float
+    u: float
+    nu_eff: float
+    k: float
+    U: float
+    p: float
+    rows: tuple[Row, ...]
+    groups: tuple[GroupRow, ...]
+    u_first_order: float
+    u_second_order: float
+    second_order: bool
+    warnings: tuple[str, ...]
+
+    @property
+    def interval(self) -> tuple[float, float]:
+        """The coverage interval estimate ± U."""
+        return self.estimate - self.U, self.estimate + self.U
+
+
+@dataclass(frozen=True)
+class MultiLinearResult:
+    """Linear method for a model with several outputs (JCGM 102 6.2: U_y = C U_x Cᵀ)."""
+
+    results: dict[str, LinearResult]
+    names: tuple[str, ...]
+    covariance: np.ndarray
+    jacobian: np.ndarray
+
+    def __getitem__(self, name: str) -> LinearResult:
+        return self.results[name]
+
+    @property
+    def correlation(self) -> np.ndarray:
+        s = np.sqrt(np.diag(self.covariance))
+        return self.covariance / np.outer(s, s)
+
+
+def coverage_factor(p: float, nu_eff: float) -> float:
+    """k = t_p(ν_eff) (JCGM 100 G.3.4, Table G.2); the normal quantile for ν = ∞."""
+    q = 0.5 * (1.0 + p)
+    if math.isinf(nu_eff):
+        return float(stats.norm.ppf(q))
+    return float(stats.t.ppf(q, nu_eff))
+
+
+def check_p(p: float) -> float:
+    """Validate a coverage probability."""
+    try:
+        v = float(p)
+    except (TypeError, ValueError):
+        raise field_error("p", "a number in (0, 1)", p) from None
+    if not 0.0 < v < 1.0:
+        raise field_error("p", "a number in (0, 1)", p)
+    return v
+
+
+def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray) -> float:
+    """Effective degrees of freedom, JCGM 100 eq. (G.2b), truncated per G.4.1 note 1.
+
+    Returns ``math.inf`` when every contribution has infinite degrees of freedom.
+    A value of at least one is truncated to the next lower integer.
+    """
+    finite = np.isfinite(dofs) & (contributions > 0)
+    if not finite.any() or u_c == 0.0:
+        return math.inf
+    denom = float(np.sum(contributions[finite] ** 4 / dofs[finite]))
+    if denom == 0.0:
+        return math.inf
+    nu = u_c**4 / denom
+    return float(math.floor(nu)) if nu >= 1.0 else float(nu)
+
+
+def _stencil_points(x0: np.ndarray, h: np.ndarray, second_order: bool) -> tuple[np.ndarray, dict]:
+    """All points at which the model is needed, as one (n_points, n_inputs) array."""
+    n = x0.size
+    pts = [x0]
+    index: dict = {"first": {}, "second": {}}
+    eye = np.eye(n)
+    for i in range(n):
+        for m in (-2, -1, 1, 2):
+            index["first"][(i, m)] = len(pts)
+            pts.append(x0 + m * h[i] * eye[i])
+    if second_order:
+        h2 = h * (STEP2 / STEP)
+        for i in range(n):
+            for m in (-2, -1, 1, 2):
+                index["second"][(i, m, None, 0)] = len(pts)
+                pts.append(x0 + m * h2[i] * eye[i])
+        for i in range(n):
+            for j in range(n):
+                if i == j:
+                    continue
+                for a in (-1, 1):
+                    for b in (-1, 0, 1):
+                        key = (i, a, j, b)
+                        index["second"][key] = len(pts)
+                        pts.append(x0 + a * h2[i] * eye[i] + b * h2[j] * eye[j])
+    return np.array(pts), index
+
+
+def _second_order_terms(
+    f: np.ndarray, f0: float, idx: dict, h2: np.ndarray, u: np.ndarray, c: np.ndarray
+) -> float:
+    """The double sum of JCGM 100 eq. (14) from the stencil values."""
+    n = u.size
+    total = 0.0
+    for i in range(n):
+        fp1, fm1 = f[idx[(i, 1, None, 0)]], f[idx[(i, -1, None, 0)]]
+        fp2, fm2 = f[idx[(i, 2, None, 0)]], f[idx[(i, -2, None, 0)]]
+        d2 = (fp1 - 2.0 * f0 + fm1) / h2[i] ** 2
+        d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * h2[i] ** 3)
+        total += (0.5 * d2**2 + c[i] * d3) * u[i] ** 4
+        for j in range(n):
+            if i == j:
+                continue
+
+            def g(a: int, b: int, i: int = i, j: int = j) -> float:
+                return f[idx[(i, a, j, b)]]
+
+            dij = (g(1, 1) - g(1, -1) - g(-1, 1) + g(-1, -1)) / (4.0 * h2[i] * h2[j])
+            dijj = (
+                (g(1, 1) - 2.0 * g(1, 0) + g(1, -1)) - (g(-1, 1) - 2.0 * g(-1, 0) + g(-1, -1))
+            ) / (2.0 * h2[i] * h2[j] ** 2)
+            total += (0.5 * dij**2 + c[i] * dijj) * u[i] ** 2 * u[j] ** 2
+    return total
+
+
+def _groups(
+    names: list[str], q: dict[str, InputQuantity], cu: np.ndarray, cov_share: np.ndarray,
+    dofs: np.ndarray, u_c2: float,
+) -> tuple[GroupRow, ...]:
+    order: dict[str, list[int]] = {}
+    for i, nm in enumerate(names):
+        order.setdefault(q[nm].group or nm, []).append(i)
+    out = []
+    for gname, idx in order.items():
+        share = float(cov_share[np.ix_(idx, idx)].sum())
+        contrib = math.sqrt(max(share, 0.0))
+        gdof = welch_satterthwaite(contrib, np.abs(cu[idx]), dofs[idx]) if contrib > 0 else math.inf
+        row_share = float(cov_share[idx, :].sum())
+        out.append(
+            GroupRow(
+                name=gname,
+                contribution=contrib,
+                percent=100.0 * row_share / u_c2 if u_c2 > 0 else 0.0,
+                dof=gdof,
+                evaluation="A" if any(q[names[i]].evaluation == "A" for i in idx) else "B",
+                inputs=tuple(names[i] for i in idx),
+                sources=tuple(dict.fromkeys(q[names[i]].source for i in idx if q[names[i]].source)),
+            )
+        )
+    return tuple(out)
+
+
+def linear(
+    model: Model,
+    inputs: Mapping,
+    p: float = 0.95,
+    correlation: Mapping[tuple[str, str], float] | None = None,
+    second_order: bool = False,
+) -> LinearResult | MultiLinearResult:
+    """Propagate the input uncertainties through ``model`` by JCGM 100.
+
+    Parameters
+    ----------
+    model : callable
+        Vectorized model ``f(**arrays) -> array`` or ``-> {name: array}``.
+    inputs : mapping
+        Input names to :class:`Distribution` or :class:`InputQuantity`.
+    p : float
+        Coverage probability for U.
+    correlation : mapping, optional
+        ``{(a, b): r_ab}`` correlation coefficients between inputs.
+    second_order : bool
+        Add the second-order terms of JCGM 100 eq. (14) (uncorrelated inputs only).
+
+    Returns
+    -------
+    LinearResult or MultiLinearResult
+        One result for a single-output model; for a mapping, one per output with
+        the output covariance C U_x Cᵀ.
+
+    Notes
+    -----
+    Estimates are the input expectations (JCGM 100 4.1.4). Sensitivities use the
+    five-point central difference with h_i = 10⁻²·u(x_i); u_c² = Σ_ij c_i c_j
+    u(x_i, x_j) (eq. 13); ν_eff by Welch–Satterthwaite (G.2b); k = t_p(ν_eff)
+    (G.3.4). A row's percent is its covariance share c_i u_i Σ_j r_ij c_j u_j / u_c²,
+    which reduces to (c_i u_i)²/u_c² for uncorrelated inputs and sums to 100 %.
+    """
+    p = check_p(p)
+    q = as_quantities(inputs)
+    names = list(q)
+    r = correlation_matrix(names, correlation)
+    if second_order and r is not None:
+        raise field_error("second_order", "False when inputs are correlated", True)
+    x0 = np.array([q[nm].distribution.mean for nm in names])
+    u = np.array([q[nm].distribution.u for nm in names])
+    dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
+    h = STEP * u
+    pts, idx = _stencil_points(x0, h, second_order)
+    out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
+    out_names = list(out)
+    n_in = len(names)
+    jac = np.empty((len(out_names), n_in))
+    for k, on in enumerate(out_names):
+        f = out[on]
+        for i in range(n_in):
+            fm2, fm1 = f[idx["first"][(i, -2)]], f[idx["first"][(i, -1)]]
+            fp1, fp2 = f[idx["first"][(i, 1)]], f[idx["first"][(i, 2)]]
+            jac[k, i] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h[i])
+    rr = np.eye(n_in) if r is None else r
+    cov_x = rr * np.outer(u, u)
+    cov_y = jac @ cov_x @ jac.T
+    results: dict[str, LinearResult] = {}
+    for k, on in enumerate(out_names):
+        c = jac[k]
+        cu = c * u
+        cov_share = np.outer(cu, cu) * rr
+        u1_2 = float(cov_share.sum())
+        u2_2 = 0.0
+        if second_order:
+            u2_2 = _second_order_terms(out[on], float(out[on][0]), idx["second"], h * (STEP2 / STEP), u, c)
+        u_c2 = u1_2 + u2_2
+        if u_c2 < 0:
+            u_c2 = 0.0
+        u_c = math.sqrt(u_c2)
+        contributions = np.abs(cu)
+        nu = welch_satterthwaite(u_c, contributions, dofs)
+        kf = coverage_factor(p, nu)
+        warn: list[str] = []
+        rows = []
+        for i, nm in enumerate(names):
+            qi = q[nm]
+            value, divisor = qi.distribution.quoted
+            share = float(cov_share[i, :].sum())
+            rows.append(
+                Row(
+                    name=nm, estimate=float(x0[i]), u=float(u[i]), sensitivity=float(c[i]),
+                    contribution=float(contributions[i]), dof=float(dofs[i]),
+                    percent=100.0 * share / u_c2 if u_c2 > 0 else 0.0,
+                    group=qi.group or nm, evaluation=qi.evaluation or "B",
+                    distribution=qi.distribution.describe(), unit=qi.unit, source=qi.source,
+                    value=float(value), divisor=float(divisor),
+                )
+            )
+            if u_c > 0 and contributions[i] < NEGLIGIBLE * u_c and not second_order:
+                warn.append(
+                    f"Input '{nm}' has zero first-order sensitivity at the estimate for "
+                    f"output '{on}': the linear method misses its effect; compare with "
+                    "Monte Carlo (JCGM 101 clause 8)."
+                )
+        groups = _groups(names, q, cu, cov_share, dofs, u_c2)
+        for g in groups:
+            if g.percent > 90.0 and len(groups) > 1:
+                warn.append(f"Component '{g.name}' carries {g.percent:.0f} % of the variance of '{on}'.")
+        results[on] = LinearResult(
+            output=on, estimate=float(out[on][0]), u=u_c, nu_eff=nu, k=kf, U=kf * u_c, p=p,
+            rows=tuple(rows), groups=groups, u_first_order=math.sqrt(max(u1_2, 0.0)),
+            u_second_order=math.sqrt(abs(u2_2)) * (1 if u2_2 >= 0 else -1),
+            second_order=second_order, warnings=tuple(warn),
+        )
+    if out_names == [SINGLE]:
+        return results[SINGLE]
+    return MultiLinearResult(results=results, names=tuple(out_names), covariance=cov_y, jacobian=jac)

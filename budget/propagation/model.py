@@ -1,0 +1,114 @@
+"""Calling a measurement model and checking what it returns; input correlations.
+
+A model is one vectorized function: it is called with keyword arrays named like
+its inputs (all of one length n) and returns an array of length n, or a mapping of
+output names to such arrays. The linear method calls it on a small batch of
+perturbed points, Monte Carlo on chunks of sampled points: one definition serves
+both methods.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+
+import numpy as np
+
+from budget.errors import BudgetInputError, field_error
+
+__all__ = ["evaluate", "correlation_matrix", "SINGLE"]
+
+SINGLE = "y"
+"""Output name used when the model returns one array."""
+
+Model = Callable[..., np.ndarray | Mapping[str, np.ndarray]]
+
+
+def evaluate(model: Model, points: Mapping[str, np.ndarray], n: int) -> dict[str, np.ndarray]:
+    """Call ``model(**points)`` and return ``{output name: float array of length n}``.
+
+    Raises
+    ------
+    BudgetInputError
+        When the model returns the wrong shape, or NaN or inf (naming the input
+        values of the first bad point).
+    """
+    raw = model(**points)
+    outputs = dict(raw) if isinstance(raw, Mapping) else {SINGLE: raw}
+    if not outputs:
+        raise field_error("model", "a function returning at least one output", "{}")
+    checked: dict[str, np.ndarray] = {}
+    for name, value in outputs.items():
+        arr = np.asarray(value, dtype=float)
+        if arr.shape != (n,):
+            raise field_error(
+                "model",
+                f"a function returning an array of shape ({n},) for output {name!r}",
+                f"shape {arr.shape}",
+            )
+        bad = ~np.isfinite(arr)
+        if bad.any():
+            i = int(np.argmax(bad))
+            at = ", ".join(f"{k}={float(np.asarray(v)[i]):.10g}" for k, v in points.items())
+            raise BudgetInputError(
+                f"The model returned {arr[i]} for output {name!r} at {at}; "
+                "it must be finite for every input value."
+            )
+        checked[name] = arr
+    return checked
+
+
+def correlation_matrix(
+    names: list[str], correlation: Mapping[tuple[str, str], float] | None
+) -> np.ndarray | None:
+    """Build the correlation matrix from ``{(a, b): r}`` pairs, or None when empty.
+
+    Raises
+    ------
+    BudgetInputError
+        For an unknown name, a coefficient outside [−1, 1], a pair given twice
+        with different values, or a matrix that is not positive semi-definite.
+    """
+    if not correlation:
+        return None
+    index = {n: i for i, n in enumerate(names)}
+    r = np.eye(len(names))
+    for pair, value in correlation.items():
+        if not (isinstance(pair, tuple) and len(pair) == 2):
+            raise field_error("correlation", "keys that are pairs of input names", pair)
+        a, b = pair
+        for nm in (a, b):
+            if nm not in index:
+                raise field_error("correlation", f"pairs of known inputs {sorted(index)}", nm)
+        if a == b:
+            raise field_error("correlation", "pairs of two different inputs", pair)
+        v = float(value)
+        if not (math.isfinite(v) and -1.0 <= v <= 1.0):
+            raise field_error(f"correlation[{pair!r}]", "a number in [-1, 1]", value)
+        i, j = index[a], index[b]
+        if r[i, j] != 0.0 and r[i, j] != v:
+            raise field_error(f"correlation[{pair!r}]", f"one value (also given {r[i, j]})", v)
+        r[i, j] = r[j, i] = v
+    smallest = float(np.linalg.eigvalsh(r).min())
+    if smallest < -1e-10:
+        raise field_error(
+            "correlation",
+            "a positive semi-definite matrix",
+            f"smallest eigenvalue {smallest:.3g}",
+        )
+    return r
+
+
+def correlated_factor(r: np.ndarray) -> np.ndarray:
+    """A factor L with L Lᵀ = r, valid for singular (semi-definite) r.
+
+    Notes
+    -----
+    JCGM 101 6.4.8.4 uses the Cholesky factor; an eigen-decomposition gives a
+    factor that also exists when r is only semi-definite (e.g. r = 1).
+    """
+    try:
+        return np.linalg.cholesky(r)
+    except np.linalg.LinAlgError:
+        w, v = np.linalg.eigh(r)
+        return v * np.sqrt(np.clip(w, 0.0, None))

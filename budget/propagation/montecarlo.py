@@ -1,0 +1,270 @@
+"""Propagation of distributions by Monte Carlo (JCGM 101:2008 clause 7).
+
+Inputs are sampled in chunks so that memory stays bounded by the outputs kept
+(one float per trial and output), not by the inputs: 10⁷ trials of a ten-input
+model never hold all input samples at once.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from budget.errors import field_error
+from budget.propagation.distributions import Normal
+from budget.propagation.linear import check_p
+from budget.propagation.model import SINGLE, Model, correlated_factor, correlation_matrix, evaluate
+from budget.propagation.quantities import as_quantities
+
+__all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
+           "numerical_tolerance"]
+
+CHUNK_VALUES = 2_000_000
+"""Input values drawn per model call (chunk size × number of inputs)."""
+MAX_TRIALS = 10_000_000
+"""Upper bound of the adaptive procedure; reaching it is reported as a warning."""
+
+
+@dataclass(frozen=True)
+class MonteCarloResult:
+    """Monte Carlo result for one output (JCGM 101 7.6–7.8).
+
+    ``interval`` is the probabilistically symmetric coverage interval (7.7),
+    ``shortest`` the shortest one (7.8); both are (low, high). ``samples`` holds
+    the sorted output values (the discrete representation G of 7.5).
+    """
+
+    output: str
+    estimate: float
+    u: float
+    interval: tuple[float, float]
+    shortest: tuple[float, float]
+    trials: int
+    p: float
+    seed: object
+    adaptive: bool
+    converged: bool
+    samples: np.ndarray = field(repr=False)
+    warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class MultiMonteCarloResult:
+    """Monte Carlo for several outputs: per-output results and their joint covariance."""
+
+    results: dict[str, MonteCarloResult]
+    names: tuple[str, ...]
+    covariance: np.ndarray
+    trials: int
+    seed: object
+    joint: dict[str, np.ndarray] = field(repr=False)
+
+    def __getitem__(self, name: str) -> MonteCarloResult:
+        return self.results[name]
+
+    @property
+    def correlation(self) -> np.ndarray:
+        s = np.sqrt(np.diag(self.covariance))
+        return self.covariance / np.outer(s, s)
+
+
+def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[float, float]]:
+    """Probabilistically symmetric and shortest coverage intervals of sorted values.
+
+    Notes
+    -----
+    JCGM 101 7.7: q = pM if integer, else int(pM + ½); y_low = y_(r),
+    y_high = y_(r+q) with r = (M − q)/2 if an integer, else int((M − q + 1)/2)
+    (1-based). JCGM 101 7.8: the shortest is y_(r*), y_(r*+q) with r* minimizing
+    y_(r+q) − y_(r), r = 1, …, M − q.
+    """
+    m = sorted_y.size
+    pm = p * m
+    q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
+    r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
+    r = max(r, 1)
+    symmetric = (float(sorted_y[r - 1]), float(sorted_y[r + q - 1]))
+    widths = sorted_y[q:] - sorted_y[: m - q]
+    rs = int(np.argmin(widths))
+    shortest = (float(sorted_y[rs]), float(sorted_y[rs + q]))
+    return symmetric, shortest
+
+
+def numerical_tolerance(u: float, n_dig: int) -> float:
+    """δ = ½·10^l where u written with n_dig significant digits is c·10^l (JCGM 101 7.9.2)."""
+    if not (isinstance(n_dig, int) and n_dig >= 1):
+        raise field_error("n_dig", "an integer >= 1", n_dig)
+    if u <= 0 or not math.isfinite(u):
+        return 0.0
+    l = math.floor(math.log10(u)) - (n_dig - 1)
+    # A u that rounds up to the next decade (e.g. 9.96 at two digits) moves l up.
+    if round(u / 10.0**l) >= 10**n_dig:
+        l += 1
+    return 0.5 * 10.0**l
+
+
+class _Sampler:
+    """Draws chunks of input vectors; correlated inputs through a factor of r."""
+
+    def __init__(self, q: dict, r: np.ndarray | None) -> None:
+        self.names = list(q)
+        self.dists = [q[n].distribution for n in self.names]
+        self.corr_idx: list[int] = []
+        self.factor = None
+        if r is not None:
+            involved = [i for i in range(len(self.names)) if np.any(r[i, np.arange(len(r)) != i] != 0)]
+            for i in involved:
+                if not isinstance(self.dists[i], Normal):
+                    raise field_error(
+                        "correlation",
+                        "pairs of Normal inputs for Monte Carlo (JCGM 101 6.4.8)",
+                        f"{self.names[i]} ({self.dists[i].kind})",
+                    )
+            self.corr_idx = involved
+            self.factor = correlated_factor(r[np.ix_(involved, involved)])
+
+    def draw(self, rng: np.random.Generator, size: int) -> dict[str, np.ndarray]:
+        out: dict[str, np.ndarray] = {}
+        if self.factor is not None:
+            z = rng.standard_normal(size=(size, len(self.corr_idx))) @ self.factor.T
+            for col, i in enumerate(self.corr_idx):
+                d = self.dists[i]
+                out[self.names[i]] = d.mean + d.sd * z[:, col]
+        for i, nm in enumerate(self.names):
+            if nm not in out:
+                out[nm] = self.dists[i].sample(rng, size)
+        return out
+
+
+def _run(model: Model, sampler: _Sampler, rng: np.random.Generator, trials: int,
+         chunk: int) -> dict[str, list[np.ndarray]]:
+    parts: dict[str, list[np.ndarray]] = {}
+    done = 0
+    while done < trials:
+        n = min(chunk, trials - done)
+        out = evaluate(model, sampler.draw(rng, n), n)
+        for k, v in out.items():
+            parts.setdefault(k, []).append(v)
+        done += n
+    return parts
+
+
+def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
+    s = np.sort(y)
+    (lo, hi), _ = coverage_intervals(s, p)
+    return float(y.mean()), float(y.std(ddof=1)), lo, hi
+
+
+def monte_carlo(
+    model: Model,
+    inputs: Mapping,
+    p: float = 0.95,
+    trials: int | None = None,
+    *,
+    rng: np.random.Generator,
+    correlation: Mapping[tuple[str, str], float] | None = None,
+    n_dig: int = 2,
+    max_trials: int = MAX_TRIALS,
+    progress: Callable[[int], None] | None = None,
+) -> MonteCarloResult | MultiMonteCarloResult:
+    """Propagate the input distributions through ``model`` by Monte Carlo.
+
+    Parameters
+    ----------
+    model : callable
+        Vectorized model ``f(**arrays) -> array`` or ``-> {name: array}``.
+    inputs : mapping
+        Input names to :class:`Distribution` or :class:`InputQuantity`.
+    p : float
+        Coverage probability.
+    trials : int, optional
+        Fixed number of trials M; ``None`` runs the adaptive procedure (JCGM 101 7.9).
+    rng : numpy.random.Generator
+        Source of random numbers; its seed entropy is recorded in the result.
+    correlation : mapping, optional
+        ``{(a, b): r}`` between Normal inputs (multivariate normal, JCGM 101 6.4.8).
+    n_dig : int
+        Significant digits of u(y) the adaptive procedure stabilizes (7.9.2).
+    max_trials : int
+        Cap of the adaptive procedure.
+    progress : callable, optional
+        Called with the number of trials done so far.
+
+    Notes
+    -----
+    Estimate and u from all M values (7.6, u with M − 1); intervals per 7.7 and
+    7.8. Adaptive: sequences of M = max(J, 10⁴) trials with J the least integer
+    ≥ 100/(1 − p), until twice the standard deviation of each sequence average
+    (y, u, y_low, y_high) is at most δ of 7.9.2 for every output (7.9.4).
+    """
+    p = check_p(p)
+    q = as_quantities(inputs)
+    if not isinstance(rng, np.random.Generator):
+        raise field_error("rng", "a numpy.random.Generator", rng)
+    r = correlation_matrix(list(q), correlation)
+    sampler = _Sampler(q, r)
+    j_min = math.ceil(100.0 / (1.0 - p) - 1e-9)
+    seed = getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
+    chunk = max(1000, CHUNK_VALUES // max(1, len(q)))
+    warns: list[str] = []
+    if trials is not None:
+        if not isinstance(trials, int | np.integer) or trials < j_min:
+            raise field_error("trials", f"an integer >= {j_min} (100/(1-p), JCGM 101 7.9.4)", trials)
+        parts = _run(model, sampler, rng, int(trials), chunk)
+        if progress:
+            progress(int(trials))
+        converged, adaptive = True, False
+    else:
+        seq = max(j_min, 10_000)
+        per_call = max(1, chunk // seq)
+        parts = {}
+        stats: dict[str, list[tuple[float, float, float, float]]] = {}
+        converged, adaptive, h = False, True, 0
+        while h * seq < max_trials:
+            n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
+            out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
+            for k, v in out.items():
+                parts.setdefault(k, []).append(v)
+                for s in range(n_seq):
+                    stats.setdefault(k, []).append(_summaries(v[s * seq:(s + 1) * seq], p))
+            h += n_seq
+            if progress:
+                progress(h * seq)
+            if h >= 2 and all(_stable(np.array(stats[k]), n_dig) for k in stats):
+                converged = True
+                break
+        if not converged:
+            warns.append(
+                f"The adaptive Monte Carlo procedure did not stabilize {n_dig} significant "
+                f"digits within {max_trials} trials (JCGM 101 7.9)."
+            )
+    joint = {k: np.concatenate(v) for k, v in parts.items()}
+    results: dict[str, MonteCarloResult] = {}
+    for k, y in joint.items():
+        s = np.sort(y)
+        sym, short = coverage_intervals(s, p)
+        results[k] = MonteCarloResult(
+            output=k, estimate=float(y.mean()), u=float(y.std(ddof=1)), interval=sym,
+            shortest=short, trials=int(y.size), p=p, seed=seed, adaptive=adaptive,
+            converged=converged, samples=s, warnings=tuple(warns),
+        )
+    names = tuple(joint)
+    if names == (SINGLE,):
+        return results[SINGLE]
+    cov = np.atleast_2d(np.cov(np.vstack([joint[k] for k in names])))
+    return MultiMonteCarloResult(results=results, names=names, covariance=cov,
+                                 trials=int(joint[names[0]].size), seed=seed, joint=joint)
+
+
+def _stable(seq_stats: np.ndarray, n_dig: int) -> bool:
+    """JCGM 101 7.9.4 step (f)-(g): 2·s ≤ δ for y, u, y_low and y_high."""
+    h = seq_stats.shape[0]
+    sds = seq_stats.std(axis=0, ddof=1) / math.sqrt(h)
+    # u(y) of all h sequences pooled: within-sequence plus between-sequence variance
+    # (sequences of equal length, so the weights cancel to this form).
+    u_all = float(np.sqrt(np.mean(seq_stats[:, 1] ** 2) + np.var(seq_stats[:, 0])))
+    delta = numerical_tolerance(u_all, n_dig)
+    return bool(np.all(2.0 * sds <= delta))

@@ -1,0 +1,81 @@
+"""Rounding results for a statement (JCGM 100:2008 7.2.6)."""
+
+from __future__ import annotations
+
+import math
+from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal
+
+from budget.errors import field_error
+
+__all__ = ["round_pair", "statement", "interval_statement"]
+
+_MODES = {"nearest": ROUND_HALF_UP, "up": ROUND_UP, "even": ROUND_HALF_EVEN}
+
+
+def _exponent_for(value: float, digits: int) -> int:
+    """Decimal exponent of the last kept digit when ``value`` keeps ``digits`` significant digits."""
+    e = math.floor(math.log10(abs(value))) - (digits - 1)
+    # 9.96 at two digits rounds to 10: the last kept digit moves up one decade.
+    if abs(round(value / 10.0**e)) >= 10**digits:
+        e += 1
+    return e
+
+
+def round_pair(estimate: float, uncertainty: float, digits: int = 2,
+               mode: str = "nearest") -> tuple[str, str]:
+    """Round an uncertainty to ``digits`` significant digits and the estimate to match.
+
+    Returns decimal strings, e.g. ``round_pair(1.23412, 0.001534) -> ("1.2341", "0.0015")``.
+
+    Notes
+    -----
+    JCGM 100 7.2.6: at most two significant digits for the uncertainty; the
+    estimate rounded to the same decimal place. ``mode="up"`` rounds the
+    uncertainty up, which 7.2.6 allows ("it may sometimes be appropriate to round
+    uncertainties up rather than to the nearest digit").
+    """
+    if digits not in (1, 2):
+        raise field_error("digits", "1 or 2 (JCGM 100 7.2.6)", digits)
+    if mode not in _MODES:
+        raise field_error("mode", f"one of {sorted(_MODES)}", mode)
+    if not (math.isfinite(uncertainty) and uncertainty > 0):
+        raise field_error("uncertainty", "a finite number > 0", uncertainty)
+    if not math.isfinite(estimate):
+        raise field_error("estimate", "a finite number", estimate)
+    e = _exponent_for(uncertainty, digits)
+    quantum = Decimal(1).scaleb(e)
+    u_dec = Decimal(repr(uncertainty)).quantize(quantum, rounding=_MODES[mode])
+    if u_dec.adjusted() - (digits - 1) > e:  # rounded up into the next decade
+        quantum = Decimal(1).scaleb(e + 1)
+        u_dec = u_dec.quantize(quantum, rounding=_MODES[mode])
+    y_dec = Decimal(repr(estimate)).quantize(quantum, rounding=ROUND_HALF_EVEN)
+    return format(y_dec, "f"), format(u_dec, "f")
+
+
+def statement(name: str, estimate: float, U: float, k: float, p: float, unit: str = "",
+              digits: int = 2) -> str:
+    """A result statement such as ``y = (1.2340 ± 0.0015) mg, k = 2.12, p ≈ 95 %``.
+
+    Notes
+    -----
+    JCGM 100 7.2.4 (form of an expanded-uncertainty statement) and 7.2.6 (rounding).
+    """
+    y, u = round_pair(estimate, U, digits)
+    unit_txt = f" {unit}" if unit else ""
+    return f"{name} = ({y} ± {u}){unit_txt}, k = {k:.2f}, p ≈ {_percent(p)} %"
+
+
+def interval_statement(name: str, estimate: float, u: float, interval: tuple[float, float],
+                       p: float, unit: str = "", digits: int = 2) -> str:
+    """A Monte Carlo statement: estimate, u and the coverage interval (JCGM 101 7.6–7.8)."""
+    y, uu = round_pair(estimate, u, digits)
+    places = max(0, -Decimal(uu).as_tuple().exponent)
+    lo, hi = (f"{v:.{places}f}" for v in interval)
+    unit_txt = f" {unit}" if unit else ""
+    return (f"{name} = {y}{unit_txt}, u = {uu}{unit_txt}, "
+            f"{_percent(p)} % coverage interval [{lo}, {hi}]{unit_txt}")
+
+
+def _percent(p: float) -> str:
+    v = 100.0 * p
+    return f"{v:.0f}" if abs(v - round(v)) < 1e-9 else f"{v:g}"
