@@ -318,7 +318,9 @@ def linear(
                     value=float(value), divisor=float(divisor),
                 )
             )
-            if u_c > 0 and contributions[i] < NEGLIGIBLE * u_c and not second_order:
+            # u_c = 0 (every sensitivity zero, e.g. y = x² at x = 0) is the case that most
+            # needs the warning, so the comparison is <=, not guarded by u_c > 0.
+            if not second_order and contributions[i] <= NEGLIGIBLE * u_c:
                 warn.append(
                     f"Input '{nm}' has zero first-order sensitivity at the estimate for "
                     f"output '{on}': the linear method misses its effect; compare with "
