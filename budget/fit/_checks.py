@@ -28,7 +28,7 @@ def shown(value: object) -> Said:
     """Describe ``value`` on one line for an error message."""
     arr = np.asarray(value, dtype=object)
     if arr.ndim == 0:
-        return Said(repr(value))
+        return Said(repr(value.item() if isinstance(value, np.generic) else value))
     if arr.size <= 6:
         return Said(repr(arr.tolist()))
     return Said(f"an array of shape {arr.shape}")
@@ -37,7 +37,7 @@ def shown(value: object) -> Said:
 def _first_bad(mask: np.ndarray, values: np.ndarray) -> Said:
     index = np.flatnonzero(mask.ravel())[0]
     where = np.unravel_index(index, values.shape) if values.ndim > 1 else int(index)
-    return Said(f"{values.ravel()[index]!r} at index {where}")
+    return Said(f"{values.ravel()[index].item()!r} at index {where}")
 
 
 def as_float_array(value: object, field: str, where: str) -> np.ndarray:
@@ -69,7 +69,7 @@ def points(value: object, field: str, where: str, n: int | None = None) -> np.nd
 def spread_x(x: np.ndarray, field: str, where: str) -> None:
     """The abscissae must not all be equal: a slope needs two distinct values."""
     if np.all(x == x[0]):
-        raise field_error(field, "values that are not all equal", shown(x), where)
+        raise field_error(field, "an array whose values are not all equal", shown(x), where)
 
 
 def uncertainties(value: object, n: int, field: str, where: str) -> np.ndarray:
