@@ -121,7 +121,8 @@ class StraightLine:
 
         Notes
         -----
-        First-order propagation (JCGM 100 eq. 13, ISO/TS 28037 clause 10):
+        First-order propagation (JCGM 100 eq. 13; ISO/TS 28037 clause 11, use of the calibration
+        function, clause number from memory):
         y0 = a + b·x0, u²(y0) = [x0, 1] C [x0, 1]ᵀ + (b·u(x0))².
         """
         where = "StraightLine.predict"
@@ -150,8 +151,9 @@ class StraightLine:
 
         Notes
         -----
-        First-order propagation (JCGM 100 eq. 13; ISO/TS 28037 clause 10, the
-        inverse use of a calibration function): x0 = (y0 − a)/b with
+        First-order propagation (JCGM 100 eq. 13; ISO/TS 28037 clause 11, the
+        inverse use of a calibration function, clause number from memory):
+        x0 = (y0 − a)/b with
         u²(x0) = ([x0, 1] C [x0, 1]ᵀ + u²(y0)) / b², which includes the
         covariance of a and b.
         """
