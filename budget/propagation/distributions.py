@@ -120,7 +120,10 @@ class Normal(Distribution):
         w = "Normal"
         object.__setattr__(self, "mean", _finite("mean", self.mean, w))
         object.__setattr__(self, "sd", _positive("sd", self.sd, w))
-        dof = float(self.dof)
+        try:
+            dof = float(self.dof)
+        except (TypeError, ValueError):
+            raise field_error("dof", "a number > 0 (or inf)", self.dof, w) from None
         if math.isnan(dof) or dof <= 0:
             raise field_error("dof", "a number > 0 (or inf)", self.dof, w)
         if self.rel_u_of_u is not None:
