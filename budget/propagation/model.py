@@ -82,7 +82,10 @@ def correlation_matrix(
                 raise field_error("correlation", f"pairs of known inputs {sorted(index)}", nm)
         if a == b:
             raise field_error("correlation", "pairs of two different inputs", pair)
-        v = float(value)
+        try:
+            v = float(value)
+        except (TypeError, ValueError):
+            raise field_error(f"correlation[{pair!r}]", "a number in [-1, 1]", value) from None
         if not (math.isfinite(v) and -1.0 <= v <= 1.0):
             raise field_error(f"correlation[{pair!r}]", "a number in [-1, 1]", value)
         i, j = index[a], index[b]
