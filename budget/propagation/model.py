@@ -73,6 +73,7 @@ def correlation_matrix(
         return None
     index = {n: i for i, n in enumerate(names)}
     r = np.eye(len(names))
+    seen: dict[tuple[int, int], float] = {}
     for pair, value in correlation.items():
         if not (isinstance(pair, tuple) and len(pair) == 2):
             raise field_error("correlation", "keys that are pairs of input names", pair)
@@ -89,8 +90,10 @@ def correlation_matrix(
         if not (math.isfinite(v) and -1.0 <= v <= 1.0):
             raise field_error(f"correlation[{pair!r}]", "a number in [-1, 1]", value)
         i, j = index[a], index[b]
-        if r[i, j] != 0.0 and r[i, j] != v:
-            raise field_error(f"correlation[{pair!r}]", f"one value (also given {r[i, j]})", v)
+        key = (min(i, j), max(i, j))
+        if key in seen and seen[key] != v:
+            raise field_error(f"correlation[{pair!r}]", f"one value (also given {seen[key]})", v)
+        seen[key] = v
         r[i, j] = r[j, i] = v
     smallest = float(np.linalg.eigvalsh(r).min())
     if smallest < -1e-10:
