@@ -34,7 +34,7 @@ class GaussianFit:
     background : numpy.ndarray
         Fitted background per pixel, image units.
     converged : numpy.ndarray
-        True where the last centre step was below `tol_px`.
+        True where the last step was below the tolerance (see `tol_px`).
     n_iter : int
         Iterations used.
     """
@@ -120,7 +120,9 @@ def fit_gaussian_spots(images, *, sigma_px: float | None = None, window_px: int 
     max_iter : int
         Largest number of Levenberg-Marquardt iterations.
     tol_px : float
-        Convergence: an accepted centre step below this in both axes.
+        Convergence: an accepted step below this in centre and sigma (px),
+        below ``tol_px * signal`` in signal and ``tol_px * signal / (h w)`` in
+        background.
 
     Returns
     -------
@@ -194,7 +196,10 @@ def fit_gaussian_spots(images, *, sigma_px: float | None = None, window_px: int 
         p[act] = np.where(better[:, None], trial, pa)
         cost[act] = np.where(better, t_cost, cost[act])
         lam[act] = np.where(better, lam[act] / 3.0, lam[act] * 3.0)
-        small = np.all(np.abs(step[:, :2]) < tol_px, axis=1)
+        scale = np.column_stack([np.ones((act.size, 2)), pa[:, 2], pa[:, 2] / (h * w)])
+        if fixed is None:
+            scale = np.column_stack([scale, np.ones(act.size)])
+        small = np.all(np.abs(step) < tol_px * scale, axis=1)
         converged[act] = small & (better | (lam[act] > 1e12))
     sig = fixed if fixed is not None else p[:, 4]
     return GaussianFit(x_px=p[:, 0] + x_off, y_px=p[:, 1] + y_off, sigma_px=sig,
