@@ -304,6 +304,7 @@ def linear(
         kf = coverage_factor(p, nu)
         warn: list[str] = []
         rows = []
+        zero: list[str] = []
         for i, nm in enumerate(names):
             qi = q[nm]
             value, divisor = qi.distribution.quoted
@@ -321,11 +322,13 @@ def linear(
             # u_c = 0 (every sensitivity zero, e.g. y = x² at x = 0) is the case that most
             # needs the warning, so the comparison is <=, not guarded by u_c > 0.
             if not second_order and contributions[i] <= NEGLIGIBLE * u_c:
-                warn.append(
-                    f"Input '{nm}' has zero first-order sensitivity at the estimate for "
-                    f"output '{on}': the linear method misses its effect; compare with "
-                    "Monte Carlo (JCGM 101 clause 8)."
-                )
+                zero.append(f"'{nm}'")
+        if zero:
+            which = f"Input {zero[0]} has" if len(zero) == 1 else f"Inputs {', '.join(zero)} have"
+            warn.append(
+                f"{which} zero first-order sensitivity at the estimate for output '{on}': the "
+                "linear method misses their effect; compare with Monte Carlo (JCGM 101 clause 8)."
+            )
         groups = _groups(names, q, cu, cov_share, dofs, u_c2)
         for g in groups:
             if g.percent > 90.0 and len(groups) > 1:
