@@ -1,0 +1,193 @@
+"""JCGM 101:2008 (GUM Supplement 1) clause 9 examples and the clause 8 verdicts.
+
+Published figures are those of the case files in ``references/jcgm101_*.toml``;
+they were recalled, not read ([memory]), except where a value is derived
+exactly from the stated inputs ([derived]). Monte Carlo tolerances come from
+the Monte Carlo standard error at the number of trials used here:
+
+* estimate: u/√M; standard uncertainty: u·√(1/(2(M−1))) (normal theory);
+* endpoint of a probabilistically symmetric interval (a sample quantile):
+  √(p(1−p)/M)/f(y_p), f the output density at the quantile (asymptotic
+  variance of a sample quantile, no bootstrap), with f from the exact output
+  distribution;
+
+each times four, so a correct engine fails with probability well below 10⁻³
+(and the seed is fixed anyway).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from budget.propagation import linear, monte_carlo, validate
+from budget.selftest import MODELS, build_inputs, load_cases, run_case
+
+CASES = {c.id: c for c in load_cases() if c.id.startswith("jcgm101")}
+
+# [derived] exact outputs, computed once from the stated inputs (see the case files):
+Q975_9_2_2 = 2.0 * 1.959963984540054          # N(0, 4): 3.919928
+Q975_9_2_3 = 3.879406741347818                # Irwin–Hall (n = 4), scaled to sd 2
+F_9_2_3 = 0.032799827854423896                # its density at Q975_9_2_3
+Q975_9_2_4 = 17.015814110321887               # Irwin–Hall (n = 3) * rectangular sd 10
+F_9_2_4 = 0.016331545895880845
+
+
+def quantile_se(p_tail: float, trials: int, density: float) -> float:
+    """Standard error of a sample quantile: √(p(1−p)/M)/f (asymptotic normal theory)."""
+    return math.sqrt(p_tail * (1.0 - p_tail) / trials) / density
+
+
+def _run(case_id: str, trials: int | None, seed: int):
+    case = CASES[case_id]
+    inputs = build_inputs(case)
+    model = MODELS[case.model]
+    lin = linear(model, inputs, p=case.p)
+    mc = monte_carlo(model, inputs, p=case.p, trials=trials, rng=np.random.default_rng(seed))
+    return case, inputs, model, lin, mc
+
+
+@pytest.mark.parametrize("case_id", sorted(CASES))
+def test_published_values(case_id):
+    """Every expected value of the case file, with the tolerance stated there."""
+    rows = run_case(CASES[case_id], rng=np.random.default_rng(101))
+    bad = [f"{r.quantity}: published {r.published}, computed {r.computed}, tol {r.tolerance}"
+           for r in rows if not r.passed]
+    assert not bad, "\n".join(bad)
+
+
+def test_9_2_2_interval_against_exact_normal():
+    """[derived] JCGM 101 9.2.2: Y ~ N(0, 4) exactly, so the 95 % interval is ±1.96·2."""
+    _, _, _, lin, mc = _run("jcgm101-9.2.2", 200_000, 1)
+    tol = 4 * quantile_se(0.025, 200_000, 0.02922253490251769)
+    assert lin.U == pytest.approx(Q975_9_2_2, abs=1e-9)
+    assert mc.interval[0] == pytest.approx(-Q975_9_2_2, abs=tol)
+    assert mc.interval[1] == pytest.approx(Q975_9_2_2, abs=tol)
+
+
+def test_9_2_3_interval_against_exact_irwin_hall():
+    """[derived] JCGM 101 9.2.3: the exact 95 % interval of the sum of four R(−√3, √3) is ±3.8794."""
+    _, _, _, _, mc = _run("jcgm101-9.2.3", 200_000, 2)
+    tol = 4 * quantile_se(0.025, 200_000, F_9_2_3)       # 0.043
+    assert mc.interval[0] == pytest.approx(-Q975_9_2_3, abs=tol)
+    assert mc.interval[1] == pytest.approx(Q975_9_2_3, abs=tol)
+    assert mc.u == pytest.approx(2.0, abs=4 * 2.0 / math.sqrt(2 * (200_000 - 1)))
+
+
+def test_9_2_3_verdict_depends_on_n_dig():
+    """JCGM 101 9.2.3 with the clause 8 rule, worked out from the numbers [derived].
+
+    u(y) = 2 gives δ = 0.5, 0.05, 0.005 at n_dig = 1, 2, 3 (7.9.2). The GUF
+    endpoint 3.9199 and the exact MCM endpoint 3.8794 differ by d = 0.0405, so:
+    validated at n_dig = 1 and 2 (0.0405 < 0.05), not validated at n_dig = 3.
+    REFERENCES.md recalls "not validated at n_dig = 2" [memory]; that does not
+    follow from δ = 0.05 and the published ±3.92 / ±3.88, so this test asserts
+    what the numbers imply. The margin at n_dig = 2 is only 0.0095, hence
+    M = 8·10⁶: quantile SE 0.0017, a margin of 5.6 SE.
+    """
+    m = 8_000_000
+    _, _, _, lin, mc = _run("jcgm101-9.2.3", m, 3)
+    se = quantile_se(0.025, m, F_9_2_3)
+    d_exact = Q975_9_2_2 - Q975_9_2_3
+    deltas = {1: 0.5, 2: 0.05, 3: 0.005}
+    verdicts = {1: True, 2: True, 3: False}
+    for n_dig, delta in deltas.items():
+        v = validate(lin, mc, n_dig=n_dig)
+        assert v.delta == pytest.approx(delta, rel=1e-12)
+        assert v.d_low == pytest.approx(d_exact, abs=4 * se)
+        assert v.d_high == pytest.approx(d_exact, abs=4 * se)
+        assert v.validated is verdicts[n_dig], n_dig
+
+
+def test_9_2_4_interval_against_exact_convolution():
+    """[derived] JCGM 101 9.2.4: exact 95 % endpoint 17.016 (published MCM ±17.0 [memory])."""
+    _, _, _, lin, mc = _run("jcgm101-9.2.4", 200_000, 4)
+    tol = 4 * quantile_se(0.025, 200_000, F_9_2_4)       # 0.086
+    assert mc.interval[0] == pytest.approx(-Q975_9_2_4, abs=tol)
+    assert mc.interval[1] == pytest.approx(Q975_9_2_4, abs=tol)
+    v = validate(lin, mc, n_dig=2)
+    assert v.delta == 0.5
+    assert not v.validated
+    assert v.d_high == pytest.approx(lin.U - Q975_9_2_4, abs=tol)   # 2.88
+
+
+def test_9_3_second_order_terms_exact():
+    """[derived] JCGM 100 eq. (14) for the JCGM 101 9.3 model has two non-zero cross terms.
+
+    At ρa = ρa0 only ∂²δm/∂ρa∂ρW = −m/ρW² and ∂²δm/∂ρa∂ρR = m/ρR² survive
+    (m = 100 001.234 mg, ρW = ρR = 8000 kg/m³); each enters once per ordered pair,
+    ½·c² twice. Numerical differentiation is the only error (tolerance 1e-4 relative).
+    """
+    case = CASES["jcgm101-9.3"]
+    inputs = build_inputs(case)
+    model = MODELS[case.model]
+    lin1 = linear(model, inputs, p=case.p)
+    lin2 = linear(model, inputs, p=case.p, second_order=True)
+    m = 100_001.234
+    u_a, u_w, u_r = (inputs[k].sd for k in ("rho_a", "rho_w", "rho_r"))
+    extra = (m / 8000.0**2 * u_a * u_w) ** 2 + (m / 8000.0**2 * u_a * u_r) ** 2
+    # rel 1e-6: cancellation in (m_Rc + δm_Rc)·(…) − m_nom at 10⁵ mg limits the differences
+    assert lin1.u == pytest.approx(math.hypot(0.050, 0.020), rel=1e-6)
+    assert lin2.u**2 - lin1.u**2 == pytest.approx(extra, rel=1e-4)
+    assert lin2.u == pytest.approx(0.074964, abs=2e-6)
+
+
+def test_9_3_verdicts():
+    """JCGM 101 9.3 verdicts from the published figures and the clause 8 rule [derived].
+
+    First order: d_low = |1.1285 − 1.0834| = 0.045, not validated at n_dig = 1 or 2.
+    Second order: d = 0.0036 and 0.0015 against δ = 0.005 (n_dig = 1): validated;
+    against δ = 0.0005 (n_dig = 2): not validated. Compared with the shortest
+    interval, as the example reports it. Our d is 0.0027 ± 0.001 at M = 10⁶ (sd
+    of the shortest-interval endpoints from 40 offline replications, see the
+    case file): the n_dig = 1 verdict has a margin of about 2.3 sd, and the fixed
+    seed makes the run reproducible.
+    """
+    case = CASES["jcgm101-9.3"]
+    inputs = build_inputs(case)
+    model = MODELS[case.model]
+    lin1 = linear(model, inputs, p=case.p)
+    lin2 = linear(model, inputs, p=case.p, second_order=True)
+    mc = monte_carlo(model, inputs, p=case.p, trials=1_000_000, rng=np.random.default_rng(93))
+    assert not validate(lin1, mc, n_dig=1, interval="shortest").validated
+    assert not validate(lin1, mc, n_dig=2, interval="shortest").validated
+    v1 = validate(lin2, mc, n_dig=1, interval="shortest")
+    v2 = validate(lin2, mc, n_dig=2, interval="shortest")
+    assert (v1.delta, v2.delta) == (pytest.approx(0.005), pytest.approx(0.0005))
+    assert v1.validated and not v2.validated
+    # the symmetric interval is better determined (quantile SE 2e-4) and gives the same verdicts
+    assert validate(lin2, mc, n_dig=1).validated
+    assert not validate(lin2, mc, n_dig=2).validated
+
+
+def test_adaptive_procedure_9_2_2():
+    """JCGM 101 7.9.4 on 9.2.2 (n_dig = 2, δ = 0.05).
+
+    Sequences of M = max(J, 10⁴) = 10⁴ trials (J = 100/(1 − p) = 2000); at least
+    two sequences; at the stop 2·s ≤ δ for y, u, y_low, y_high, so each result is
+    within δ of the exact value with high probability (exact: 0, 2, ±3.9199).
+    """
+    case = CASES["jcgm101-9.2.2"]
+    mc = monte_carlo(MODELS[case.model], build_inputs(case), p=case.p, trials=None,
+                     rng=np.random.default_rng(7), n_dig=2)
+    assert mc.trials % 10_000 == 0 and mc.trials >= 20_000
+    assert mc.estimate == pytest.approx(0.0, abs=0.05)
+    assert mc.u == pytest.approx(2.0, abs=0.05)
+    assert mc.interval[0] == pytest.approx(-Q975_9_2_2, abs=0.05)
+    assert mc.interval[1] == pytest.approx(Q975_9_2_2, abs=0.05)
+
+
+@pytest.mark.xfail(strict=True, reason="engine checks the 7.9.4 criterion only every "
+                   "CHUNK_VALUES/(n_inputs*10^4) sequences (50 here): stops at 5e5 trials")
+def test_adaptive_procedure_stops_at_first_stable_sequence():
+    """JCGM 101 7.9.4 h): the criterion is checked after every sequence.
+
+    [derived] Replaying the criterion on 20 seeds of 9.2.2 (sequences of 10⁴ normal
+    sums) it is first met at h = 2 … 9; h ≤ 20 (2·10⁵ trials) leaves a wide margin.
+    """
+    case = CASES["jcgm101-9.2.2"]
+    mc = monte_carlo(MODELS[case.model], build_inputs(case), p=case.p, trials=None,
+                     rng=np.random.default_rng(7), n_dig=2)
+    assert mc.trials <= 200_000
