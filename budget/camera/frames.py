@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 import os
 import tempfile
+from collections.abc import Sequence
 from dataclasses import asdict, dataclass
 from pathlib import Path
 
@@ -55,7 +56,7 @@ def _read_tiff(path: Path) -> np.ndarray:
     return arr
 
 
-def read_frame(path) -> np.ndarray:
+def read_frame(path: str | os.PathLike) -> np.ndarray:
     """Read one grayscale frame.
 
     Parameters
@@ -184,7 +185,8 @@ def _drift(v: np.ndarray) -> tuple[float, float]:
     return d, float(stats.ttest_ind(second, first, equal_var=False).pvalue)
 
 
-def locate_frames(paths, roi=None, method: str = "com", *,
+def locate_frames(paths: Sequence[str | os.PathLike],
+                  roi: tuple[int, int, int, int] | None = None, method: str = "com", *,
                   window_px: int | None = None) -> FramesResult:
     """Locate a still target in each frame and summarize the scatter.
 
@@ -269,7 +271,7 @@ def locate_frames(paths, roi=None, method: str = "com", *,
         drift_x_px=dx, drift_y_px=dy, drift_p_x=px_, drift_p_y=py_, drift_verdict=verdict)
 
 
-def write_frames_csv(result: FramesResult, path, *, position_id: str = "P1",
+def write_frames_csv(result: FramesResult, path: str | os.PathLike, *, position_id: str = "P1",
                      overwrite: bool = False) -> Path:
     """Write the per-frame positions as CSV with columns ``position,frame,x_px,y_px``.
 

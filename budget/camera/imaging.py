@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.special import erf
 from scipy.stats import ncx2
 
@@ -122,7 +123,7 @@ def _blurred_disk_profile(radius_px: float, sigma_px: float):
 def expected_electrons(
     *,
     shape: tuple[int, int],
-    centre_xy,
+    centre_xy: ArrayLike,
     kind: str = "gaussian",
     sigma_px: float,
     diameter_px: float | None = None,
@@ -228,7 +229,7 @@ def expected_electrons(
 def render_target(
     *,
     shape: tuple[int, int],
-    centre_xy,
+    centre_xy: ArrayLike,
     kind: str = "gaussian",
     sigma_px: float,
     diameter_px: float | None = None,

@@ -19,6 +19,7 @@ The pixel-locking bias and noise of these locators are in
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from budget.camera.image_stack import (
     as_stack,
@@ -39,7 +40,7 @@ __all__ = [
     "threshold_centroid",
 ]
 
-def integer_peak(images):
+def integer_peak(images: ArrayLike):
     """Brightest pixel: the integer locator.
 
     Parameters
@@ -62,7 +63,7 @@ def integer_peak(images):
     return output_xy(j.astype(float), i.astype(float), single)
 
 
-def centre_of_mass(images, *, window_px: int | None = None, background="median-border",
+def centre_of_mass(images: ArrayLike, *, window_px: int | None = None, background="median-border",
                    threshold: float | None = None):
     """Intensity-weighted centroid (centre of mass).
 
@@ -115,7 +116,7 @@ def centre_of_mass(images, *, window_px: int | None = None, background="median-b
     return output_xy(x + x_off, y + y_off, single)
 
 
-def threshold_centroid(images, *, level: float = 0.5, background="median-border",
+def threshold_centroid(images: ArrayLike, *, level: float = 0.5, background="median-border",
                        window_px: int | None = None):
     """Area centroid of the pixels above a fraction of the peak.
 
@@ -161,7 +162,7 @@ def threshold_centroid(images, *, level: float = 0.5, background="median-border"
     return output_xy(x + x_off, y + y_off, single)
 
 
-def gaussian_fit(images, *, sigma_px: float | None = None, window_px: int | None = None,
+def gaussian_fit(images: ArrayLike, *, sigma_px: float | None = None, window_px: int | None = None,
                  pixel: str = "integrated", max_iter: int = 100):
     """Centre of a least-squares 2-D Gaussian fit (see :func:`fit_gaussian_spots`).
 

@@ -8,6 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.special import erf
 
 from budget.camera.image_stack import as_stack, border_background, window_around_peak
@@ -101,7 +102,7 @@ def _normal_equations(factors, resid):
     return mix @ gram @ mix.T, g_terms @ mix.T
 
 
-def fit_gaussian_spots(images, *, sigma_px: float | None = None, window_px: int | None = None,
+def fit_gaussian_spots(images: ArrayLike, *, sigma_px: float | None = None, window_px: int | None = None,
                        pixel: str = "integrated", max_iter: int = 100,
                        tol_px: float = 1e-6) -> GaussianFit:
     """Least-squares fit of a 2-D Gaussian plus constant background to each image.

@@ -29,6 +29,7 @@ What the derivation found (checked to 1e-14 px against noiseless renders in
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.special import erf
 
 from budget.errors import field_error
@@ -60,7 +61,7 @@ def _check_non_negative(value, field: str, where: str) -> np.ndarray:
     return v
 
 
-def thompson_variance(s_px, a_px, N, b):
+def thompson_variance(s_px: ArrayLike, a_px: ArrayLike, N: ArrayLike, b: ArrayLike) -> np.ndarray:
     """Localization variance of a Gaussian spot, Thompson, Larson & Webb 2002.
 
     Parameters
@@ -93,7 +94,8 @@ def thompson_variance(s_px, a_px, N, b):
     return (s**2 + a**2 / 12.0) / n + 8.0 * np.pi * s**4 * b**2 / (a**2 * n**2)
 
 
-def mortensen_variance(s_px, a_px, N, b2):
+def mortensen_variance(s_px: ArrayLike, a_px: ArrayLike, N: ArrayLike,
+                       b2: ArrayLike) -> np.ndarray:
     """Variance of a least-squares Gaussian fit, Mortensen et al. 2010.
 
     Parameters
@@ -126,7 +128,7 @@ def mortensen_variance(s_px, a_px, N, b2):
     return sa2 / n * (16.0 / 9.0 + 8.0 * np.pi * sa2 * b2 / (n * a**2))
 
 
-def com_variance(s_px, N, b2, window_px: int):
+def com_variance(s_px: ArrayLike, N: ArrayLike, b2: ArrayLike, window_px: int) -> np.ndarray:
     """Variance of the centre of mass with the background known and subtracted.
 
     Parameters
@@ -162,7 +164,7 @@ def com_variance(s_px, N, b2, window_px: int):
     return (s**2 + 1.0 / 12.0) / n + b2 * w**2 * (w**2 - 1.0) / (12.0 * n**2)
 
 
-def adc_variance_e2(gain_e_per_adu):
+def adc_variance_e2(gain_e_per_adu: ArrayLike) -> np.ndarray:
     """Noise variance added per pixel by rounding to whole ADU, in electrons^2.
 
     Parameters
@@ -183,7 +185,8 @@ def adc_variance_e2(gain_e_per_adu):
     return g**2 / 12.0
 
 
-def pixel_locking_bias(delta, sigma_px, k_max: int = 50, *, pixel: str = "integrated"):
+def pixel_locking_bias(delta: ArrayLike, sigma_px: float, k_max: int = 50, *,
+                       pixel: str = "integrated") -> np.ndarray:
     """Centre-of-mass bias against the sub-pixel phase, unbounded window.
 
     Parameters
@@ -225,7 +228,7 @@ def pixel_locking_bias(delta, sigma_px, k_max: int = 50, *, pixel: str = "integr
     return num / den
 
 
-def pixel_locking_amplitude(sigma_px, *, pixel: str = "integrated"):
+def pixel_locking_amplitude(sigma_px: ArrayLike, *, pixel: str = "integrated") -> np.ndarray:
     """Leading-harmonic amplitude of the pixel-locking bias, px.
 
     Parameters
@@ -255,7 +258,7 @@ def pixel_locking_amplitude(sigma_px, *, pixel: str = "integrated"):
     return e1 / np.pi if pixel == "integrated" else 4.0 * np.pi * s**2 * e1
 
 
-def window_truncation_bias(delta, sigma_px: float, window_px: int):
+def window_truncation_bias(delta: ArrayLike, sigma_px: float, window_px: int) -> np.ndarray:
     """Extra centre-of-mass bias from a finite window, pixel-integrated Gaussian.
 
     Parameters
