@@ -53,7 +53,6 @@ def _pos(value: ArrayLike, name: str, where: str) -> NDArray:
     return _arr(value, name, "a number > 0", lambda a: a > 0, where)
 
 
-
 def magnification(focal_length_mm: ArrayLike, distance_mm: ArrayLike) -> NDArray:
     """Lateral magnification of a thin lens focused on an object at distance D.
 

@@ -102,6 +102,23 @@ def test_fixed_steps_converge_geometrically():
     assert err[4] < 1e-12
 
 
+def test_central_differences_through_the_fit_give_the_linearization():
+    # [derived] Chernov 2010, ch. 7 basis of the covariance: moving point i radially by eps
+    # moves (a, b, R) by eps * [(J^T J)^-1 J^T]_(:, i), J_i = [cos phi_i, sin phi_i, 1].  The
+    # rig differentiates fit_circle by central differences, so the fixed-step fit must be
+    # smooth and converged: step h = 1e-6 R, truncation O(h^2), rounding ~1e-16/1e-6.
+    phi = np.radians(np.linspace(-25.0, 25.0, 9))
+    jac = np.stack((np.cos(phi), np.sin(phi), np.ones_like(phi)), axis=-1)
+    expected = np.linalg.solve(jac.T @ jac, jac.T)
+    h = 1e-6 * 100.0
+    # rad[i, s, k]: radius of point k when point i is moved by -h (s = 0) or +h (s = 1).
+    rad = 100.0 + h * np.eye(9)[:, None, :] * np.array([-1.0, 1.0])[None, :, None]
+    xc, yc, r = fit_circle(rad * np.cos(phi), rad * np.sin(phi))
+    fit = np.stack((xc, yc, r), axis=0)  # (3, i, s)
+    deriv = (fit[..., 1] - fit[..., 0]) / (2 * h)
+    np.testing.assert_allclose(deriv, expected, rtol=0, atol=1e-6)
+
+
 def test_taubin_start_is_less_biased_than_kasa_on_a_short_arc():
     # Chernov 2010, ch. 5 and 7: the Kåsa fit is heavily biased toward smaller circles on short
     # arcs; Taubin is not.  Here (400 trials, sigma/R = 0.01, 20 deg) the Kåsa mean radius is
