@@ -172,8 +172,11 @@ class CheckRow:
 
 
 def default_folder() -> Path:
-    """The ``references/`` folder of a source checkout (next to the package)."""
-    return Path(budget.__file__).resolve().parent.parent / "references"
+    """Where the case files are: ``budget/data/references`` if the package ships them,
+    else the ``references/`` folder of a source checkout (next to the package)."""
+    package = Path(budget.__file__).resolve().parent
+    shipped = package / "data" / "references"
+    return shipped if shipped.is_dir() else package.parent / "references"
 
 
 def _need(table: Mapping, key: str, where: str) -> object:
