@@ -219,23 +219,28 @@ def monte_carlo(
         converged, adaptive = True, False
     else:
         seq = max(j_min, 10_000)
-        per_call = max(1, chunk // seq)
+        per_call = max(1, min(10, chunk // seq))  # at most 10 sequences drawn per model call
         parts = {}
         stats: dict[str, list[tuple[float, float, float, float]]] = {}
         converged, adaptive, h = False, True, 0
-        while h * seq < max_trials:
+        while h * seq < max_trials and not converged:
             n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
             out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
             for k, v in out.items():
                 parts.setdefault(k, []).append(v)
                 for s in range(n_seq):
                     stats.setdefault(k, []).append(_summaries(v[s * seq:(s + 1) * seq], p))
-            h += n_seq
+            # JCGM 101 7.9.4 h): the criterion is checked after every sequence, so a batch
+            # drawn in one model call is cut back to the first sequence that meets it.
+            for _ in range(n_seq):
+                h += 1
+                if h >= 2 and all(_stable(np.array(stats[k][:h]), n_dig) for k in stats):
+                    converged = True
+                    break
             if progress:
                 progress(h * seq)
-            if h >= 2 and all(_stable(np.array(stats[k]), n_dig) for k in stats):
-                converged = True
-                break
+        if converged:
+            parts = {k: [np.concatenate(v)[: h * seq]] for k, v in parts.items()}
         if not converged:
             warns.append(
                 f"The adaptive Monte Carlo procedure did not stabilize {n_dig} significant "

@@ -179,8 +179,6 @@ def test_adaptive_procedure_9_2_2():
     assert mc.interval[1] == pytest.approx(Q975_9_2_2, abs=0.05)
 
 
-@pytest.mark.xfail(strict=True, reason="engine checks the 7.9.4 criterion only every "
-                   "CHUNK_VALUES/(n_inputs*10^4) sequences (50 here): stops at 5e5 trials")
 def test_adaptive_procedure_stops_at_first_stable_sequence():
     """JCGM 101 7.9.4 h): the criterion is checked after every sequence.
 
