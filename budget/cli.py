@@ -1,0 +1,112 @@
+"""The ``thetabudget`` command: a thin layer over the library.
+
+Only :func:`main` turns exceptions into exit codes: 0 success, 1 a failed
+selftest, 2 bad input (one line on stderr naming the field; nothing written).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from budget import __version__
+from budget.errors import BudgetInputError
+
+__all__ = ["main", "build_parser"]
+
+TEMPLATES = {
+    "gauge": "gauge_static.toml",
+    "sweep": "gain_sweep.toml",
+    "moving": "moving_pointer.toml",
+}
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+    if v <= 0:
+        raise argparse.ArgumentTypeError(f"must be > 0, got {v}")
+    return v
+
+
+def _probability(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a number in (0, 1), got {text!r}") from None
+    if not 0 < v < 1:
+        raise argparse.ArgumentTypeError(f"must be a number in (0, 1), got {v}")
+    return v
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every sub-command."""
+    ap = argparse.ArgumentParser(
+        prog="thetabudget",
+        description="Uncertainty budgets (JCGM 100 / JCGM 101) for camera-based pointer angles and gains.",
+    )
+    ap.add_argument("--version", action="version", version=f"thetabudget {__version__}")
+    sub = ap.add_subparsers(dest="command", required=True)
+
+    run = sub.add_parser("run", help="full budget of a rig file by both methods")
+    run.add_argument("file", type=Path)
+    run.add_argument("--trials", type=_positive_int, default=None,
+                     help="fixed Monte Carlo trials (default: adaptive, JCGM 101 7.9)")
+    run.add_argument("--seed", type=int, default=None, help="seed of the random generator")
+    run.add_argument("--p", type=_probability, default=0.95, help="coverage probability (default 0.95)")
+    run.add_argument("--json", action="store_true", help="write only JSON to stdout")
+    run.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_output_options(run)
+
+    chk = sub.add_parser("check", help="validate a rig file and list its input quantities")
+    chk.add_argument("file", type=Path)
+
+    new = sub.add_parser("new", help="write a commented starter rig file")
+    new.add_argument("kind", choices=sorted(TEMPLATES))
+    new.add_argument("path", type=Path)
+
+    sub.add_parser("selftest", help="run the published reference cases through the engine")
+
+    pred = sub.add_parser("predict", help="voltage for an angle, or angle for a voltage, from a sweep file")
+    pred.add_argument("file", type=Path)
+    grp = pred.add_mutually_exclusive_group(required=True)
+    grp.add_argument("--angle", type=float, help="wanted angle in degrees")
+    grp.add_argument("--volts", type=float, help="commanded voltage")
+    pred.add_argument("--trials", type=_positive_int, default=None)
+    pred.add_argument("--seed", type=int, default=None)
+    pred.add_argument("--p", type=_probability, default=0.95)
+    pred.add_argument("--json", action="store_true")
+    return ap
+
+
+def _add_output_options(p: argparse.ArgumentParser) -> None:
+    """Report files; the writers arrive with the reports module."""
+    p.add_argument("--xlsx", type=Path, help="write the budget workbook")
+    p.add_argument("--md", type=Path, help="write the Markdown tables")
+    p.add_argument("--csv", type=Path, help="write the budget rows as CSV")
+    p.add_argument("--plots", type=Path, help="write PNG plots into this folder")
+    p.add_argument("--force", action="store_true", help="replace existing output files")
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point; returns the exit status."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse already printed its message
+        return int(exc.code or 0)
+    from budget import commands  # heavy imports only when a command runs
+
+    try:
+        return int(getattr(commands, f"cmd_{args.command}")(args))
+    except BudgetInputError as exc:
+        print(f"thetabudget: error: {exc}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

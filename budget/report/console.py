@@ -1,0 +1,91 @@
+"""The console report: rich tables rendered to a string (printing is the caller's job)."""
+
+from __future__ import annotations
+
+import io
+import math
+
+from rich.console import Console
+from rich.table import Table
+
+from budget.results import OutputBudget, RunResult
+
+__all__ = ["render_run", "budget_table", "fmt", "fmt_dof"]
+
+
+def fmt(x: float | None, digits: int = 3) -> str:
+    """A number with ``digits`` significant digits, or an em dash for None."""
+    if x is None:
+        return "—"
+    if x == 0:
+        return "0"
+    if not math.isfinite(x):
+        return "∞" if x > 0 else "-∞"
+    return f"{x:.{digits}g}"
+
+
+def fmt_dof(nu: float) -> str:
+    """Degrees of freedom: ∞ or a whole number (one decimal below 10)."""
+    if math.isinf(nu):
+        return "∞"
+    return f"{nu:.0f}" if nu >= 10 or float(nu).is_integer() else f"{nu:.1f}"
+
+
+def budget_table(ob: OutputBudget) -> Table:
+    """One output's component table."""
+    t = Table(title=f"{ob.label}: budget", title_justify="left", show_lines=False)
+    t.add_column("component", max_width=20)
+    t.add_column("type", justify="center", min_width=4)
+    t.add_column("distribution", max_width=22)
+    for col in ("u(x)", "sensitivity", f"contribution [{ob.unit}]", "share", "ν", f"MC alone [{ob.unit}]"):
+        t.add_column(col, justify="right", no_wrap=True, min_width=max(3, min(len(col), 12)))
+    t.add_column("source", justify="left", overflow="ellipsis", no_wrap=True, max_width=36)
+    for c in sorted(ob.components, key=lambda c: -max(c.percent, 0.0)):
+        u_txt = f"{fmt(c.u_input)} {c.unit}".strip() if c.u_input is not None else "various"
+        t.add_row(c.name, c.evaluation, c.distribution, u_txt, fmt(c.sensitivity), fmt(c.contribution),
+                  f"{c.percent:.1f} %", fmt_dof(c.dof), fmt(c.mc_u), "; ".join(c.sources))
+    return t
+
+
+def _summary_lines(ob: OutputBudget) -> list[str]:
+    lin, mc, v = ob.linear, ob.monte_carlo, ob.validation
+    u2 = f", second order {fmt(ob.u_second_order)}" if ob.u_second_order is not None else ""
+    return [
+        f"  linear (JCGM 100): estimate {lin.estimate:.6g} {ob.unit}, u_c = {fmt(lin.u)}{u2}, "
+        f"ν_eff = {fmt_dof(lin.nu_eff)}, k = {lin.k:.3f}, U = {fmt(lin.U)} {ob.unit}",
+        f"  Monte Carlo (JCGM 101): estimate {mc.estimate:.6g} {ob.unit}, u = {fmt(mc.u)}, "
+        f"{100 * mc.p:g} % interval [{mc.interval[0]:.6g}, {mc.interval[1]:.6g}], "
+        f"shortest [{mc.shortest[0]:.6g}, {mc.shortest[1]:.6g}], {mc.trials} trials"
+        f"{' (adaptive)' if mc.adaptive else ''}",
+        f"  {v.verdict()}",
+        f"  Result: {ob.statement if ob.method == 'linear' else ob.mc_statement}",
+    ]
+
+
+def render_run(result: RunResult, width: int = 170) -> str:
+    """The whole console report as text."""
+    buf = io.StringIO()
+    con = Console(file=buf, width=width, force_terminal=False, color_system=None, highlight=False)
+    con.print(f"thetabudget {result.tool_version} — {result.title}")
+    con.print(f"input {result.input_path} (sha256 {result.input_sha256[:16]}…), seed {result.seed}, "
+              f"p = {result.p:g}")
+    for ob in result.outputs:
+        con.print()
+        con.print(budget_table(ob))
+        for line in _summary_lines(ob):
+            con.print(line)
+        for w in ob.warnings:
+            con.print(f"  ! {w}")
+    if result.gain_summary is not None:
+        s = result.gain_summary
+        con.print()
+        con.print(f"Gain and intercept correlation: {s.correlation_linear:+.3f} (linear), "
+                  f"{s.correlation_mc:+.3f} (Monte Carlo)")
+        con.print(f"Non-linearity from measurement errors alone: mean {s.nonlinearity_mean_pct:.2g} % of span, "
+                  f"95th percentile {s.nonlinearity_p95_pct:.2g} %")
+    if result.warnings:
+        con.print()
+        con.print("Notes on this rig:")
+        for w in result.warnings:
+            con.print(f"  ! {w}")
+    return buf.getvalue()

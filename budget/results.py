@@ -1,0 +1,106 @@
+"""Results of a budget run: plain frozen dataclasses that reports read and never recompute."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from budget.propagation import InputQuantity, LinearResult, MonteCarloResult, Validation
+
+__all__ = ["ComponentLine", "OutputBudget", "GainSummary", "RunResult", "finite_or_none"]
+
+
+def finite_or_none(x: float | None) -> float | None:
+    """JSON has no NaN or Infinity: infinite degrees of freedom become null."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+@dataclass(frozen=True)
+class ComponentLine:
+    """One budget component (a named group of input quantities) for one output.
+
+    ``contribution`` and ``percent`` are the linear method's (JCGM 100); ``mc_u``
+    is the standard deviation of the output when only this component varies
+    (Monte Carlo, the others at their estimates), which shows effects the linear
+    method misses.
+    """
+
+    name: str
+    evaluation: str
+    distribution: str
+    u_input: float | None
+    unit: str
+    sensitivity: float | None
+    contribution: float
+    percent: float
+    dof: float
+    mc_u: float | None
+    sources: tuple[str, ...]
+    inputs: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class OutputBudget:
+    """The full budget of one output (an angle position, the gain, the intercept)."""
+
+    name: str
+    label: str
+    unit: str
+    nominal: float
+    linear: LinearResult
+    u_second_order: float | None
+    monte_carlo: MonteCarloResult
+    validation: Validation
+    components: tuple[ComponentLine, ...]
+    statement: str
+    mc_statement: str
+    method: str  # "linear" when validated, "monte carlo" otherwise
+    warnings: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class GainSummary:
+    """What a sweep adds beyond the gain's own budget."""
+
+    intercept: OutputBudget
+    correlation_linear: float
+    correlation_mc: float
+    nonlinearity_mean_pct: float
+    nonlinearity_p95_pct: float
+    chi2: float | None
+    dof: int
+    set_points_v: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class RunResult:
+    """Everything a report needs, with provenance."""
+
+    title: str
+    tool_version: str
+    input_path: str
+    input_sha256: str
+    created: str
+    seed: object
+    p: float
+    angles: tuple[OutputBudget, ...]
+    gain: OutputBudget | None
+    gain_summary: GainSummary | None
+    warnings: tuple[str, ...]
+    inputs: dict[str, InputQuantity]
+    rig_raw: dict
+    locator_notes: tuple[str, ...]
+    joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
+
+    @property
+    def outputs(self) -> tuple[OutputBudget, ...]:
+        """Every output budget in report order: angles, then gain and intercept."""
+        extra = ()
+        if self.gain is not None and self.gain_summary is not None:
+            extra = (self.gain, self.gain_summary.intercept)
+        return (*self.angles, *extra)
