@@ -158,5 +158,4 @@ def cmd_predict(args: argparse.Namespace) -> int:
           f"linear: {pred['u_linear']:.3g} {pred['unit']})")
     for w in pred["warnings"]:
         print(f"  ! {w}")
-    del math
     return 0

@@ -138,7 +138,7 @@ def build_inputs(
         Mapping of names to :class:`InputQuantity`, and ``{(a, b): r}``.
     """
     lm = locator_model(rig)
-    g, cam, lens = rig.geometry, rig.camera, rig.lens
+    cam, lens = rig.camera, rig.lens
     n_frames = rig.frames.per_reading
     out: dict[str, InputQuantity] = {}
     corr: dict[tuple[str, str], float] = {}
@@ -187,7 +187,6 @@ def build_inputs(
                                              rig.motion.source + "; timestamp jitter")
     if rig.sweep is not None and rig.source is not None:
         _source_inputs(rig, out)
-    del cam
     return out, corr
 
 
