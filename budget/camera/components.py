@@ -138,7 +138,7 @@ def build_inputs(
         Mapping of names to :class:`InputQuantity`, and ``{(a, b): r}``.
     """
     lm = locator_model(rig)
-    cam, lens = rig.camera, rig.lens
+    lens = rig.lens
     n_frames = rig.frames.per_reading
     out: dict[str, InputQuantity] = {}
     corr: dict[tuple[str, str], float] = {}
