@@ -80,7 +80,33 @@ def build_parser() -> argparse.ArgumentParser:
     pred.add_argument("--seed", type=int, default=None)
     pred.add_argument("--p", type=_probability, default=0.95)
     pred.add_argument("--json", action="store_true")
+    _add_camera_commands(sub)
     return ap
+
+
+def _add_camera_commands(sub) -> None:
+    """Choosing a camera, checking the locator model, and reading real frames."""
+    cho = sub.add_parser("choose", help="rank candidate cameras and lenses for a rig before buying")
+    cho.add_argument("file", type=Path)
+    cho.add_argument("--json", action="store_true")
+    cho.add_argument("--xlsx", type=Path)
+    cho.add_argument("--plots", type=Path)
+    cho.add_argument("--force", action="store_true")
+
+    ver = sub.add_parser("verify-locator", help="render synthetic target images and test the locator model")
+    ver.add_argument("file", type=Path)
+    ver.add_argument("--renders", type=_positive_int, default=2000)
+    ver.add_argument("--seed", type=int, default=None)
+    ver.add_argument("--json", action="store_true")
+
+    fr = sub.add_parser("frames", help="locate a still target in frames and write the per-frame CSV")
+    fr.add_argument("paths", type=Path, nargs="+")
+    fr.add_argument("--roi", required=True, help="x,y,w,h in pixels")
+    fr.add_argument("--method", choices=("com", "gauss", "threshold"), default="com")
+    fr.add_argument("--position", default="P1", help="position id written to the CSV")
+    fr.add_argument("--out", type=Path)
+    fr.add_argument("--force", action="store_true")
+    fr.add_argument("--json", action="store_true")
 
 
 def _add_output_options(p: argparse.ArgumentParser) -> None:
@@ -101,8 +127,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(exc.code or 0)
     from budget import commands  # heavy imports only when a command runs
 
+    if args.command in ("choose", "verify-locator", "frames"):
+        from budget import camera_commands as commands  # type: ignore[no-redef]
     try:
-        return int(getattr(commands, f"cmd_{args.command}")(args))
+        return int(getattr(commands, f"cmd_{args.command.replace('-', '_')}")(args))
     except BudgetInputError as exc:
         print(f"thetabudget: error: {exc}", file=sys.stderr)
         return 2
