@@ -134,6 +134,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BudgetInputError as exc:
         print(f"thetabudget: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into a reader that stopped early (e.g. head)
+        sys.stderr.close()
+        return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

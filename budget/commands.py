@@ -41,18 +41,17 @@ def _progress(enabled: bool):
 
 def _run(args: argparse.Namespace, quiet: bool):
     from budget.camera.analysis import run_budget
-    from budget.camera.evaluation import type_a_from_data
+    from budget.camera.evaluation import load_evaluation
     from budget.config import load_rig
 
-    rig = load_rig(args.file)
-    type_a = type_a_from_data(rig)
+    ev = load_evaluation(load_rig(args.file))
     prog, cb = _progress(not quiet)
+    kwargs = dict(rng=_rng(args.seed), p=args.p, trials=args.trials, input_path=args.file,
+                  type_a=ev.type_a, measured_deg=ev.measured_deg)
     if prog is not None:
         with prog:
-            return rig, run_budget(rig, rng=_rng(args.seed), p=args.p, trials=args.trials,
-                                   input_path=args.file, progress=cb, type_a=type_a)
-    return rig, run_budget(rig, rng=_rng(args.seed), p=args.p, trials=args.trials,
-                           input_path=args.file, type_a=type_a)
+            return ev.rig, run_budget(ev.rig, progress=cb, **kwargs)
+    return ev.rig, run_budget(ev.rig, **kwargs)
 
 
 def cmd_run(args: argparse.Namespace) -> int:
@@ -82,12 +81,13 @@ def cmd_run(args: argparse.Namespace) -> int:
 
 def cmd_check(args: argparse.Namespace) -> int:
     from budget.camera.components import build_inputs, locator_model
-    from budget.camera.evaluation import type_a_from_data
+    from budget.camera.evaluation import load_evaluation
     from budget.config import load_rig
     from budget.report.console import fmt, fmt_dof
 
-    rig = load_rig(args.file)
-    inputs, corr = build_inputs(rig, type_a_from_data(rig))
+    ev = load_evaluation(load_rig(args.file))
+    rig = ev.rig
+    inputs, corr = build_inputs(rig, ev.type_a)
     lm = locator_model(rig)
     print(f"{args.file}: valid. {rig.title}")
     print(f"pointer radius {rig.radius_px:.1f} px, spot sigma {rig.spot_sigma_px:.3g} px, "

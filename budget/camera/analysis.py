@@ -140,6 +140,7 @@ def run_budget(
     input_path: str | Path = "",
     progress: Callable[[int], None] | None = None,
     type_a: dict | None = None,
+    measured_deg: tuple[float, ...] | None = None,
 ) -> RunResult:
     """Budget of every angle position (and the gain of a sweep) by JCGM 100 and JCGM 101.
 
@@ -158,6 +159,9 @@ def run_budget(
         Called with the trials done.
     type_a : dict, optional
         Repeated-frame scatter per point label (see :func:`components.build_inputs`).
+    measured_deg : tuple, optional
+        Measured reading angles of a sweep (evaluation mode): they give the fit's
+        chi-squared against the per-point uncertainties (ISO/TS 28037 clause 6).
     """
     inputs, corr = comp.build_inputs(rig, type_a)
     model = VirtualRig(rig)
@@ -191,9 +195,10 @@ def run_budget(
         corr_lin = c[ig, ii] / math.sqrt(c[ig, ig] * c[ii, ii]) if c[ig, ig] * c[ii, ii] > 0 else 0.0
         corr_mc = float(np.corrcoef(mc.joint["gain"], mc.joint["intercept"])[0, 1])
         nl_mean, nl_95 = _nonlinearity_pct(rig, mc.joint, len(rig.nominal_angles_deg))
+        chi2 = _chi2(rig, angles, measured_deg)
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
                               correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
-                              nonlinearity_p95_pct=nl_95, chi2=None,
+                              nonlinearity_p95_pct=nl_95, chi2=chi2,
                               dof=len(rig.sweep.set_points_v) - 2,
                               set_points_v=tuple(rig.sweep.set_points_v))
     warns = _rig_warnings(rig)
@@ -206,6 +211,28 @@ def run_budget(
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
         locator_notes=comp.locator_model(rig).notes, joint=mc.joint,
     )
+
+
+PER_POINT = (comp.QUANT, comp.LOCK, comp.NOISE, comp.DIST)
+
+
+def _chi2(rig: RigDescription, angles: list[OutputBudget], measured: tuple[float, ...] | None) -> float | None:
+    """Chi-squared of the measured angles about their straight line, or None in design mode.
+
+    Notes
+    -----
+    Weighted least squares with u(θ_j) from the per-point components only (locator
+    and distortion residual): shared effects (pivot, tilt, source gain) move every
+    point together and do not scatter them about the line (ISO/TS 28037 clause 6).
+    """
+    if measured is None:
+        return None
+    from budget.fit import straight_line
+
+    u = [math.sqrt(sum(c.contribution**2 for c in ob.components if c.name in PER_POINT)) for ob in angles]
+    if min(u) <= 0:
+        return None
+    return float(straight_line(np.array(rig.sweep.set_points_v), np.array(measured), u_y=np.array(u)).chi2)
 
 
 def _bias_causes(rig: RigDescription) -> tuple[str, ...]:

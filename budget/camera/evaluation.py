@@ -9,17 +9,17 @@ from __future__ import annotations
 
 import csv
 import math
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
 
 from budget.camera.circle import fit_circle
 from budget.camera.components import point_labels
-from budget.camera.description import Positions, RigDescription
+from budget.camera.description import Positions, RigDescription, Sweep
 from budget.errors import BudgetInputError
 
-__all__ = ["read_positions_csv", "type_a_from_data", "apply_data"]
+__all__ = ["read_positions_csv", "type_a_from_data", "load_evaluation", "Evaluation", "measured_angles_deg"]
 
 COLUMNS = ("position", "frame", "x_px", "y_px")
 
@@ -105,21 +105,35 @@ def type_a_from_data(rig: RigDescription) -> dict[str, tuple[float, float, int]]
     return out
 
 
-def apply_data(rig: RigDescription) -> RigDescription:
-    """The rig with its reading angles replaced by those measured from the mean positions.
+@dataclass(frozen=True)
+class Evaluation:
+    """The rig as measured: reading angles from the data, Type A scatter, the raw angles."""
 
-    The pivot is found as the rig says (circle through the zero image and readings,
-    a separate arc, or the mark) and each angle is atan2 about it relative to the
-    zero image. Positions mode only; a sweep keeps its set points and the measured
-    angles go to the gain fit.
+    rig: RigDescription
+    type_a: dict[str, tuple[float, float, int]] | None
+    measured_deg: tuple[float, ...] | None
+
+
+def load_evaluation(rig: RigDescription) -> Evaluation:
+    """Apply the rig's measured data, if any (design mode passes the rig through unchanged).
+
+    Positions mode: the reading angles become those measured from the mean positions,
+    so the budget is evaluated where the pointer really was. Sweep mode: the set
+    points stay, the nominal gain becomes the measured OLS slope, and the measured
+    angles go to the consistency check of the fit.
     """
     data = _load(rig)
     if data is None:
-        return rig
-    angles = measured_angles_deg(rig, data)
+        return Evaluation(rig, None, None)
+    type_a = type_a_from_data(rig)
+    angles = tuple(float(a) for a in measured_angles_deg(rig, data))
     if rig.sweep is not None:
-        return rig
-    return replace(rig, positions=Positions(angles_deg=tuple(float(a) for a in angles)))
+        x = np.array(rig.sweep.set_points_v)
+        slope = float(np.polyfit(x, np.array(angles), 1)[0])
+        new = replace(rig, sweep=Sweep(set_points_v=rig.sweep.set_points_v, nominal_gain_deg_per_v=slope))
+    else:
+        new = replace(rig, positions=Positions(angles_deg=angles))
+    return Evaluation(new, type_a, angles)
 
 
 def measured_angles_deg(rig: RigDescription, data: dict[str, np.ndarray]) -> np.ndarray:
@@ -138,7 +152,8 @@ def measured_angles_deg(rig: RigDescription, data: dict[str, np.ndarray]) -> np.
         c = np.array([float(xc), float(yc)])
     r0 = mean["Z"] - c
     out = []
-    for k in reads:
+    for k, nominal in zip(reads, rig.nominal_angles_deg, strict=True):
         r = mean[k] - c
-        out.append(math.degrees(math.atan2(r0[0] * r[1] - r0[1] * r[0], r0[0] * r[0] + r0[1] * r[1])))
+        a = math.degrees(math.atan2(r0[0] * r[1] - r0[1] * r[0], r0[0] * r[0] + r0[1] * r[1]))
+        out.append(nominal + (a - nominal + 180.0) % 360.0 - 180.0)  # the branch nearest the file's angle
     return np.array(out)
