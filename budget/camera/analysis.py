@@ -87,14 +87,16 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     warns = [w for w in lin.warnings if "zero first-order sensitivity" not in w] + list(mc.warnings)
     u2 = lin2.u if lin2 is not None else None
     lines = _component_lines(lin, group_mc, name)
-    for line in lines:
-        if line.mc_u is not None and line.contribution <= 1e-9 * max(lin.u, 1e-300) \
-                and line.mc_u > 0.05 * mc.u:
-            warns.append(
-                f"{label}: '{line.name}' has zero first-order sensitivity at its estimate, so the linear "
-                f"method gives it 0; Monte Carlo gives it u = {line.mc_u:.2g} {unit} (a second-order "
-                "effect, JCGM 100 5.1.2 note). The Monte Carlo interval is the result."
-            )
+    missed = [c for c in lines if c.mc_u is not None and c.contribution <= 1e-9 * max(lin.u, 1e-300)
+              and c.mc_u > 0.05 * mc.u]
+    if missed:  # the linear shares are then shares of the wrong total
+        warns = [w for w in warns if "of the variance of" not in w]
+    for line in missed:
+        warns.append(
+            f"{label}: '{line.name}' has zero first-order sensitivity at its estimate, so the linear "
+            f"method gives it 0; Monte Carlo gives it u = {line.mc_u:.2g} {unit} (a second-order "
+            "effect, JCGM 100 5.1.2 note). The Monte Carlo interval is the result."
+        )
     top = max(lines, key=lambda c: c.percent)
     if top.name == comp.PIVOT and top.percent > 50:
         why = {"arc": "a pivot fitted to a short arc is poorly determined (Chernov 2010, ch. 7); "

@@ -40,7 +40,7 @@ def budget_table(ob: OutputBudget) -> Table:
     for col in ("u(x)", "sensitivity", f"contribution [{ob.unit}]", "share", "ν", f"MC alone [{ob.unit}]"):
         t.add_column(col, justify="right", no_wrap=True, min_width=max(3, min(len(col), 12)))
     t.add_column("source", justify="left", overflow="ellipsis", no_wrap=True, max_width=36)
-    for c in sorted(ob.components, key=lambda c: -max(c.percent, 0.0)):
+    for c in sorted(ob.components, key=lambda c: -max(c.contribution, c.mc_u or 0.0)):
         u_txt = f"{fmt(c.u_input)} {c.unit}".strip() if c.u_input is not None else "various"
         t.add_row(c.name, c.evaluation, c.distribution, u_txt, fmt(c.sensitivity), fmt(c.contribution),
                   f"{c.percent:.1f} %", fmt_dof(c.dof), fmt(c.mc_u), "; ".join(c.sources))
