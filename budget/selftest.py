@@ -367,7 +367,8 @@ def run_case(case: Case, *, rng: np.random.Generator) -> list[CheckRow]:
         else:
             # equal infinities (nu_eff = inf) pass; NaN never does
             passed = bool(float(got) == e.value or abs(float(got) - e.value) <= e.tolerance)
-        rows.append(CheckRow(case_id=case.id, source=str(case.citation), quantity=e.quantity,
+        label = e.quantity if e.n_dig is None else f"{e.quantity} (n_dig = {e.n_dig})"
+        rows.append(CheckRow(case_id=case.id, source=str(case.citation), quantity=label,
                              published=e.value, computed=got, tolerance=e.tolerance,
                              passed=passed, mark=e.mark))
     return rows
