@@ -7,7 +7,7 @@ import math
 import numpy as np
 
 from budget.camera.description import RigDescription
-from budget.propagation import coverage_intervals, round_pair
+from budget.propagation import coverage_factor, coverage_intervals, round_pair
 from budget.results import RunResult
 
 __all__ = ["predict", "per_point_source_u_v"]
@@ -79,7 +79,7 @@ def predict(rig: RigDescription, result: RunResult, *, angle_deg: float | None =
     if extra > 0.1 * u_mc:
         warns.append("The interval is from the joint (K, θ0) samples only; the source's per-point "
                      "terms are in u, not in the interval.")
-    kf = 2.0 if result.p == 0.95 else float(__import__("scipy.stats").stats.norm.ppf(0.5 + result.p / 2))
+    kf = coverage_factor(result.p, math.inf)  # many trials: the normal quantile (JCGM 100 G.3.4)
     y, uu = round_pair(est, kf * u_mc)
     return {
         "query": {"angle_deg": angle_deg} if angle_deg is not None else {"volts": volts},
