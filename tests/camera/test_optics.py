@@ -1,4 +1,4 @@
-"""Tests of budget.camera.optics; each check names its source or says [derived]."""
+"""Tests of budget.camera.optics and budget.camera.projection; each check names its source or says [derived]."""
 
 from __future__ import annotations
 
@@ -10,7 +10,6 @@ from scipy.special import j1
 from budget.camera.optics import (
     airy_radius_um,
     depth_of_field_mm,
-    distort,
     field_of_view_mm,
     focal_length_to_fit,
     image_distance_mm,
@@ -18,14 +17,17 @@ from budget.camera.optics import (
     motion_blur_px,
     object_pixel_mm,
     parallax_shift,
-    project_points,
     psf_sigma_um,
+    working_f_number,
+)
+from budget.camera.projection import (
+    distort,
+    project_points,
     tilt_angle_error_approx,
     tilt_max_angle_error,
     tilt_rotation,
     tilted_dial_angle,
     undistort,
-    working_f_number,
 )
 from budget.errors import BudgetInputError
 
