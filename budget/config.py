@@ -286,14 +286,21 @@ def _cross_checks(rig: d.RigDescription) -> None:
     cy = g.pivot_offset_y_mm * m / pitch_mm
     r = rig.radius_px + 3 * rig.spot_sigma_px + 1
     half_w, half_h = cam.pixels_x / 2, cam.pixels_y / 2
-    for a in (0.0, *angles):
+    points = [("", a) for a in (0.0, *angles)]
+    if rig.pivot.method == "arc":  # the pivot-arc points are located too
+        p = rig.pivot
+        mid = p.arc_centre_deg if p.arc_centre_deg is not None else 0.5 * (min(0.0, *angles) + max(0.0, *angles))
+        step = 2 * p.arc_half_angle_deg / (p.arc_points - 1)
+        points += [(" (pivot arc)", mid - p.arc_half_angle_deg + i * step) for i in range(p.arc_points)]
+    for what, a in points:
         t = math.radians(g.zero_direction_deg + a)
         x, y = cx + r * math.cos(t), cy + r * math.sin(t)
         if abs(x) > half_w or abs(y) > half_h:
             raise BudgetInputError(
-                f"The pointer leaves the sensor's field of view at {a:g}°: the target would be imaged at "
+                f"The pointer leaves the sensor's field of view at {a:g}°{what}: the target would be imaged at "
                 f"({x:.0f}, {y:.0f}) px from the sensor centre, outside ±({half_w:.0f}, {half_h:.0f}) px. "
-                "Check pointer_radius_mm, working_distance_mm, focal_length_mm and pivot_offset_*_mm."
+                "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
+                + (" and the [pivot] arc." if what else ".")
             )
 
 
