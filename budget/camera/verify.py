@@ -143,10 +143,14 @@ def verify_locator(rig: RigDescription, *, renders: int, rng: np.random.Generato
                        f"(±{noise_se:.2g} px standard error): {'supported' if ok_n else 'NOT supported'}.")
         verdict.append(f"pixel-locking: first-harmonic amplitude {amp:.3g} px against {lm.locking_amplitude_px:.3g} "
                        f"px assumed (±{amp_se:.2g} px standard error): {'supported' if ok_l else 'NOT supported'}.")
-    verdict.append("The budget's locator entries are " + ("supported" if ok else "NOT supported")
-                   + f" by {renders} synthetic images (within 3 standard errors or a factor {RATIO_TOLERANCE:g}).")
     if s_rend != s_model:
         verdict.append(f"Rendered with σ = {s_rend:g} px where the rig states {s_model:g} px.")
+    peak = t.signal_e * math.erf(1.0 / (2.0 * math.sqrt(2.0) * s_rend)) ** 2 + t.background_e
+    if peak > cam.full_well_e:
+        verdict.append(f"The brightest pixel holds about {peak:.3g} e, above the full well ({cam.full_well_e:g} e): "
+                       "saturation, which the budget's formulas do not describe.")
+    verdict.append("The budget's locator entries are " + ("supported" if ok else "NOT supported")
+                   + f" by {renders} synthetic images (within 3 standard errors or a factor {RATIO_TOLERANCE:g}).")
     return LocatorCheck(method=loc.method, renders=renders, seed=seed, sigma_px_model=s_model,
                         sigma_px_rendered=s_rend, noise_px_model=lm.noise_px_per_frame, noise_px_empirical=s_noise,
                         noise_px_se=noise_se, locking_px_model=lm.locking_amplitude_px, locking_px_empirical=amp,
