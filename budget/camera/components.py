@@ -61,14 +61,21 @@ def locator_model(rig: RigDescription) -> LocatorModel:
     s = rig.spot_sigma_px
     b2 = t.background_e + cam.read_noise_e**2 + float(spot.adc_variance_e2(cam.gain_e_per_adu))
     notes: list[str] = []
+    peak = _peak_electrons(rig)
+    if peak > cam.full_well_e:
+        notes.append(
+            f"The brightest pixel receives about {peak:.0f} e against a full well of {cam.full_well_e:.0f} e: "
+            "a saturated spot biases and flattens the centroid, which this budget does not model; "
+            "shorten the exposure or dim the light."
+        )
     if loc.method == "integer":
         return LocatorModel(0.5, 0.0, 0.0, "integer peak", s,
-                            ("integer-pixel locator: error uniform over one pixel (JCGM 100 F.2.2.1)",))
+                            ("integer-pixel locator: error uniform over one pixel (JCGM 100 F.2.2.1)", *notes))
     if loc.method == "fit":
         var = float(spot.mortensen_variance(s, 1.0, t.signal_e, b2))
         return LocatorModel(0.0, 0.0, math.sqrt(var), "Mortensen et al. 2010 (least-squares fit)", s,
                             ("least-squares fit of the pixel-integrated spot model: no pixel-locking "
-                             "bias assumed",))
+                             "bias assumed", *notes))
     var = float(spot.com_variance(s, t.signal_e, b2, loc.window_px))
     if t.shape == "disk":
         amp = _disk_locking_amplitude(rig)
@@ -86,6 +93,22 @@ def locator_model(rig: RigDescription) -> LocatorModel:
                         tuple(notes))
 
 
+def _peak_electrons(rig: RigDescription) -> float:
+    """Electrons in the brightest pixel: a spot centred on a pixel, plus the background.
+
+    Pixel-integrated Gaussian of the rig's spot sigma: the central pixel holds
+    erf(1/(2√2σ))² of the signal [derived]; for a disk, the disk's area fraction
+    per pixel bounds it.
+    """
+    t = rig.target
+    s = rig.spot_sigma_px
+    frac = math.erf(0.5 / (math.sqrt(2.0) * s)) ** 2
+    if t.shape == "disk":
+        d_px = t.diameter_mm * rig.magnification / (rig.camera.pitch_um * 1e-3)
+        frac = min(frac, 1.0 / max(math.pi * d_px**2 / 4.0, 1.0)) if d_px > 1 else frac
+    return t.signal_e * frac + t.background_e
+
+
 def _disk_locking_amplitude(rig: RigDescription) -> float:
     """Leading pixel-locking harmonic of a blurred uniform disk, px.
 
@@ -101,7 +124,10 @@ def _disk_locking_amplitude(rig: RigDescription) -> float:
     t = rig.target
     pitch_mm = rig.camera.pitch_um * 1e-3
     a = 0.5 * t.diameter_mm * rig.magnification / pitch_mm
-    blur = t.sigma_px if t.sigma_px is not None else 0.0
+    if t.sigma_px is not None:
+        blur = t.sigma_px
+    else:  # the diffraction spot alone: the rig's sigma without the disk's own second moment
+        blur = math.sqrt(max(rig.spot_sigma_px**2 - a**2 / 4.0, 0.0))
     x = 2 * math.pi * a
     return float(abs(2 * j1(x) / x) * math.exp(-2 * math.pi**2 * blur**2) / math.pi)
 
