@@ -269,10 +269,12 @@ def _cross_checks(rig: d.RigDescription) -> None:
     if cam.shutter == "rolling" and cam.row_time_us <= 0:
         raise field_error("row_time_us", "a number > 0 for a rolling shutter", cam.row_time_us, "[camera]")
     angles = rig.nominal_angles_deg
-    if rig.pivot.method == "readings" and len(angles) < 2:
+    distinct = {round(a % 360.0, 9) % 360.0 for a in (0.0, *angles)}
+    if rig.pivot.method == "readings" and (len(angles) < 2 or len(distinct) < 3):
         raise BudgetInputError(
             "[pivot] method = 'readings' fits a circle through the zero image and the readings: "
-            f"it needs at least 2 readings. Got {len(angles)}."
+            f"it needs at least 2 readings at different positions from each other and from 0°. "
+            f"Got {list(angles)}."
         )
     if rig.sweep is not None and rig.source is not None:
         span = rig.source.span_v
