@@ -255,6 +255,13 @@ def _cross_checks(rig: d.RigDescription) -> None:
             "[geometry] gives both 'tilt_bound_deg' and 'tilt_deg': give a bound, or a measured tilt "
             "with 'tilt_u_deg'."
         )
+    for key in ("tilt_u_deg", "tilt_azimuth_deg"):
+        if g.tilt_deg is None and getattr(g, key) is not None:
+            raise BudgetInputError(
+                f"The '{key}' field of [geometry] belongs to a measured 'tilt_deg', which is not given; "
+                f"give 'tilt_deg' too, or remove '{key}' (with 'tilt_bound_deg' the azimuth is unknown). "
+                f"Got {getattr(g, key)!r}."
+            )
     if g.tilt_deg is not None and g.tilt_u_deg is None:
         raise BudgetInputError("The 'tilt_u_deg' field of [geometry] is missing; a measured 'tilt_deg' "
                                "needs its standard uncertainty, a number in (0, 90).")
