@@ -247,3 +247,20 @@ def test_csv_missing_position(tmp_path):
     rows = [r for r in _good_rows() if not r.startswith("M,")]
     msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(rows) + "\n")
     assert "M" in msg and "lack" in msg
+
+
+@pytest.mark.parametrize("angles", [[0.0, 0.0], [30.0, 30.0], [0.0, 45.0], [30.0, -330.0]])
+def test_readings_pivot_needs_three_distinct_points(angles):
+    """A circle through the zero image and readings needs three different points; with
+    fewer the fit is undefined (it used to reach the model and return NaN)."""
+    msg = error_of(make_doc({"pivot": {"method": "readings"}, "positions": {"angles_deg": angles}}))
+    assert "[pivot]" in msg and "readings" in msg and "Got" in msg
+
+
+@pytest.mark.parametrize("key", ["tilt_u_deg", "tilt_azimuth_deg"])
+@pytest.mark.parametrize("bound", [None, 1.0])
+def test_tilt_fields_without_a_measured_tilt_are_not_ignored(key, bound):
+    """Nothing is silently dropped: a tilt uncertainty or azimuth without 'tilt_deg'
+    would have no effect on the budget, so it is an error."""
+    msg = error_of(make_doc({"geometry": {key: 2.0, "tilt_bound_deg": bound}}))
+    assert f"'{key}'" in msg and "[geometry]" in msg and "'tilt_deg'" in msg and "Got 2.0" in msg
