@@ -144,58 +144,61 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
     return float(math.floor(nu)) if nu >= 1.0 else float(nu)
 
 
-def _stencil_points(x0: np.ndarray, h: np.ndarray, second_order: bool) -> tuple[np.ndarray, dict]:
-    """All points at which the model is needed, as one (n_points, n_inputs) array."""
+_STEPS = np.array([-2.0, -1.0, 1.0, 2.0])
+PAIR_CHUNK_VALUES = 2_000_000
+"""Input values per model call when evaluating the pair stencil of the second-order terms."""
+
+
+def _axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
+    """x0 moved by −2h, −h, +h, +2h along each input in turn: shape (4n, n)."""
     n = x0.size
-    pts = [x0]
-    index: dict = {"first": {}, "second": {}}
-    eye = np.eye(n)
-    for i in range(n):
-        for m in (-2, -1, 1, 2):
-            index["first"][(i, m)] = len(pts)
-            pts.append(x0 + m * h[i] * eye[i])
-    if second_order:
-        h2 = h * (STEP2 / STEP)
-        for i in range(n):
-            for m in (-2, -1, 1, 2):
-                index["second"][(i, m, None, 0)] = len(pts)
-                pts.append(x0 + m * h2[i] * eye[i])
-        for i in range(n):
-            for j in range(n):
-                if i == j:
-                    continue
-                for a in (-1, 1):
-                    for b in (-1, 0, 1):
-                        key = (i, a, j, b)
-                        index["second"][key] = len(pts)
-                        pts.append(x0 + a * h2[i] * eye[i] + b * h2[j] * eye[j])
-    return np.array(pts), index
+    col = np.repeat(np.arange(n), 4)
+    pts = np.tile(x0, (4 * n, 1))
+    pts[np.arange(4 * n), col] += np.tile(_STEPS, n) * h[col]
+    return pts
 
 
-def _second_order_terms(
-    f: np.ndarray, f0: float, idx: dict, h2: np.ndarray, u: np.ndarray, c: np.ndarray
-) -> float:
-    """The double sum of JCGM 100 eq. (14) from the stencil values."""
-    n = u.size
-    total = 0.0
-    for i in range(n):
-        fp1, fm1 = f[idx[(i, 1, None, 0)]], f[idx[(i, -1, None, 0)]]
-        fp2, fm2 = f[idx[(i, 2, None, 0)]], f[idx[(i, -2, None, 0)]]
-        d2 = (fp1 - 2.0 * f0 + fm1) / h2[i] ** 2
-        d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * h2[i] ** 3)
-        total += (0.5 * d2**2 + c[i] * d3) * u[i] ** 4
-        for j in range(n):
-            if i == j:
-                continue
+def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
+                 ii: np.ndarray, jj: np.ndarray) -> dict[str, np.ndarray]:
+    """Model values at x0 ± h2_i e_i ± h2_j e_j for the pairs (ii, jj): {output: (P, 2, 2)}."""
+    n = x0.size
+    a = np.array([-1.0, -1.0, 1.0, 1.0])
+    b = np.array([-1.0, 1.0, -1.0, 1.0])
+    per_call = max(1, PAIR_CHUNK_VALUES // (4 * n))
+    parts: dict[str, list[np.ndarray]] = {}
+    for start in range(0, ii.size, per_call):
+        i, j = ii[start:start + per_call], jj[start:start + per_call]
+        m = i.size
+        pts = np.tile(x0, (4 * m, 1))
+        rows = np.arange(4 * m)
+        ci, cj = np.repeat(i, 4), np.repeat(j, 4)
+        pts[rows, ci] += np.tile(a, m) * h2[ci]
+        pts[rows, cj] += np.tile(b, m) * h2[cj]
+        out = evaluate(model, {nm: pts[:, k] for k, nm in enumerate(names)}, 4 * m)
+        for key, v in out.items():
+            parts.setdefault(key, []).append(v.reshape(m, 2, 2))
+    return {key: np.concatenate(v) for key, v in parts.items()}
 
-            def g(a: int, b: int, i: int = i, j: int = j) -> float:
-                return f[idx[(i, a, j, b)]]
 
-            dij = (g(1, 1) - g(1, -1) - g(-1, 1) + g(-1, -1)) / (4.0 * h2[i] * h2[j])
-            dijj = (
-                (g(1, 1) - 2.0 * g(1, 0) + g(1, -1)) - (g(-1, 1) - 2.0 * g(-1, 0) + g(-1, -1))
-            ) / (2.0 * h2[i] * h2[j] ** 2)
-            total += (0.5 * dij**2 + c[i] * dijj) * u[i] ** 2 * u[j] ** 2
+def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
+                        h2: np.ndarray, u: np.ndarray, c: np.ndarray) -> float:
+    """The double sum of JCGM 100 eq. (14) from central differences.
+
+    ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
+    ``pairs`` f at x0 ± h_i ± h_j, shape (P, 2, 2) indexed [sign of i, sign of j].
+    """
+    fm2, fm1, fp1, fp2 = diag.T
+    d2 = (fp1 - 2.0 * f0 + fm1) / h2**2
+    d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * h2**3)
+    total = float(np.sum((0.5 * d2**2 + c * d3) * u**4))
+    if ii.size:
+        g = pairs
+        hi, hj = h2[ii], h2[jj]
+        dij = (g[:, 1, 1] - g[:, 1, 0] - g[:, 0, 1] + g[:, 0, 0]) / (4.0 * hi * hj)
+        # ∂³f/∂x_i∂x_j²: second difference in j at x_i ± h_i (its middle point from the axis stencil)
+        dijj = ((g[:, 1, 1] - 2.0 * fp1[ii] + g[:, 1, 0]) - (g[:, 0, 1] - 2.0 * fm1[ii] + g[:, 0, 0])) \
+            / (2.0 * hi * hj**2)
+        total += float(np.sum((0.5 * dij**2 + c[ii] * dijj) * u[ii] ** 2 * u[jj] ** 2))
     return total
 
 
@@ -272,17 +275,21 @@ def linear(
     u = np.array([q[nm].distribution.u for nm in names])
     dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
     h = STEP * u
-    pts, idx = _stencil_points(x0, h, second_order)
+    n_in = len(names)
+    h2 = h * (STEP2 / STEP)
+    blocks = [x0[None, :], _axis_points(x0, h)] + ([_axis_points(x0, h2)] if second_order else [])
+    pts = np.vstack(blocks)
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
     out_names = list(out)
-    n_in = len(names)
+    first = {on: out[on][1:1 + 4 * n_in].reshape(n_in, 4) for on in out_names}
     jac = np.empty((len(out_names), n_in))
     for k, on in enumerate(out_names):
-        f = out[on]
-        for i in range(n_in):
-            fm2, fm1 = f[idx["first"][(i, -2)]], f[idx["first"][(i, -1)]]
-            fp1, fp2 = f[idx["first"][(i, 1)]], f[idx["first"][(i, 2)]]
-            jac[k, i] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h[i])
+        fm2, fm1, fp1, fp2 = first[on].T
+        jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
+    if second_order:
+        ii, jj = np.nonzero(~np.eye(n_in, dtype=bool))
+        pair_f = _pair_values(model, names, x0, h2, ii, jj) if ii.size else \
+            {on: np.empty((0, 2, 2)) for on in out_names}
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T
@@ -294,7 +301,8 @@ def linear(
         u1_2 = float(cov_share.sum())
         u2_2 = 0.0
         if second_order:
-            u2_2 = _second_order_terms(out[on], float(out[on][0]), idx["second"], h * (STEP2 / STEP), u, c)
+            diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
+            u2_2 = _second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, h2, u, c)
         u_c2 = u1_2 + u2_2
         if u_c2 < 0:
             u_c2 = 0.0
