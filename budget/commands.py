@@ -145,8 +145,10 @@ def _cell(v: object) -> str:
 
 def cmd_predict(args: argparse.Namespace) -> int:
     from budget.camera.prediction import predict
+    from budget.config import load_rig
 
-    args.quiet = args.json
+    if load_rig(args.file).sweep is None:  # answer before spending seconds on the budget
+        raise BudgetInputError(f"predict needs a [sweep] rig file; '{args.file}' has [positions].")
     rig, result = _run(args, quiet=True)
     pred = predict(rig, result, angle_deg=args.angle, volts=args.volts)
     if args.json:

@@ -122,6 +122,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "source": {
         "span_v": _pos(),
+        "polarity": _choice("bipolar", "unipolar"),
         "bits": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
         "gain_error_pct": _num("a number in [0, 50]", lambda v: 0 <= v <= 50),
         "offset_mv": _nonneg(),
@@ -285,9 +286,10 @@ def _cross_checks(rig: d.RigDescription) -> None:
         )
     if rig.sweep is not None and rig.source is not None:
         span = rig.source.span_v
-        if max(abs(v) for v in rig.sweep.set_points_v) > span:
-            raise field_error("set_points_v", f"voltages within the source span (±{span:g} V)",
-                              list(rig.sweep.set_points_v), "[sweep]")
+        lo, hi = (-span / 2, span / 2) if rig.source.polarity == "bipolar" else (0.0, span)
+        if min(rig.sweep.set_points_v) < lo or max(rig.sweep.set_points_v) > hi:
+            raise field_error("set_points_v", f"voltages within the source's range [{lo:g}, {hi:g}] V "
+                              f"({rig.source.polarity}, span {span:g} V)", list(rig.sweep.set_points_v), "[sweep]")
     # the pointer must stay in the field of view (with the spot's 3-sigma margin)
     pitch_mm = cam.pitch_um * 1e-3
     m = rig.magnification

@@ -264,3 +264,19 @@ def test_tilt_fields_without_a_measured_tilt_are_not_ignored(key, bound):
     would have no effect on the budget, so it is an error."""
     msg = error_of(make_doc({"geometry": {key: 2.0, "tilt_bound_deg": bound}}))
     assert f"'{key}'" in msg and "[geometry]" in msg and "'tilt_deg'" in msg and "Got 2.0" in msg
+
+
+@pytest.mark.parametrize(("polarity", "points", "ok"), [
+    ("bipolar", [1.0, 5.0, 9.5], True),     # ±10 V for a 20 V span
+    ("bipolar", [1.0, 5.0, 15.0], False),   # 15 V is beyond +10 V
+    ("unipolar", [1.0, 5.0, 15.0], True),   # 0 to 20 V
+    ("unipolar", [-1.0, 5.0, 9.0], False),  # a unipolar source gives no negative voltage
+])
+def test_set_points_within_the_source_range(polarity, points, ok):
+    doc = make_doc({"positions": None, "sweep": {**SWEEP, "set_points_v": points},
+                    "source": {"span_v": 20.0, "polarity": polarity}})
+    if ok:
+        parse_rig(doc)
+    else:
+        msg = error_of(doc)
+        assert "'set_points_v'" in msg and polarity in msg

@@ -110,6 +110,7 @@ class Motion:
 @dataclass(frozen=True)
 class VoltageSource:
     span_v: float = 20.0
+    polarity: str = "bipolar"
     bits: int = 16
     gain_error_pct: float = 0.0
     offset_mv: float = 0.0
