@@ -109,8 +109,9 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     if abs(bias) > 3 * mc.u / math.sqrt(mc.trials) and abs(bias) > 0.05 * mc.u:
         causes = f" ({', '.join(bias_causes)})" if bias_causes else ""
         warns.append(
-            f"{label}: the located value is biased by {bias:+.2g} {unit} from the nominal "
-            f"{nominal:g} {unit}: uncorrected systematic effects{causes}; correct them or report the bias."
+            f"{label}: the estimate differs from {nominal:g} {unit} (the nominal, or in evaluation mode the "
+            f"measured value) by {bias:+.2g} {unit}: systematic effects{causes} that the model carries as "
+            "offsets; correct them at the source or report them."
         )
     lin_stmt = statement(symbol, lin.estimate, lin.U, lin.k, p, unit) if lin.U > 0 else \
         f"{symbol} = {lin.estimate:g} {unit} (the linear method gives U = 0)"
@@ -166,7 +167,14 @@ def run_budget(
         chi-squared against the per-point uncertainties (ISO/TS 28037 clause 6).
     """
     inputs, corr = comp.build_inputs(rig, type_a)
+    nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
+    if rig.sweep is not None:
+        nominal.update(gain=rig.sweep.nominal_gain_deg_per_v, intercept=0.0)
     model = VirtualRig(rig)
+    reference = nominal
+    if measured_deg is not None:
+        reference = _located(rig, measured_deg)
+        model = TrueValueModel(model, located=reference, nominal=nominal)
     corr_arg = corr or None
     lin = linear(model, inputs, p=p, correlation=corr_arg)
     lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
@@ -178,17 +186,16 @@ def run_budget(
     group_mc = {g: component_mc_u(model, inputs, corr, members, rng=rng, p=p) for g, members in groups.items()}
     causes = _bias_causes(rig)
     angles = []
-    for i, nominal in enumerate(rig.nominal_angles_deg):
+    for i in range(len(rig.nominal_angles_deg)):
         name = f"P{i + 1}"
-        label = f"angle {name} ({nominal:g}°)"
-        angles.append(_budget(name, label, "°", nominal, lin[name], lin2[name] if lin2 else None,
+        label = f"angle {name} ({reference[name]:g}°)"
+        angles.append(_budget(name, label, "°", reference[name], lin[name], lin2[name] if lin2 else None,
                               mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes))
     gain = summary = None
     if rig.sweep is not None:
-        k_nom = rig.sweep.nominal_gain_deg_per_v
-        gain = _budget("gain", "gain K", "°/V", k_nom, lin["gain"], lin2["gain"] if lin2 else None,
+        gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
                        mc["gain"], group_mc, p, "K", rig.pivot.method, causes)
-        intercept = _budget("intercept", "intercept", "°", 0.0, lin["intercept"],
+        intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
                             lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
                             rig.pivot.method, causes)
         names = list(lin.names)
@@ -216,6 +223,32 @@ def run_budget(
 
 
 PER_POINT = (comp.QUANT, comp.LOCK, comp.NOISE, comp.DIST)
+
+
+class TrueValueModel:
+    """Evaluation mode: the measurand is the true value behind a measured (located) value.
+
+    The virtual rig gives the located value ``v`` for a true value at its nominal
+    ``n``, so the error is ``v − n`` and the true value behind a measured ``m`` is
+    ``m − (v − n)``. Same inputs, same sensitivities up to sign: one model still
+    serves both methods.
+    """
+
+    def __init__(self, model, *, located: dict[str, float], nominal: dict[str, float]) -> None:
+        self.model, self.located, self.nominal = model, located, nominal
+
+    def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
+        out = self.model(**kw)
+        return {k: self.located[k] + self.nominal[k] - v for k, v in out.items()}
+
+
+def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, float]:
+    """Measured values of every output: the angles and, for a sweep, their straight line."""
+    out = {f"P{i + 1}": float(a) for i, a in enumerate(measured_deg)}
+    if rig.sweep is not None:
+        slope, intercept = np.polyfit(np.array(rig.sweep.set_points_v), np.array(measured_deg), 1)
+        out.update(gain=float(slope), intercept=float(intercept))
+    return out
 
 
 def _chi2(rig: RigDescription, angles: list[OutputBudget], measured: tuple[float, ...] | None) -> float | None:
