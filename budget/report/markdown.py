@@ -1,0 +1,127 @@
+"""Markdown budget tables and statements, ready to paste into a test report.
+
+Numbers are printed with six significant digits (:func:`num`) from the same fields the JSON
+record (:func:`budget.report.jsonout.run_to_dict`) holds, so a reader can match them; ∞ stands
+for infinite degrees of freedom (``null`` in the JSON) and — for "not applicable".
+"""
+
+from __future__ import annotations
+
+import math
+
+from budget.report.console import fmt
+from budget.results import OutputBudget, RunResult
+
+__all__ = ["render_markdown", "output_markdown", "num", "md_text"]
+
+STANDARDS = "JCGM 100:2008 (GUM) and JCGM 101:2008 (GUM Supplement 1, Monte Carlo)"
+COMPONENT_HEADER = ("component", "Type", "distribution", "u(x_i)", "c_i", "contribution [{u}]",
+                    "share of u_c² [%]", "ν_i", "Monte Carlo alone [{u}]", "source")
+
+
+def num(x: float | int | None) -> str:
+    """Six significant digits; ∞ for an infinite value, — for None."""
+    if x is None:
+        return "—"
+    if isinstance(x, int) and not isinstance(x, bool):
+        return str(x)
+    x = float(x)
+    if math.isinf(x):
+        return "∞" if x > 0 else "-∞"
+    return f"{x:.6g}"
+
+
+def md_text(s: str) -> str:
+    """A user's text for a table cell or a line: no table breaks, no raw HTML."""
+    return (s.replace("\\", "\\\\").replace("|", "\\|").replace("<", "&lt;").replace(">", "&gt;")
+            .replace("\r", " ").replace("\n", " "))
+
+
+def _row(cells) -> str:
+    return "| " + " | ".join(cells) + " |"
+
+
+def _interval(pair) -> str:
+    return f"[{num(pair[0])}, {num(pair[1])}]"
+
+
+def _components(ob: OutputBudget) -> list[str]:
+    head = [h.format(u=ob.unit) for h in COMPONENT_HEADER]
+    out = [_row(head), "|---|:-:|---|--:|--:|--:|--:|--:|--:|---|"]
+    for c in sorted(ob.components, key=lambda c: -c.percent):
+        u_in = f"{fmt(c.u_input)} {md_text(c.unit)}".strip() if c.u_input is not None else "various"
+        out.append(_row([
+            md_text(c.name), c.evaluation, md_text(c.distribution), u_in, fmt(c.sensitivity),
+            num(c.contribution), num(c.percent), num(c.dof), num(c.mc_u), md_text("; ".join(c.sources)),
+        ]))
+    return out
+
+
+def _results(ob: OutputBudget) -> list[str]:
+    lin, mc, u = ob.linear, ob.monte_carlo, ob.unit
+    pct = f"{100 * lin.p:g} %"
+    rows = [
+        (f"estimate [{u}]", num(lin.estimate), num(mc.estimate)),
+        (f"standard uncertainty [{u}]", num(lin.u), num(mc.u)),
+        (f"u with second-order terms [{u}]", num(ob.u_second_order), "—"),
+        ("ν_eff", num(lin.nu_eff), "—"),
+        ("k", num(lin.k), "—"),
+        (f"U [{u}]", num(lin.U), "—"),
+        (f"{pct} coverage interval [{u}]", _interval(lin.interval), _interval(mc.interval)),
+        (f"{pct} shortest coverage interval [{u}]", "—", _interval(mc.shortest)),
+        ("trials", "—", num(mc.trials)),
+    ]
+    return [_row(["quantity", "linear (JCGM 100)", "Monte Carlo (JCGM 101)"]), "|---|--:|--:|",
+            *(_row(r) for r in rows)]
+
+
+def output_markdown(ob: OutputBudget) -> str:
+    """One output: result statement, verdict, component table, results table, warnings."""
+    result = ob.statement if ob.method == "linear" else ob.mc_statement
+    lines = [
+        f"## {md_text(ob.label)}", "",
+        f"**Result:** {md_text(result)} (result method: {ob.method})", "",
+        f"**Validation:** {md_text(ob.validation.verdict())}", "",
+        *_components(ob), "",
+        *_results(ob), "",
+    ]
+    if ob.warnings:
+        lines += ["Warnings:", "", *(f"- {md_text(w)}" for w in ob.warnings), ""]
+    return "\n".join(lines)
+
+
+def _sweep(result: RunResult) -> list[str]:
+    s = result.gain_summary
+    if s is None:
+        return []
+    rows = [
+        ("set points [V]", ", ".join(num(v) for v in s.set_points_v)),
+        ("correlation of gain and intercept, linear", num(s.correlation_linear)),
+        ("correlation of gain and intercept, Monte Carlo", num(s.correlation_mc)),
+        ("non-linearity from measurement errors, mean [% of span]", num(s.nonlinearity_mean_pct)),
+        ("non-linearity, 95th percentile [% of span]", num(s.nonlinearity_p95_pct)),
+        ("degrees of freedom of the fit", num(s.dof)),
+    ]
+    return ["## Sweep: gain and intercept", "", _row(["quantity", "value"]), "|---|--:|",
+            *(_row(r) for r in rows), ""]
+
+
+def render_markdown(result: RunResult) -> str:
+    """The whole Markdown report."""
+    lines = [
+        f"# Uncertainty budget: {md_text(result.title)}", "",
+        f"- Tool: thetabudget {md_text(result.tool_version)}",
+        f"- Input file: `{md_text(result.input_path)}`, SHA-256 `{result.input_sha256}`",
+        f"- Seed: {md_text(str(result.seed))}; coverage probability p = {num(result.p)}; run {result.created}",
+        f"- Standards followed: {STANDARDS}",
+        "",
+        "Results are rounded per JCGM 100 7.2.6; table numbers have six significant digits. "
+        "ν = ∞ means infinite degrees of freedom.",
+        "",
+    ]
+    for ob in result.outputs:
+        lines.append(output_markdown(ob))
+    lines += _sweep(result)
+    if result.warnings:
+        lines += ["## Notes on this rig", "", *(f"- {md_text(w)}" for w in result.warnings), ""]
+    return "\n".join(lines).rstrip("\n") + "\n"

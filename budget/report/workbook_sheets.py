@@ -1,0 +1,180 @@
+"""The workbook's Summary and Inputs sheets."""
+
+from __future__ import annotations
+
+import datetime as _dt
+
+from budget.report.workbook_budget import BudgetBlock
+from budget.report.workbook_cells import (
+    BOLD,
+    FMT,
+    NOTE,
+    TITLE,
+    WRAP,
+    formula,
+    header_row,
+    number,
+    set_widths,
+    text,
+    title,
+)
+from budget.results import RunResult
+
+__all__ = ["write_summary_sheet", "write_inputs_sheet", "STANDARDS", "SUMMARY_COLUMNS"]
+
+STANDARDS = ("JCGM 100:2008 (GUM): law of propagation of uncertainty, Welch–Satterthwaite, coverage factor; "
+             "JCGM 101:2008 (GUM Supplement 1): Monte Carlo propagation of distributions and, in its "
+             "clause 8, the validation of the linear method")
+SUMMARY_COLUMNS = [
+    "output", "result (JCGM 100 7.2.6 rounding)", "result method", "estimate y", "unit", "u_c", "ν_eff", "k",
+    "U", "Monte Carlo u(y)", "symmetric interval low", "symmetric interval high", "shortest interval low",
+    "shortest interval high", "trials", "clause 8 verdict (JCGM 101)", "linear statement (JCGM 100)",
+    "Monte Carlo statement (JCGM 101)",
+]
+_HOW_TO_READ = (
+    "Budget has one block per output, one row per component. Every input quantity's value, divisor and ν_i "
+    "is on Quantities, each sensitivity c_i on Detail: change one and u(x_i), the contributions, u_c, ν_eff, k "
+    "and U follow (live formulas). An infinite ν is the text '∞' (it adds nothing to the Welch–Satterthwaite "
+    "sum). Shaded cells hold the engine's value where a formula cannot reproduce it (correlated inputs); "
+    "their note says why. The rounded statements are the tool's and do not follow an edit."
+)
+
+
+def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> None:
+    """Fill the Summary sheet (the first sheet)."""
+    text(ws, 1, 1, f"Uncertainty budget: {result.title}", TITLE)
+    prov = [
+        ("tool", f"thetabudget {result.tool_version}"),
+        ("input file", result.input_path),
+        ("input file SHA-256", result.input_sha256),
+        ("seed of the random generator", str(result.seed)),
+        ("date and time of the run (UTC)", result.created),
+        ("workbook written (UTC)", _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")),
+        ("standards followed", STANDARDS),
+        ("how to read this workbook", _HOW_TO_READ),
+    ]
+    r = 3
+    for label, value in prov:
+        text(ws, r, 1, label, BOLD)
+        text(ws, r, 2, value).alignment = WRAP
+        r += 1
+    text(ws, r, 1, "coverage probability p", BOLD)
+    number(ws, r, 2, result.p, FMT["p"])
+    r += 2
+    header_row(ws, r, SUMMARY_COLUMNS)
+    ws.row_dimensions[r].height = 45
+    first_result_row = r + 1
+    for b in blocks:
+        r += 1
+        _result_row(ws, r, b)
+    r += 2
+    r = _sweep_rows(ws, r, result)
+    _warnings(ws, r, result)
+    ws.freeze_panes = f"B{first_result_row}"
+    set_widths(ws, {1: 30, 2: 48, 3: 13, 4: 13, 5: 6, 6: 12, 7: 7, 8: 7, 9: 12, 10: 12, 11: 13, 12: 13,
+                    13: 13, 14: 13, 15: 10, 16: 70, 17: 48, 18: 60})
+
+
+def _result_row(ws, r: int, b: BudgetBlock) -> None:
+    ob, mc = b.output, b.output.monte_carlo
+    text(ws, r, 1, ob.label)
+    text(ws, r, 2, ob.statement if ob.method == "linear" else ob.mc_statement).alignment = WRAP
+    text(ws, r, 3, ob.method)
+    number(ws, r, 4, ob.linear.estimate, FMT["estimate"])
+    text(ws, r, 5, ob.unit)
+    formula(ws, r, 6, f"={b.address('u_c', 'Budget')}", FMT["u"])
+    formula(ws, r, 7, f"={b.address('ν_eff', 'Budget')}", FMT["dof"])
+    formula(ws, r, 8, f"={b.address('k', 'Budget')}", FMT["k"])
+    formula(ws, r, 9, f"={b.address('U', 'Budget')}", FMT["u"])
+    number(ws, r, 10, mc.u, FMT["u"])
+    for j, v in enumerate((*mc.interval, *mc.shortest), start=11):
+        number(ws, r, j, v, FMT["estimate"])
+    number(ws, r, 15, mc.trials, FMT["count"])
+    text(ws, r, 16, ob.validation.verdict()).alignment = WRAP
+    text(ws, r, 17, ob.statement).alignment = WRAP
+    text(ws, r, 18, ob.mc_statement).alignment = WRAP
+
+
+def _sweep_rows(ws, r: int, result: RunResult) -> int:
+    s = result.gain_summary
+    if s is None:
+        return r
+    title(ws, r, "Sweep: gain and intercept", 2)
+    rows = [
+        ("set points [V]", ", ".join(f"{v:g}" for v in s.set_points_v), None),
+        ("correlation of gain and intercept, linear", s.correlation_linear, "0.0000"),
+        ("correlation of gain and intercept, Monte Carlo", s.correlation_mc, "0.0000"),
+        ("non-linearity from measurement errors, mean [% of span]", s.nonlinearity_mean_pct, "0.0000"),
+        ("non-linearity, 95th percentile [% of span]", s.nonlinearity_p95_pct, "0.0000"),
+        ("degrees of freedom of the fit", s.dof, FMT["int"]),
+    ]
+    for label, value, fmt in rows:
+        r += 1
+        text(ws, r, 1, label)
+        if isinstance(value, str):
+            text(ws, r, 2, value)
+        else:
+            number(ws, r, 2, value, fmt)
+    return r + 2
+
+
+def _warnings(ws, r: int, result: RunResult) -> None:
+    title(ws, r, "Warnings and notes", 2)
+    lines = [(ob.label, w) for ob in result.outputs for w in ob.warnings]
+    lines += [("rig", w) for w in result.warnings]
+    lines += [("locator", n) for n in result.locator_notes if n not in result.warnings]
+    if not lines:
+        text(ws, r + 1, 1, "none", NOTE)
+    for i, (where, w) in enumerate(lines, start=1):
+        text(ws, r + i, 1, where)
+        text(ws, r + i, 2, w).alignment = WRAP
+
+
+def _scalar(ws, r: int, c: int, value: object) -> None:
+    if isinstance(value, bool):
+        text(ws, r, c, "true" if value else "false")
+    elif isinstance(value, int | float):
+        number(ws, r, c, value)
+    else:
+        text(ws, r, c, str(value))
+
+
+def _section(ws, r: int, name: str, table: dict) -> int:
+    source = table.get("source")
+    title(ws, r, f"[{name}]", 2)
+    if isinstance(source, str):
+        text(ws, r, 2, f"source: {source}", BOLD)
+    r += 1
+    subtables: list[tuple[str, dict]] = []
+    for key, value in table.items():
+        if isinstance(value, dict):
+            subtables.append((f"{name}.{key}", value))
+            continue
+        if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+            subtables += [(f"{name}.{key}[{i + 1}]", v) for i, v in enumerate(value)]
+            continue
+        text(ws, r, 1, key)
+        items = value if isinstance(value, list) else [value]
+        for j, v in enumerate(items, start=2):
+            _scalar(ws, r, j, v if not isinstance(v, list | dict) else repr(v))
+        r += 1
+    for sub, t in subtables:
+        r = _section(ws, r, sub, t)
+    return r
+
+
+def write_inputs_sheet(ws, result: RunResult) -> None:
+    """The rig description as read from the file, section by section, with each source note."""
+    header_row(ws, 1, ["key", "value (as read from the rig file)"])
+    raw = result.rig_raw or {}
+    r = 2
+    top = {k: v for k, v in raw.items() if not isinstance(v, dict)}
+    if top:
+        r = _section(ws, r, "top level", top)
+    for key, value in raw.items():
+        if isinstance(value, dict):
+            r = _section(ws, r, key, value)
+    if r == 2:
+        text(ws, r, 1, "no rig description was recorded", NOTE)
+    ws.freeze_panes = "B2"
+    set_widths(ws, {1: 26, 2: 40})
