@@ -40,6 +40,11 @@ def injected_rig(text: str) -> str:
 
 
 @pytest.fixture(scope="session")
+def injections() -> dict[str, str]:
+    return dict(INJECTIONS)
+
+
+@pytest.fixture(scope="session")
 def gauge():
     """The static gauge template: uncorrelated inputs, every ν infinite."""
     return run(TEMPLATE_DIR / "gauge_static.toml")
