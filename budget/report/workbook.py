@@ -23,7 +23,7 @@ from pathlib import Path
 from openpyxl import Workbook
 
 from budget.report.workbook_budget import write_formula_sheets
-from budget.report.workbook_cells import print_setup
+from budget.report.workbook_cells import fit_row_heights, print_setup
 from budget.report.workbook_charts import write_monte_carlo_sheet
 from budget.report.workbook_sheets import write_inputs_sheet, write_summary_sheet
 from budget.results import RunResult
@@ -43,6 +43,7 @@ def build_workbook(result: RunResult) -> Workbook:
     write_inputs_sheet(wb.create_sheet("Inputs"), result)
     write_summary_sheet(summary, result, blocks)
     for ws in wb.worksheets:
+        fit_row_heights(ws)
         print_setup(ws, None if ws.title == "Summary" else "1:1")
     wb.properties.title = f"Uncertainty budget: {result.title}"[:255]
     wb.properties.creator = f"thetabudget {result.tool_version}"

@@ -16,7 +16,7 @@ from openpyxl.utils import get_column_letter
 from budget.report.safe_write import set_text
 
 __all__ = ["INF_TEXT", "FMT", "text", "number", "formula", "header_row", "title", "set_widths", "dof_cell",
-           "print_setup"]
+           "print_setup", "fit_row_heights"]
 
 INF_TEXT = "∞"
 """How an infinite number of degrees of freedom is written in a cell.
@@ -136,3 +136,32 @@ def print_setup(ws, title_rows: str | None = "1:1") -> None:
     ws.page_setup.fitToHeight = 0
     if title_rows:
         ws.print_title_rows = title_rows
+
+
+LINE_PT = 15.0
+"""Height of one line of 11-point text, in points."""
+
+
+def fit_row_heights(ws) -> None:
+    """Give rows with wrapped text the height their lines need.
+
+    Spreadsheets do not grow such rows by themselves when the file gives no height, and the
+    wrapped lines would overlap the next row. One character per unit of column width is
+    assumed, which errs towards a little spare room.
+    """
+    for row in ws.iter_rows():
+        lines = 0
+        for cell in row:
+            if cell.data_type != "s" or not cell.value or not (cell.alignment and cell.alignment.wrap_text):
+                continue
+            width = ws.column_dimensions[get_column_letter(cell.column)].width or 8.43
+            per_line = max(1, int(width) - 1)
+            lines = max(lines, sum(max(1, math.ceil(len(part) / per_line)) for part in str(cell.value).split("\n")))
+        if lines > 1:
+            r = row[0].row
+            current = ws.row_dimensions[r].height or LINE_PT
+            ws.row_dimensions[r].height = min(409.0, max(current, LINE_PT * lines))
+            for cell in row:  # the row's other cells line up with the first line of the wrapped text
+                if cell.value is not None:
+                    a = cell.alignment
+                    cell.alignment = Alignment(horizontal=a.horizontal, vertical="top", wrap_text=a.wrap_text)

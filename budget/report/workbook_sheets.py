@@ -41,8 +41,15 @@ _HOW_TO_READ = (
 
 
 def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> None:
-    """Fill the Summary sheet (the first sheet)."""
+    """Fill the Summary sheet (the first sheet): results first, then provenance, sweep, warnings."""
     text(ws, 1, 1, f"Uncertainty budget: {result.title}", TITLE)
+    header_row(ws, 3, SUMMARY_COLUMNS)
+    r = 3
+    for b in blocks:
+        r += 1
+        _result_row(ws, r, b)
+    r += 2
+    title(ws, r, "Provenance", 2)
     prov = [
         ("tool", f"thetabudget {result.tool_version}"),
         ("input file", result.input_path),
@@ -53,24 +60,17 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
         ("standards followed", STANDARDS),
         ("how to read this workbook", _HOW_TO_READ),
     ]
-    r = 3
     for label, value in prov:
+        r += 1
         text(ws, r, 1, label, BOLD)
         text(ws, r, 2, value).alignment = WRAP
-        r += 1
+    r += 1
     text(ws, r, 1, "coverage probability p", BOLD)
     number(ws, r, 2, result.p, FMT["p"])
     r += 2
-    header_row(ws, r, SUMMARY_COLUMNS)
-    ws.row_dimensions[r].height = 45
-    first_result_row = r + 1
-    for b in blocks:
-        r += 1
-        _result_row(ws, r, b)
-    r += 2
     r = _sweep_rows(ws, r, result)
     _warnings(ws, r, result)
-    ws.freeze_panes = f"B{first_result_row}"
+    ws.freeze_panes = "B4"
     set_widths(ws, {1: 30, 2: 48, 3: 13, 4: 13, 5: 6, 6: 12, 7: 7, 8: 7, 9: 12, 10: 12, 11: 13, 12: 13,
                     13: 13, 14: 13, 15: 10, 16: 70, 17: 48, 18: 60})
 

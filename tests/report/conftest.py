@@ -57,6 +57,12 @@ def sweep():
 
 
 @pytest.fixture(scope="session")
+def moving():
+    """The moving-pointer template: components of a single input (k1, the measured tilt)."""
+    return run(TEMPLATE_DIR / "moving_pointer.toml")
+
+
+@pytest.fixture(scope="session")
 def type_a(tmp_path_factory):
     """The gauge with formula-like user text and Type A centroid noise (t, 5 dof): finite ν_eff."""
     path = tmp_path_factory.mktemp("rigs") / "injected.toml"

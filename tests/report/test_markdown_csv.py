@@ -18,7 +18,7 @@ from budget.report.jsonout import run_to_dict
 from budget.report.markdown import render_markdown
 
 REL = 1e-5
-RUNS = ["gauge", "sweep", "type_a", "correlated"]
+RUNS = ["gauge", "sweep", "moving", "type_a", "correlated"]
 
 
 def _cell(text: str):

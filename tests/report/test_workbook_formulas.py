@@ -101,7 +101,7 @@ def nu_matches(cell, nu: float) -> bool:
     return not isinstance(cell, str) and close(cell, nu)
 
 
-@pytest.fixture(scope="module", params=["gauge", "sweep", "type_a", "correlated"])
+@pytest.fixture(scope="module", params=["gauge", "sweep", "moving", "type_a", "correlated"])
 def recalculated(request, tmp_path_factory):
     result = request.getfixturevalue(request.param)
     return request.param, Recalculated(result, tmp_path_factory.mktemp("xl") / f"{request.param}.xlsx")
@@ -169,18 +169,23 @@ def test_every_input_quantity_is_listed_once_with_its_standard_uncertainty(recal
 def test_formulas_are_live_unless_inputs_are_correlated(recalculated):
     name, xl = recalculated
     ws = xl.book["Budget"]
-    for block in budget_rows(xl.book, xl.result):
+    for ob, block in zip(xl.result.outputs, budget_rows(xl.book, xl.result), strict=True):
         uc = ws.cell(row=block["closing"]["u_c"], column=10)
         for what in ("ν_eff", "k", "U"):
             assert ws.cell(row=block["closing"][what], column=10).data_type == "f"
-        lens = ws.cell(row=block["components"]["lens distortion"], column=10)
+        for g in ob.linear.groups:
+            cell = ws.cell(row=block["components"][g.name], column=10)
+            if name == "correlated" and g.name == "lens distortion":
+                assert cell.data_type == "n"
+            elif len(g.inputs) == 1:  # |c|·u with c and u on the same row
+                assert cell.value == f"=ABS(H{cell.row})*G{cell.row}"
+            else:
+                assert cell.value.startswith("=SQRT(SUMSQ(Detail!$L$")
         if name == "correlated":
-            assert uc.data_type == "n" and lens.data_type == "n"
-            note = ws.cell(row=block["closing"]["u_c"], column=15).value
-            assert "correlated" in note
+            assert uc.data_type == "n"
+            assert "correlated" in ws.cell(row=block["closing"]["u_c"], column=15).value
         else:
             assert uc.data_type == "f" and uc.value.startswith("=SQRT(SUMSQ(")
-            assert lens.value.startswith("=SQRT(SUMSQ(Detail!")
 
 
 def test_k_uses_the_t_distribution_spelled_for_excel_libreoffice_and_formulas(recalculated):
