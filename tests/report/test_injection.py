@@ -21,15 +21,6 @@ from budget.report.workbook import build_workbook, save_workbook
 
 ALLOWED_FUNCTIONS = {"SQRT", "SUMSQ", "ABS", "IF", "ISNUMBER", "OR", "INT", "SUM", "_xlfn.T.INV.2T",
                      "_xlfn.NORM.S.INV"}
-INJECTIONS = {
-    "title": '=HYPERLINK("http://example.invalid","open me")',
-    "lens": "=1+2",
-    "geometry": "+SUM(1,2)",
-    "target": "-3+4",
-    "locator": "@SUM(1)",
-}
-"""Must match the payloads the conftest's ``type_a`` rig carries (checked below)."""
-PAYLOADS = tuple(INJECTIONS.values())
 
 
 @pytest.fixture(scope="module")
@@ -40,27 +31,27 @@ def book(type_a, tmp_path_factory):
 
 
 def test_the_rig_really_carries_the_payloads(type_a, injections):
-    assert injections == INJECTIONS
-    assert type_a.title == INJECTIONS["title"]
+    assert type_a.title == injections["title"]
     sources = {s for ob in type_a.outputs for c in ob.components for s in c.sources}
     for section in ("lens", "geometry", "target"):  # component source notes
-        assert any(s.startswith(INJECTIONS[section]) for s in sources), section
+        assert any(s.startswith(injections[section]) for s in sources), section
     for section in ("lens", "geometry", "target", "locator"):  # the rig as read (Inputs sheet)
-        assert type_a.rig_raw[section]["source"] == INJECTIONS[section]
+        assert type_a.rig_raw[section]["source"] == injections[section]
 
 
-def test_user_text_is_a_string_cell_in_every_sheet(book):
+def test_user_text_is_a_string_cell_in_every_sheet(book, injections):
     _, wb = book
+    payloads = tuple(injections.values())
     seen = set()
     for ws in wb.worksheets:
         for row in ws.iter_rows():
             for cell in row:
-                if isinstance(cell.value, str) and any(p in cell.value for p in PAYLOADS):
+                if isinstance(cell.value, str) and any(p in cell.value for p in payloads):
                     assert cell.data_type == "s", (ws.title, cell.coordinate, cell.value)
                     if is_risky(cell.value):
                         assert cell.quotePrefix, (ws.title, cell.coordinate)
-                    seen.update(p for p in PAYLOADS if cell.value.startswith(p))
-    assert seen == set(PAYLOADS)  # every payload reached a cell of its own, at its start
+                    seen.update(p for p in payloads if cell.value.startswith(p))
+    assert seen == set(payloads)  # every payload reached a cell of its own, at its start
 
 
 def test_every_formula_is_ours(book):
@@ -80,11 +71,11 @@ def test_every_formula_is_ours(book):
                 assert not any("HYPERLINK" in f or "SUM(1" in f for f in formulas), name
 
 
-def test_csv_text_fields_are_inert_and_numbers_stay_numbers(type_a):
+def test_csv_text_fields_are_inert_and_numbers_stay_numbers(type_a, injections):
     rows = list(csv.DictReader(io.StringIO(render_csv(type_a))))
     assert rows and tuple(rows[0]) == CSV_COLUMNS
     lens = [r for r in rows if r["component"] == "lens distortion"]
-    assert lens and all(r["sources"].startswith("'" + INJECTIONS["lens"]) for r in lens)
+    assert lens and all(r["sources"].startswith("'" + injections["lens"]) for r in lens)
     numeric = ("contribution", "percent", "dof", "u_c", "nu_eff", "k", "U", "estimate")
     for r in rows:
         for key, value in r.items():
@@ -99,9 +90,9 @@ def test_markdown_keeps_user_text_from_breaking_tables():
     assert "\n" not in md_text("one\ntwo")
 
 
-def test_markdown_title_is_plain_text(type_a):
+def test_markdown_title_is_plain_text(type_a, injections):
     md = render_markdown(type_a)
-    assert md.splitlines()[0] == f"# Uncertainty budget: {INJECTIONS['title']}"
+    assert md.splitlines()[0] == f"# Uncertainty budget: {injections['title']}"
 
 
 @pytest.mark.parametrize("payload", ["=1+2", "+A1", "-A1", "@SUM(A1)", "\tx", "\rx"])
