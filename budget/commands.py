@@ -57,8 +57,17 @@ def _run(args: argparse.Namespace, quiet: bool):
 def cmd_run(args: argparse.Namespace) -> int:
     outputs = [args.xlsx, args.md, args.csv]
     _refuse_existing(outputs, args.force)
-    if args.plots is not None and args.plots.exists() and not args.plots.is_dir():
-        raise BudgetInputError(f"The --plots path '{args.plots}' exists and is not a folder.")
+    if args.plots is not None and args.plots.exists():
+        if not args.plots.is_dir():
+            raise BudgetInputError(f"The --plots path '{args.plots}' exists and is not a folder.")
+        from budget.config import load_rig
+        from budget.report.plots import plot_names
+
+        rig = load_rig(args.file)
+        n = len(rig.nominal_angles_deg)
+        names = [f"P{i + 1}" for i in range(n)] + (["gain", "intercept"] if rig.sweep is not None else [])
+        _refuse_existing([args.plots / f for f in plot_names(names, sweep=rig.sweep is not None, n_angles=n)],
+                         args.force)
     _, result = _run(args, quiet=args.quiet or args.json)
     if args.json:
         from budget.report.jsonout import run_to_json

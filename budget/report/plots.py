@@ -21,7 +21,7 @@ from __future__ import annotations
 import math
 import re
 import textwrap
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 import numpy as np
@@ -173,16 +173,29 @@ def expanded_uncertainty(result: RunResult, path: Path) -> None:
     _save(fig, path)
 
 
+def plot_names(outputs: Sequence[str], *, sweep: bool, n_angles: int) -> list[str]:
+    """The PNG file names a run writes, known before it runs (so existing files are refused early)."""
+    names = []
+    for name in outputs:
+        stem = _safe_name(name)
+        names += [f"{stem}_monte_carlo.png", f"{stem}_pareto.png"]
+    if sweep:
+        names.append("sweep_residuals.png")
+    if n_angles >= 2:
+        names.append("expanded_uncertainty.png")
+    return names
+
+
 def plot_plan(result: RunResult) -> list[tuple[str, Callable[[Path], None]]]:
     """File names and the functions that draw them, in the order they are written."""
-    plan: list[tuple[str, Callable[[Path], None]]] = []
+    draws: list[Callable[[Path], None]] = []
     for ob in result.outputs:
-        stem = _safe_name(ob.name)
-        plan.append((f"{stem}_monte_carlo.png", lambda p, ob=ob: mc_histogram(ob, p)))
-        plan.append((f"{stem}_pareto.png", lambda p, ob=ob: pareto(ob, p)))
-    if result.gain_summary is not None and result.gain is not None \
-            and len(result.gain_summary.set_points_v) == len(result.angles):
-        plan.append(("sweep_residuals.png", lambda p: sweep_residuals(result, p)))
+        draws += [lambda p, ob=ob: mc_histogram(ob, p), lambda p, ob=ob: pareto(ob, p)]
+    sweep = result.gain_summary is not None and result.gain is not None \
+        and len(result.gain_summary.set_points_v) == len(result.angles)
+    if sweep:
+        draws.append(lambda p: sweep_residuals(result, p))
     if len(result.angles) >= 2:
-        plan.append(("expanded_uncertainty.png", lambda p: expanded_uncertainty(result, p)))
-    return plan
+        draws.append(lambda p: expanded_uncertainty(result, p))
+    names = plot_names([ob.name for ob in result.outputs], sweep=sweep, n_angles=len(result.angles))
+    return list(zip(names, draws, strict=True))
