@@ -3,7 +3,6 @@ that names the field, its section, what is allowed and the value received."""
 
 from __future__ import annotations
 
-import copy
 import math
 from pathlib import Path
 
@@ -13,6 +12,7 @@ from budget.camera.evaluation import load_evaluation
 from budget.cli import TEMPLATES as TEMPLATE_NAMES
 from budget.config import load_rig, parse_rig
 from budget.errors import BudgetInputError
+from tests.rigdoc import merge_doc
 
 TEMPLATES = Path(__file__).resolve().parent.parent / "templates"
 
@@ -29,20 +29,7 @@ SWEEP = {"set_points_v": [1.0, 2.0, 3.0], "nominal_gain_deg_per_v": 10.0}
 
 def make_doc(over: dict | None = None) -> dict:
     """A minimal valid rig document with ``over`` merged in (a value of None deletes)."""
-    doc = copy.deepcopy(BASE)
-    for section, value in (over or {}).items():
-        if value is None:
-            doc.pop(section, None)
-        elif isinstance(value, dict):
-            table = doc.setdefault(section, {})
-            for key, v in value.items():
-                if v is None:
-                    table.pop(key, None)
-                else:
-                    table[key] = v
-        else:
-            doc[section] = value
-    return doc
+    return merge_doc(BASE, over)
 
 
 def error_of(doc: dict, base: Path | None = None) -> str:

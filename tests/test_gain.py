@@ -6,7 +6,6 @@ Rigs are built in memory with :func:`parse_rig`; their figures are invented.
 
 from __future__ import annotations
 
-import copy
 import math
 import tomllib
 from pathlib import Path
@@ -20,6 +19,7 @@ from budget.camera.components import build_inputs
 from budget.camera.rig import VirtualRig
 from budget.config import load_rig, parse_rig
 from budget.propagation import Rectangular, linear
+from tests.rigdoc import merge_doc
 
 TEMPLATES = Path(__file__).resolve().parent.parent / "templates"
 
@@ -39,20 +39,7 @@ BASE = {
 
 def make_rig(over: dict | None = None):
     """A minimal valid sweep rig with ``over`` merged into its document (None deletes)."""
-    doc = copy.deepcopy(BASE)
-    for section, value in (over or {}).items():
-        if value is None:
-            doc.pop(section, None)
-        elif isinstance(value, dict):
-            table = doc.setdefault(section, {})
-            for key, v in value.items():
-                if v is None:
-                    table.pop(key, None)
-                else:
-                    table[key] = v
-        else:
-            doc[section] = value
-    return parse_rig(doc)
+    return parse_rig(merge_doc(BASE, over))
 
 
 # ---------------------------------------------------------------- the source's input quantities

@@ -8,7 +8,6 @@ checked against derivations. Rigs are built in memory; their figures are invente
 
 from __future__ import annotations
 
-import copy
 import csv
 import math
 
@@ -24,6 +23,7 @@ from budget.camera.evaluation import load_evaluation
 from budget.camera.rig import VirtualRig, nominal_image_points
 from budget.config import parse_rig
 from budget.propagation import StudentT, linear
+from tests.rigdoc import merge_doc
 
 BASE = {
     "title": "budget test rig (invented)",
@@ -40,20 +40,7 @@ BASE = {
 
 def make_doc(over: dict | None = None) -> dict:
     """A minimal valid rig document with ``over`` merged in (a value of None deletes)."""
-    doc = copy.deepcopy(BASE)
-    for section, value in (over or {}).items():
-        if value is None:
-            doc.pop(section, None)
-        elif isinstance(value, dict):
-            table = doc.setdefault(section, {})
-            for key, v in value.items():
-                if v is None:
-                    table.pop(key, None)
-                else:
-                    table[key] = v
-        else:
-            doc[section] = value
-    return doc
+    return merge_doc(BASE, over)
 
 
 # ---------------------------------------------------------------- against `uncertainties`

@@ -7,7 +7,6 @@ built in memory with :func:`parse_rig`; their figures are invented for the tests
 
 from __future__ import annotations
 
-import copy
 import math
 
 import numpy as np
@@ -21,6 +20,7 @@ from budget.camera.components import build_inputs, locator_model
 from budget.camera.rig import VirtualRig
 from budget.config import parse_rig
 from budget.propagation import linear, monte_carlo
+from tests.rigdoc import merge_doc
 
 BASE = {
     "title": "component test rig (invented)",
@@ -36,20 +36,7 @@ BASE = {
 
 def make_rig(over: dict | None = None):
     """A minimal valid rig with ``over`` merged into its document (a value of None deletes)."""
-    doc = copy.deepcopy(BASE)
-    for section, value in (over or {}).items():
-        if value is None:
-            doc.pop(section, None)
-        elif isinstance(value, dict):
-            table = doc.setdefault(section, {})
-            for key, v in value.items():
-                if v is None:
-                    table.pop(key, None)
-                else:
-                    table[key] = v
-        else:
-            doc[section] = value
-    return parse_rig(doc)
+    return parse_rig(merge_doc(BASE, over))
 
 
 def group(inputs: dict, name: str) -> dict:

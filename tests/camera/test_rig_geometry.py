@@ -7,7 +7,6 @@ with :func:`parse_rig`; their figures are invented for the tests.
 
 from __future__ import annotations
 
-import copy
 import math
 
 import numpy as np
@@ -17,6 +16,7 @@ from budget.camera.components import build_inputs
 from budget.camera.rig import VirtualRig, nominal_image_points, rotate_tilt
 from budget.config import parse_rig
 from budget.propagation import Normal, linear, monte_carlo
+from tests.rigdoc import merge_doc
 
 BASE = {
     "title": "geometry test rig (invented)",
@@ -32,20 +32,7 @@ BASE = {
 
 def make_doc(over: dict | None = None) -> dict:
     """A minimal valid rig document with ``over`` merged in (a value of None deletes)."""
-    doc = copy.deepcopy(BASE)
-    for section, value in (over or {}).items():
-        if value is None:
-            doc.pop(section, None)
-        elif isinstance(value, dict):
-            table = doc.setdefault(section, {})
-            for key, v in value.items():
-                if v is None:
-                    table.pop(key, None)
-                else:
-                    table[key] = v
-        else:
-            doc[section] = value
-    return doc
+    return merge_doc(BASE, over)
 
 
 def make_rig(over: dict | None = None):
