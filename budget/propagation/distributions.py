@@ -98,6 +98,36 @@ class Distribution:
 
 
 @dataclass(frozen=True)
+class _Bounded(Distribution):
+    """A symmetric distribution on [low, high]: shared checks, mean, half-width and dof."""
+
+    low: float
+    high: float
+
+    def _check_bounds(self) -> None:
+        lo, hi = _bounds(self.low, self.high, type(self).__name__)
+        object.__setattr__(self, "low", lo)
+        object.__setattr__(self, "high", hi)
+        _dof_from_rel(self.rel_u_of_u, type(self).__name__)  # type: ignore[attr-defined]
+
+    @property
+    def mean(self) -> float:
+        return 0.5 * (self.low + self.high)
+
+    @property
+    def half_width(self) -> float:
+        return 0.5 * (self.high - self.low)
+
+    @property
+    def dof(self) -> float:
+        return _dof_from_rel(self.rel_u_of_u, type(self).__name__)  # type: ignore[attr-defined]
+
+    @property
+    def quoted(self) -> tuple[float, float]:
+        return self.half_width, self.half_width / self.sd  # type: ignore[attr-defined]
+
+
+@dataclass(frozen=True)
 class Normal(Distribution):
     """Gaussian N(mean, sd²) (JCGM 101 6.4.7).
 
@@ -140,7 +170,7 @@ class Normal(Distribution):
 
 
 @dataclass(frozen=True)
-class Rectangular(Distribution):
+class Rectangular(_Bounded):
     """Uniform R(low, high) (JCGM 101 6.4.2; JCGM 100 4.3.7): sd = (high − low)/√12."""
 
     low: float
@@ -148,26 +178,11 @@ class Rectangular(Distribution):
     rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
-        lo, hi = _bounds(self.low, self.high, "Rectangular")
-        object.__setattr__(self, "low", lo)
-        object.__setattr__(self, "high", hi)
-        _dof_from_rel(self.rel_u_of_u, "Rectangular")
-
-    @property
-    def mean(self) -> float:
-        return 0.5 * (self.low + self.high)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.high - self.low)
+        self._check_bounds()
 
     @property
     def sd(self) -> float:
         return self.half_width / math.sqrt(3.0)
-
-    @property
-    def dof(self) -> float:
-        return _dof_from_rel(self.rel_u_of_u, "Rectangular")
 
     @property
     def quoted(self) -> tuple[float, float]:
@@ -181,7 +196,7 @@ class Rectangular(Distribution):
 
 
 @dataclass(frozen=True)
-class Trapezoidal(Distribution):
+class Trapezoidal(_Bounded):
     """Symmetric trapezoid on [low, high], top to base ratio ``beta`` (JCGM 101 6.4.4).
 
     Notes
@@ -197,31 +212,15 @@ class Trapezoidal(Distribution):
     rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
-        w = type(self).__name__
-        lo, hi = _bounds(self.low, self.high, w)
-        b = _finite("beta", self.beta, w)
+        self._check_bounds()
+        b = _finite("beta", self.beta, type(self).__name__)
         if not 0.0 <= b <= 1.0:
-            raise field_error("beta", "a number in [0, 1]", self.beta, w)
-        object.__setattr__(self, "low", lo)
-        object.__setattr__(self, "high", hi)
+            raise field_error("beta", "a number in [0, 1]", self.beta, type(self).__name__)
         object.__setattr__(self, "beta", b)
-        _dof_from_rel(self.rel_u_of_u, w)
-
-    @property
-    def mean(self) -> float:
-        return 0.5 * (self.low + self.high)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.high - self.low)
 
     @property
     def sd(self) -> float:
         return self.half_width * math.sqrt((1.0 + self.beta**2) / 6.0)
-
-    @property
-    def dof(self) -> float:
-        return _dof_from_rel(self.rel_u_of_u, type(self).__name__)
 
     @property
     def quoted(self) -> tuple[float, float]:
@@ -256,7 +255,7 @@ class Triangular(Trapezoidal):
 
 
 @dataclass(frozen=True)
-class CurvilinearTrapezoid(Distribution):
+class CurvilinearTrapezoid(_Bounded):
     """Rectangular distribution with inexactly known limits (JCGM 101 6.4.3).
 
     Parameters
@@ -280,34 +279,15 @@ class CurvilinearTrapezoid(Distribution):
 
     def __post_init__(self) -> None:
         w = "CurvilinearTrapezoid"
-        lo, hi = _bounds(self.low, self.high, w)
+        self._check_bounds()
         d = _positive("d", self.d, w)
-        if d > 0.5 * (hi - lo):
-            raise field_error("d", f"a number in (0, {0.5 * (hi - lo):g}]", self.d, w)
-        object.__setattr__(self, "low", lo)
-        object.__setattr__(self, "high", hi)
+        if d > self.half_width:
+            raise field_error("d", f"a number in (0, {self.half_width:g}]", self.d, w)
         object.__setattr__(self, "d", d)
-        _dof_from_rel(self.rel_u_of_u, w)
-
-    @property
-    def mean(self) -> float:
-        return 0.5 * (self.low + self.high)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.high - self.low)
 
     @property
     def sd(self) -> float:
         return math.sqrt(self.half_width**2 / 3.0 + self.d**2 / 9.0)
-
-    @property
-    def dof(self) -> float:
-        return _dof_from_rel(self.rel_u_of_u, "CurvilinearTrapezoid")
-
-    @property
-    def quoted(self) -> tuple[float, float]:
-        return self.half_width, self.half_width / self.sd
 
     def describe(self) -> str:
         return f"curvilinear trapezoid, half-width {self.half_width:.4g}, d {self.d:.4g}"
@@ -321,7 +301,7 @@ class CurvilinearTrapezoid(Distribution):
 
 
 @dataclass(frozen=True)
-class Arcsine(Distribution):
+class Arcsine(_Bounded):
     """U-shaped (arcsine) distribution on [low, high] (JCGM 101 6.4.6): sd = a/√2.
 
     Notes
@@ -336,26 +316,11 @@ class Arcsine(Distribution):
     rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
-        lo, hi = _bounds(self.low, self.high, "Arcsine")
-        object.__setattr__(self, "low", lo)
-        object.__setattr__(self, "high", hi)
-        _dof_from_rel(self.rel_u_of_u, "Arcsine")
-
-    @property
-    def mean(self) -> float:
-        return 0.5 * (self.low + self.high)
-
-    @property
-    def half_width(self) -> float:
-        return 0.5 * (self.high - self.low)
+        self._check_bounds()
 
     @property
     def sd(self) -> float:
         return self.half_width / math.sqrt(2.0)
-
-    @property
-    def dof(self) -> float:
-        return _dof_from_rel(self.rel_u_of_u, "Arcsine")
 
     @property
     def quoted(self) -> tuple[float, float]:
