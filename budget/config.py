@@ -17,7 +17,7 @@ from pathlib import Path
 from budget.camera import description as d
 from budget.errors import BudgetInputError, field_error
 
-__all__ = ["load_rig", "parse_rig", "SCHEMA"]
+__all__ = ["load_rig", "parse_rig", "read_toml", "SCHEMA"]
 
 
 @dataclass(frozen=True)
@@ -315,6 +315,21 @@ def _cross_checks(rig: d.RigDescription) -> None:
             )
 
 
+def read_toml(path: str | Path, what: str = "input file") -> dict:
+    """Read a TOML file; a missing, unreadable or malformed file is one BudgetInputError line."""
+    p = Path(path)
+    try:
+        text = p.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise BudgetInputError(f"The {what} '{p}' does not exist.") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise BudgetInputError(f"The {what} '{p}' cannot be read: {exc}.") from None
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise BudgetInputError(f"The {what} '{p}' is not valid TOML: {exc}.") from None
+
+
 def load_rig(path: str | Path) -> d.RigDescription:
     """Read and validate a rig description file.
 
@@ -324,15 +339,4 @@ def load_rig(path: str | Path) -> d.RigDescription:
         For a missing or unreadable file, malformed TOML (with the line), or any
         invalid field.
     """
-    p = Path(path)
-    try:
-        text = p.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise BudgetInputError(f"The input file '{p}' does not exist.") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise BudgetInputError(f"The input file '{p}' cannot be read: {exc}.") from None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise BudgetInputError(f"The input file '{p}' is not valid TOML: {exc}.") from None
-    return parse_rig(doc, base=p.parent)
+    return parse_rig(read_toml(path), base=Path(path).parent)

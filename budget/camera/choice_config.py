@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import csv
 import math
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -370,15 +369,6 @@ def load_choose(path: str | Path) -> ChooseSpec:
     BudgetInputError
         A missing or unreadable file, malformed TOML, or any invalid field (one line).
     """
-    p = Path(path)
-    try:
-        text = p.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise BudgetInputError(f"The choose file '{p}' does not exist.") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise BudgetInputError(f"The choose file '{p}' cannot be read: {exc}.") from None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise BudgetInputError(f"The choose file '{p}' is not valid TOML: {exc}.") from None
-    return parse_choose(doc, base=p.parent)
+    from budget.config import read_toml
+
+    return parse_choose(read_toml(path, "choose file"), base=Path(path).parent)
