@@ -9,7 +9,7 @@ samples from a :class:`numpy.random.Generator` passed in by the caller.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -103,12 +103,13 @@ class _Bounded(Distribution):
 
     low: float
     high: float
+    rel_u_of_u: float | None = field(default=None, kw_only=True)
 
-    def _check_bounds(self) -> None:
+    def __post_init__(self) -> None:
         lo, hi = _bounds(self.low, self.high, type(self).__name__)
         object.__setattr__(self, "low", lo)
         object.__setattr__(self, "high", hi)
-        _dof_from_rel(self.rel_u_of_u, type(self).__name__)  # type: ignore[attr-defined]
+        _dof_from_rel(self.rel_u_of_u, type(self).__name__)
 
     @property
     def mean(self) -> float:
@@ -120,7 +121,7 @@ class _Bounded(Distribution):
 
     @property
     def dof(self) -> float:
-        return _dof_from_rel(self.rel_u_of_u, type(self).__name__)  # type: ignore[attr-defined]
+        return _dof_from_rel(self.rel_u_of_u, type(self).__name__)
 
     @property
     def quoted(self) -> tuple[float, float]:
@@ -173,13 +174,6 @@ class Normal(Distribution):
 class Rectangular(_Bounded):
     """Uniform R(low, high) (JCGM 101 6.4.2; JCGM 100 4.3.7): sd = (high − low)/√12."""
 
-    low: float
-    high: float
-    rel_u_of_u: float | None = None
-
-    def __post_init__(self) -> None:
-        self._check_bounds()
-
     @property
     def sd(self) -> float:
         return self.half_width / math.sqrt(3.0)
@@ -206,13 +200,10 @@ class Trapezoidal(_Bounded):
     (JCGM 101 6.4.4.4). β = 0 is the triangle, β = 1 the rectangle.
     """
 
-    low: float
-    high: float
     beta: float
-    rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
-        self._check_bounds()
+        super().__post_init__()
         b = _finite("beta", self.beta, type(self).__name__)
         if not 0.0 <= b <= 1.0:
             raise field_error("beta", "a number in [0, 1]", self.beta, type(self).__name__)
@@ -240,10 +231,7 @@ class Trapezoidal(_Bounded):
 class Triangular(Trapezoidal):
     """Symmetric triangle on [low, high] (JCGM 101 6.4.5; JCGM 100 4.3.9): sd = a/√6."""
 
-    low: float
-    high: float
     beta: float = 0.0
-    rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
         if self.beta != 0.0:
@@ -272,14 +260,11 @@ class CurvilinearTrapezoid(_Bounded):
     then a value uniformly between them (JCGM 101 6.4.3.4).
     """
 
-    low: float
-    high: float
     d: float
-    rel_u_of_u: float | None = None
 
     def __post_init__(self) -> None:
         w = "CurvilinearTrapezoid"
-        self._check_bounds()
+        super().__post_init__()
         d = _positive("d", self.d, w)
         if d > self.half_width:
             raise field_error("d", f"a number in (0, {self.half_width:g}]", self.d, w)
@@ -310,13 +295,6 @@ class Arcsine(_Bounded):
     (JCGM 101 6.4.6.4). It is the distribution of a sinusoid at a random phase,
     e.g. a periodic locator bias when the sub-pixel phase is random.
     """
-
-    low: float
-    high: float
-    rel_u_of_u: float | None = None
-
-    def __post_init__(self) -> None:
-        self._check_bounds()
 
     @property
     def sd(self) -> float:
