@@ -7,7 +7,7 @@ Run by hand (never as a timed test)::
 
 Model: the mass calibration of JCGM 101:2008 9.3,
 δm = (m_Rc + δm_Rc)(1 + (ρa − ρa0)(1/ρW − 1/ρR)) − m_nom, m_nom = 100 g, ρa0 = 1.2 kg/m³,
-inputs as listed in /work/shared/REFERENCES.md (values from memory there). Both sides
+inputs as listed in the shared REFERENCES.md beside the repository (values from memory there). Both sides
 produce the same outputs: mean, standard deviation, and the probabilistically symmetric
 (JCGM 101 7.7) and shortest (7.8) 95 % intervals from one sort.
 

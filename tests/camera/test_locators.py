@@ -1,6 +1,9 @@
 """Tests of the locators and the locator physics (derived checks).
 
-Checks against published formulas are in tests/reference/test_locator_reference.py.
+Source of the expected values: derivations stated beside each test ([derived]: the Poisson
+summation formula for pixel-locking, JCGM 100 F.2.2.1 for quantization). Checks against
+published formulas (Thompson et al. 2002, Mortensen et al. 2010) are in
+tests/reference/test_locator_reference.py.
 """
 
 import numpy as np
