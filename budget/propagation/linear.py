@@ -26,6 +26,8 @@ STEP2 = 5e-2
 """Second and third derivatives (second-order terms): h_i = STEP2·u(x_i)."""
 NEGLIGIBLE = 1e-9
 """A first-order contribution below NEGLIGIBLE·u_c counts as zero sensitivity."""
+WS_RTOL = 1e-9
+"""Relative rounding allowed in ν_eff before truncating it to an integer (G.4.1 note 1)."""
 
 
 @dataclass(frozen=True)
@@ -133,6 +135,13 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
 
     Returns ``math.inf`` when every contribution has infinite degrees of freedom.
     A value of at least one is truncated to the next lower integer.
+
+    Notes
+    -----
+    The truncation first allows for rounding in the floating-point ratio (a
+    relative 1e-9): ν_eff that is an integer by the algebra (e.g. n equal
+    contributions of ν dof each give nν) can come out one ulp below it, and a
+    plain floor would then lose a whole degree of freedom.
     """
     finite = np.isfinite(dofs) & (contributions > 0)
     if not finite.any() or u_c == 0.0:
@@ -141,7 +150,9 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
     if denom == 0.0:
         return math.inf
     nu = u_c**4 / denom
-    return float(math.floor(nu)) if nu >= 1.0 else float(nu)
+    if nu < 1.0:
+        return float(nu)
+    return float(math.floor(nu * (1.0 + WS_RTOL)))
 
 
 _STEPS = np.array([-2.0, -1.0, 1.0, 2.0])

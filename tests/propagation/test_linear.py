@@ -361,3 +361,16 @@ def test_bad_input_quantity():
         InputQuantity(Normal(0.0, 1.0), evaluation="C")
     with pytest.raises(BudgetInputError, match="'distribution' field of InputQuantity"):
         InputQuantity(0.1)
+
+
+@pytest.mark.parametrize(("n", "nu_i"), [(2, 5.0), (3, 4.0), (4, 9.0), (5, 3.0)])
+@pytest.mark.parametrize("scale", [0.00123, 0.0417, 0.3, 1.7, 2.9, 7.3])
+def test_welch_satterthwaite_of_equal_contributions_is_exact(n, nu_i, scale):
+    # [derived] from JCGM 100 eq. (G.2b): n equal contributions u each with ν_i dof give
+    # u_c⁴ = n²u⁴ and Σ u⁴/ν_i = n·u⁴/ν_i, so ν_eff = n·ν_i exactly. The truncation of
+    # G.4.1 note 1 must not turn a rounding error of 1 ulp (e.g. 9.999999999999998) into
+    # ν_eff − 1. Exact equality: the value is an integer by the algebra.
+    inputs = {f"x{i}": Normal(mean=1.0, sd=scale, dof=nu_i) for i in range(n)}
+    res = linear(lambda **kw: sum(kw.values()), inputs)
+    assert res.nu_eff == n * nu_i
+    assert res.k == pytest.approx(stats.t.ppf(0.975, n * nu_i), rel=1e-12)
