@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal
+from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal, localcontext
 
 from budget.errors import field_error
 
@@ -13,12 +13,12 @@ _MODES = {"nearest": ROUND_HALF_UP, "up": ROUND_UP, "even": ROUND_HALF_EVEN}
 
 
 def _exponent_for(value: float, digits: int) -> int:
-    """Decimal exponent of the last kept digit when ``value`` keeps ``digits`` significant digits."""
-    e = math.floor(math.log10(abs(value))) - (digits - 1)
-    # 9.96 at two digits rounds to 10: the last kept digit moves up one decade.
-    if abs(round(value / 10.0**e)) >= 10**digits:
-        e += 1
-    return e
+    """Decimal exponent of the last kept digit when ``value`` keeps ``digits`` significant digits.
+
+    Read from the decimal form of ``value`` (exact at any exponent, subnormals included);
+    a value that rounds up into the next decade is handled by the caller.
+    """
+    return Decimal(repr(abs(value))).adjusted() - (digits - 1)
 
 
 def round_pair(estimate: float, uncertainty: float, digits: int = 2,
@@ -43,12 +43,18 @@ def round_pair(estimate: float, uncertainty: float, digits: int = 2,
     if not math.isfinite(estimate):
         raise field_error("estimate", "a finite number", estimate)
     e = _exponent_for(uncertainty, digits)
-    quantum = Decimal(1).scaleb(e)
-    u_dec = Decimal(repr(uncertainty)).quantize(quantum, rounding=_MODES[mode])
-    if u_dec.adjusted() - (digits - 1) > e:  # rounded up into the next decade
-        quantum = Decimal(1).scaleb(e + 1)
-        u_dec = u_dec.quantize(quantum, rounding=_MODES[mode])
-    y_dec = Decimal(repr(estimate)).quantize(quantum, rounding=ROUND_HALF_EVEN)
+    y_in = Decimal(repr(estimate))
+    with localcontext() as ctx:
+        # Enough digits for the estimate at the place of u (the default 28 is not a limit of 7.2.6).
+        ctx.prec = max(28, y_in.adjusted() - e + 4)
+        quantum = Decimal(1).scaleb(e)
+        u_dec = Decimal(repr(uncertainty)).quantize(quantum, rounding=_MODES[mode])
+        if u_dec.adjusted() - (digits - 1) > e:  # rounded up into the next decade (9.96 -> 10)
+            quantum = Decimal(1).scaleb(e + 1)
+            u_dec = u_dec.quantize(quantum, rounding=_MODES[mode])
+        y_dec = y_in.quantize(quantum, rounding=ROUND_HALF_EVEN)
+    if y_dec.is_zero():
+        y_dec = y_dec.copy_abs()  # -0.00001 at 0.0001 is "0.0000", not "-0.0000"
     return format(y_dec, "f"), format(u_dec, "f")
 
 

@@ -92,3 +92,33 @@ def test_rounded_u_has_at_most_the_requested_digits(mantissa, exponent, estimate
     assert yd % quantum == 0
     if quantum < 1:  # decimals shown: the same number for both
         assert yd.as_tuple().exponent == ud.as_tuple().exponent == quantum.as_tuple().exponent
+
+
+@pytest.mark.parametrize(
+    ("estimate", "u", "expected"),
+    [
+        # JCGM 100 7.2.6 [derived]: the estimate is rounded to the place of the last digit of u,
+        # however many digits that leaves; 28 digits is only the default Decimal precision,
+        # not a limit of the rule. Exact strings: the rounding is decimal and deterministic.
+        (1e30, 0.001, ("1000000000000000000000000000000.0000", "0.0010")),
+        (123456.789, 1.5e-30, ("123456.7890000000000000000000000000000", "0.0000000000000000000000000000015")),
+        (-2.5e12, 3.3e-20, ("-2500000000000.000000000000000000000", "0.000000000000000000033")),
+    ],
+)
+def test_round_pair_beyond_28_digits(estimate, u, expected):
+    assert round_pair(estimate, u) == expected
+
+
+@pytest.mark.parametrize(("estimate", "u", "expected"), [
+    # [derived] an estimate that rounds to zero at the place of u is stated as 0, without a
+    # sign: "-0.0000" would claim a sign the rounded value does not have.
+    (-0.00001, 0.0015, ("0.0000", "0.0015")),
+    (-0.4, 27.0, ("0", "27")),
+])
+def test_negative_estimate_rounding_to_zero_has_no_sign(estimate, u, expected):
+    assert round_pair(estimate, u) == expected
+
+
+def test_subnormal_uncertainty():
+    # [derived] u = 1e-320 (subnormal): 10.0**e loses precision there, the decimal exponent does not.
+    assert round_pair(1.0, 1.5e-320)[1] == "0." + "0" * 319 + "15"
