@@ -7,6 +7,7 @@ selftest, 2 bad input (one line on stderr naming the field; nothing written).
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -33,6 +34,33 @@ def _positive_int(text: str) -> int:
     return v
 
 
+def _seed(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number >= 0, got {text!r}") from None
+    if v < 0:  # numpy's SeedSequence takes non-negative integers only
+        raise argparse.ArgumentTypeError(f"must be a whole number >= 0, got {v}")
+    return v
+
+
+def _finite(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a finite number, got {text!r}") from None
+    if not math.isfinite(v):
+        raise argparse.ArgumentTypeError(f"must be a finite number, got {text}")
+    return v
+
+
+def _angle(text: str) -> float:
+    v = _finite(text)
+    if not -360 < v < 360:
+        raise argparse.ArgumentTypeError(f"must be an angle in (-360, 360) degrees, got {text}")
+    return v
+
+
 def _probability(text: str) -> float:
     try:
         v = float(text)
@@ -56,7 +84,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("file", type=Path)
     run.add_argument("--trials", type=_positive_int, default=None,
                      help="fixed Monte Carlo trials (default: adaptive, JCGM 101 7.9)")
-    run.add_argument("--seed", type=int, default=None, help="seed of the random generator")
+    run.add_argument("--seed", type=_seed, default=None, help="seed of the random generator")
     run.add_argument("--p", type=_probability, default=0.95, help="coverage probability (default 0.95)")
     run.add_argument("--json", action="store_true", help="write only JSON to stdout")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
@@ -74,10 +102,10 @@ def build_parser() -> argparse.ArgumentParser:
     pred = sub.add_parser("predict", help="voltage for an angle, or angle for a voltage, from a sweep file")
     pred.add_argument("file", type=Path)
     grp = pred.add_mutually_exclusive_group(required=True)
-    grp.add_argument("--angle", type=float, help="wanted angle in degrees")
-    grp.add_argument("--volts", type=float, help="commanded voltage")
+    grp.add_argument("--angle", type=_angle, help="wanted angle in degrees")
+    grp.add_argument("--volts", type=_finite, help="commanded voltage")
     pred.add_argument("--trials", type=_positive_int, default=None)
-    pred.add_argument("--seed", type=int, default=None)
+    pred.add_argument("--seed", type=_seed, default=None)
     pred.add_argument("--p", type=_probability, default=0.95)
     pred.add_argument("--json", action="store_true")
     _add_camera_commands(sub)
@@ -96,7 +124,7 @@ def _add_camera_commands(sub) -> None:
     ver = sub.add_parser("verify-locator", help="render synthetic target images and test the locator model")
     ver.add_argument("file", type=Path)
     ver.add_argument("--renders", type=_positive_int, default=2000)
-    ver.add_argument("--seed", type=int, default=None)
+    ver.add_argument("--seed", type=_seed, default=None)
     ver.add_argument("--json", action="store_true")
 
     fr = sub.add_parser("frames", help="locate a still target in frames and write the per-frame CSV")

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
-from budget.errors import BudgetInputError
+from budget.errors import BudgetInputError, field_error
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 """Starter files live in the checkout (the project is installed editable, as the README says)."""
@@ -156,8 +156,15 @@ def cmd_predict(args: argparse.Namespace) -> int:
     from budget.camera.prediction import predict
     from budget.config import load_rig
 
-    if load_rig(args.file).sweep is None:  # answer before spending seconds on the budget
+    rig = load_rig(args.file)
+    if rig.sweep is None:  # answer before spending seconds on the budget
         raise BudgetInputError(f"predict needs a [sweep] rig file; '{args.file}' has [positions].")
+    if args.volts is not None:  # the source cannot be commanded outside its own range
+        span, polarity = rig.source.span_v, rig.source.polarity
+        lo, hi = (-span / 2, span / 2) if polarity == "bipolar" else (0.0, span)
+        if not lo <= args.volts <= hi:
+            raise field_error("--volts", f"a voltage within the source's range [{lo:g}, {hi:g}] V "
+                              f"({polarity}, span {span:g} V)", args.volts)
     rig, result = _run(args, quiet=True)
     pred = predict(rig, result, angle_deg=args.angle, volts=args.volts)
     if args.json:

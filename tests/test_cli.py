@@ -233,3 +233,32 @@ def test_run_in_evaluation_mode(tmp_path, capsys):
     code, out, err = run_cli(capsys, "check", str(rig_path))
     assert code == 0, err
     assert "4 dof" in out and "repeated frames, n = 5" in out
+
+
+# ---------------------------------------------------------------- options checked before any work
+@pytest.mark.parametrize("cmd", [
+    ["run", str(TEMPLATE_DIR / TEMPLATES["gauge"]), "--quiet"],
+    ["predict", str(TEMPLATE_DIR / TEMPLATES["sweep"]), "--angle", "10"],
+    ["verify-locator", str(TEMPLATE_DIR / TEMPLATES["gauge"])],
+])
+def test_negative_seed_is_an_option_error(capsys, cmd):
+    """numpy's SeedSequence takes non-negative integers only [numpy documentation]: a negative
+    --seed is bad input (exit 2, the option named), not a traceback."""
+    code, out, err = run_cli(capsys, *cmd, "--seed", "-1")
+    assert code == 2 and out == ""
+    assert "--seed" in err.strip().splitlines()[-1] and ">= 0" in err
+
+
+@pytest.mark.parametrize("option, value", [
+    ("--angle", "nan"), ("--angle", "inf"), ("--angle", "1e308"), ("--angle", "360"),
+    ("--volts", "nan"), ("--volts", "-inf"), ("--volts", "1e300"), ("--volts", "10.5"),
+])
+def test_predict_refuses_values_outside_the_range(capsys, option, value):
+    """--angle is an angle in (-360, 360) as in [positions]; --volts must be a voltage the
+    template's source can give (bipolar, span 20 V: [-10, 10] V) [derived from the template].
+    Refused with exit 2 before the budget runs, no traceback, the option named."""
+    code, out, err = run_cli(capsys, "predict", str(TEMPLATE_DIR / TEMPLATES["sweep"]), option, value,
+                             "--seed", "1")
+    assert code == 2 and out == ""
+    last = err.strip().splitlines()[-1]
+    assert option in last, err
