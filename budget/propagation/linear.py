@@ -15,7 +15,7 @@ import numpy as np
 from scipy import stats
 
 from budget.errors import field_error
-from budget.propagation.model import SINGLE, Model, correlation_matrix, evaluate
+from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantities import InputQuantity, as_quantities
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
@@ -107,8 +107,8 @@ class MultiLinearResult:
 
     @property
     def correlation(self) -> np.ndarray:
-        s = np.sqrt(np.diag(self.covariance))
-        return self.covariance / np.outer(s, s)
+        """Output correlations; 0 for an output with u = 0 (see ``correlation_from_covariance``)."""
+        return correlation_from_covariance(self.covariance)
 
 
 def coverage_factor(p: float, nu_eff: float) -> float:

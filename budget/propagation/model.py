@@ -16,7 +16,7 @@ import numpy as np
 
 from budget.errors import BudgetInputError, field_error
 
-__all__ = ["evaluate", "correlation_matrix", "SINGLE"]
+__all__ = ["evaluate", "correlation_matrix", "correlation_from_covariance", "SINGLE"]
 
 SINGLE = "y"
 """Output name used when the model returns one array."""
@@ -102,6 +102,24 @@ def correlation_matrix(
             "a positive semi-definite matrix",
             f"smallest eigenvalue {smallest:.3g}",
         )
+    return r
+
+
+def correlation_from_covariance(cov: np.ndarray) -> np.ndarray:
+    """Correlation matrix of outputs from their covariance matrix.
+
+    Notes
+    -----
+    r_ij = u(y_i, y_j)/(u(y_i) u(y_j)) (JCGM 100 5.2.2). An output with u = 0 has zero
+    covariance with every other one; its correlations are reported as 0 (1 on the
+    diagonal) rather than the undefined 0/0.
+    """
+    c = np.atleast_2d(np.asarray(cov, dtype=float))
+    s = np.sqrt(np.clip(np.diag(c), 0.0, None))
+    den = np.outer(s, s)
+    r = np.zeros_like(c)
+    np.divide(c, den, out=r, where=den > 0)
+    np.fill_diagonal(r, 1.0)
     return r
 
 

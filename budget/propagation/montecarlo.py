@@ -16,7 +16,14 @@ import numpy as np
 from budget.errors import field_error
 from budget.propagation.distributions import Normal
 from budget.propagation.linear import check_p
-from budget.propagation.model import SINGLE, Model, correlated_factor, correlation_matrix, evaluate
+from budget.propagation.model import (
+    SINGLE,
+    Model,
+    correlated_factor,
+    correlation_from_covariance,
+    correlation_matrix,
+    evaluate,
+)
 from budget.propagation.quantities import as_quantities
 
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
@@ -67,8 +74,8 @@ class MultiMonteCarloResult:
 
     @property
     def correlation(self) -> np.ndarray:
-        s = np.sqrt(np.diag(self.covariance))
-        return self.covariance / np.outer(s, s)
+        """Output correlations; 0 for an output with u = 0 (see ``correlation_from_covariance``)."""
+        return correlation_from_covariance(self.covariance)
 
 
 def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[float, float]]:
@@ -79,11 +86,15 @@ def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, flo
     JCGM 101 7.7: q = pM if integer, else int(pM + ½); y_low = y_(r),
     y_high = y_(r+q) with r = (M − q)/2 if an integer, else int((M − q + 1)/2)
     (1-based). JCGM 101 7.8: the shortest is y_(r*), y_(r*+q) with r* minimizing
-    y_(r+q) − y_(r), r = 1, …, M − q.
+    y_(r+q) − y_(r), r = 1, …, M − q. Both need M >= q + 1 values; fewer raise
+    :class:`budget.errors.BudgetInputError`.
     """
     m = sorted_y.size
     pm = p * m
     q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
+    if q >= m:  # y_(r+q) with r >= 1 needs M >= q + 1
+        raise field_error("sorted_y", f"at least {q + 1} values for p = {p:g} (JCGM 101 7.7.2)",
+                          f"{m} values")
     r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
     r = max(r, 1)
     symmetric = (float(sorted_y[r - 1]), float(sorted_y[r + q - 1]))

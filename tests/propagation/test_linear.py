@@ -374,3 +374,16 @@ def test_welch_satterthwaite_of_equal_contributions_is_exact(n, nu_i, scale):
     res = linear(lambda **kw: sum(kw.values()), inputs)
     assert res.nu_eff == n * nu_i
     assert res.k == pytest.approx(stats.t.ppf(0.975, n * nu_i), rel=1e-12)
+
+
+def test_correlation_of_an_output_with_zero_u_is_zero():
+    # [derived] an output with zero sensitivity to every input has u = 0 and zero covariance
+    # with the others (C U_x Cᵀ, JCGM 102 6.2); its correlation is reported as 0 (1 with
+    # itself), not 0/0 = NaN. r(a + b, a − b) = (0.01 − 0.04)/0.05 = −0.6 by hand.
+    res = linear(lambda a, b: {"s": a + b, "c": 0.0 * a + 3.0, "d": a - b},
+                 {"a": Normal(1.0, 0.1), "b": Normal(2.0, 0.2)})
+    r = res.correlation
+    assert res["c"].u == 0.0
+    assert np.all(np.isfinite(r))
+    assert r[1, 1] == 1.0 and r[0, 1] == r[1, 0] == r[1, 2] == 0.0
+    assert r[0, 2] == pytest.approx(-0.6, rel=1e-9)

@@ -284,3 +284,31 @@ def test_same_seed_same_result_property(seed, half):
     two = monte_carlo(lambda a, b: a * b + b, inputs, trials=20_000, rng=_rng(seed))
     assert (one.estimate, one.u, one.interval, one.shortest, one.seed) == (
         two.estimate, two.u, two.interval, two.shortest, two.seed)
+
+
+@pytest.mark.parametrize(("m", "p"), [(10, 0.96), (100, 0.996), (1, 0.5), (0, 0.95)])
+def test_coverage_interval_needs_more_values_than_q(m, p):
+    # JCGM 101 7.7.2 [derived]: the interval [y_(r), y_(r+q)] needs r >= 1 and r + q <= M, so
+    # M >= q + 1; at M = 10, p = 0.96, q = int(9.6 + ½) = 10 = M and y_(r+q) does not exist.
+    # The request is refused with the field named, not answered by an IndexError.
+    with pytest.raises(BudgetInputError, match=r"'sorted_y' field.*values"):
+        coverage_intervals(np.arange(float(m)), p)
+
+
+def test_coverage_interval_at_q_equal_m_minus_one():
+    # JCGM 101 7.7.2: M = 10, p = 0.9: q = 9, M − q = 1 odd → r = int(2/2) = 1: [y_(1), y_(10)].
+    sym, short = coverage_intervals(np.arange(1.0, 11.0), 0.9)
+    assert sym == (1.0, 10.0) and short == (1.0, 10.0)
+
+
+def test_correlation_of_an_output_without_spread_is_zero():
+    # [derived] an output that does not vary has zero covariance with every other output; its
+    # correlation is reported as 0 (1 with itself), not 0/0 = NaN, as the run's gain–intercept
+    # correlation already does.
+    res = monte_carlo(lambda a, b: {"s": a + b, "c": 0.0 * a + 3.0, "d": a - b},
+                      {"a": Normal(0.0, 1.0), "b": Normal(0.0, 2.0)}, trials=5000, rng=_rng(8))
+    r = res.correlation
+    assert np.all(np.isfinite(r))
+    assert r[1, 1] == 1.0 and r[0, 1] == r[1, 0] == r[1, 2] == 0.0
+    # the others as usual: r(a + b, a − b) = (1 − 4)/5 = −0.6, sampling se ≈ (1 − r²)/√M ≈ 0.009
+    assert r[0, 2] == pytest.approx(-0.6, abs=0.05)
