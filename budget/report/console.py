@@ -39,7 +39,7 @@ def budget_table(ob: OutputBudget) -> Table:
     t.add_column("distribution", max_width=22)
     for col in ("u(x)", "sensitivity", f"contribution [{ob.unit}]", "share", "ν", f"MC alone [{ob.unit}]"):
         t.add_column(col, justify="right", no_wrap=True, min_width=max(3, min(len(col), 12)))
-    t.add_column("source", justify="left", overflow="ellipsis", no_wrap=True, max_width=36)
+    t.add_column("source", justify="left", overflow="fold", min_width=24)  # wrapped, never cut short
     for c in sorted(ob.components, key=lambda c: -max(c.contribution, c.mc_u or 0.0)):
         u_txt = f"{fmt(c.u_input)} {c.unit}".strip() if c.u_input is not None else "various"
         t.add_row(c.name, c.evaluation, c.distribution, u_txt, fmt(c.sensitivity), fmt(c.contribution),
@@ -65,7 +65,8 @@ def _summary_lines(ob: OutputBudget) -> list[str]:
 def render_run(result: RunResult, width: int = 170) -> str:
     """The whole console report as text."""
     buf = io.StringIO()
-    con = Console(file=buf, width=width, force_terminal=False, color_system=None, highlight=False)
+    # markup off: square brackets in a title or a source note are the user's text, not style tags
+    con = Console(file=buf, width=width, force_terminal=False, color_system=None, highlight=False, markup=False)
     con.print(f"thetabudget {result.tool_version} — {result.title}")
     con.print(f"input {result.input_path} (sha256 {result.input_sha256[:16]}…), seed {result.seed}, "
               f"p = {result.p:g}")
