@@ -49,10 +49,16 @@ def _fixed_model(model, inputs: dict[str, InputQuantity], keep: tuple[str, ...])
 
 def component_mc_u(model, inputs: dict[str, InputQuantity], corr: dict, members: tuple[str, ...],
                    *, rng: np.random.Generator, p: float) -> dict[str, float]:
-    """Monte Carlo standard uncertainty of every output when only ``members`` vary."""
+    """Monte Carlo standard uncertainty of every output when only ``members`` vary.
+
+    Notes
+    -----
+    GROUP_TRIALS trials, or the least M >= 100/(1 − p) of JCGM 101 7.9.4 if that is more.
+    """
     sub = {k: inputs[k] for k in members}
     sub_corr = {pair: r for pair, r in corr.items() if pair[0] in sub and pair[1] in sub} or None
-    res = monte_carlo(_fixed_model(model, inputs, members), sub, p, GROUP_TRIALS, rng=rng,
+    trials = max(GROUP_TRIALS, math.ceil(100.0 / (1.0 - p) - 1e-9))
+    res = monte_carlo(_fixed_model(model, inputs, members), sub, p, trials, rng=rng,
                       correlation=sub_corr)
     return {name: res[name].u for name in res.names}
 

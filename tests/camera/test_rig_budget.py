@@ -257,3 +257,16 @@ def test_evaluation_run_has_finite_dof(evaluation):
         noise = next(c for c in ob.components if c.name == comp.NOISE)
         assert noise.evaluation == "A"
         assert math.isfinite(ob.monte_carlo.u) and ob.monte_carlo.u > 0
+
+
+def test_component_monte_carlo_works_at_high_coverage_probability():
+    """JCGM 101 7.9.4 asks for M >= 100/(1 − p) trials: 100 000 at p = 0.999, more than the
+    20 000 of each one-component Monte Carlo, which must then run longer rather than refuse
+    a 'trials' field the user never gave. With only 'a' varying, u(a + b) = u(a) = 1;
+    the sample sd of M normal values has relative se 1/√(2M) ≈ 0.2 %, so 1 % is 4.5 se."""
+    from budget.camera.analysis import component_mc_u
+    from budget.propagation import InputQuantity, Normal
+
+    inputs = {"a": InputQuantity(Normal(0.0, 1.0)), "b": InputQuantity(Normal(0.0, 5.0))}
+    u = component_mc_u(lambda a, b: {"P1": a + b}, inputs, {}, ("a",), rng=np.random.default_rng(2), p=0.999)
+    assert u["P1"] == pytest.approx(1.0, rel=0.01)
