@@ -184,3 +184,30 @@ def test_series_resistor_for_one_milliamp_full_scale():
     line = next(s for s in (TEMPLATES / "gain_sweep.toml").read_text(encoding="utf-8").splitlines()
                 if s.startswith("load_resistance_ohm"))
     assert "9.95 kΩ + 50 Ω" in line and "1 mA" in line
+
+
+def test_chi2_of_a_measured_sweep_uses_each_point_own_errors_only():
+    """ISO/TS 28037 clause 6: χ² = Σ((θ_j − a − bV_j)/u_j)² with u_j the uncertainty of what
+    scatters point j about the line. [derived] With a mark pivot on the optical axis and no
+    tilt, a perpendicular error δp at a reading moves its angle by δp/R (rad), so the reading's
+    own locator noise and distortion residual give u = √(σ_n² + σ_r²)/R; its own source step,
+    INL and noise give K·u(V). The zero image's errors move every angle alike (they enter the
+    intercept, not the scatter), as do the source's gain and offset: none of them belongs in u_j.
+    Tolerance 1e-6: the linear method's finite differences, nothing else."""
+    from budget.camera.analysis import run_budget
+    from budget.fit import straight_line
+
+    rig = make_rig({"lens": {"distortion": "corrected", "residual_rms_px": 0.04},
+                    "source": {"noise_uv": None}})
+    lm = comp.locator_model(rig)
+    sigma_r = 0.04 / math.sqrt(2.0)
+    u_px = math.sqrt(lm.noise_px_per_frame**2 + sigma_r**2)
+    u_own_angle = math.degrees(u_px / rig.radius_px)
+    lsb = rig.source.lsb_v
+    u_v = math.sqrt(lsb**2 / 12 + (2.0 * lsb) ** 2 / 3)  # LSB step ±q/2 and INL ±2 LSB, rectangular
+    u_j = math.sqrt(u_own_angle**2 + (10.0 * u_v) ** 2)
+    x = np.array(rig.sweep.set_points_v)
+    measured = tuple(10.0 * x + 0.004 * np.sin(3.0 * x))
+    expected = straight_line(x, np.array(measured), u_y=np.full(x.size, u_j)).chi2
+    res = run_budget(rig, rng=np.random.default_rng(4), trials=2000, measured_deg=measured)
+    assert res.gain_summary.chi2 == pytest.approx(expected, rel=1e-6)

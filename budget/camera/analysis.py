@@ -228,9 +228,6 @@ def run_budget(
     )
 
 
-PER_POINT = (comp.QUANT, comp.LOCK, comp.NOISE, comp.DIST)
-
-
 class TrueValueModel:
     """Evaluation mode: the measurand is the true value behind a measured (located) value.
 
@@ -262,15 +259,18 @@ def _chi2(rig: RigDescription, angles: list[OutputBudget], measured: tuple[float
 
     Notes
     -----
-    Weighted least squares with u(θ_j) from the per-point components only (locator
-    and distortion residual): shared effects (pivot, tilt, source gain) move every
-    point together and do not scatter them about the line (ISO/TS 28037 clause 6).
+    Weighted least squares with u(θ_j) from the inputs of reading j alone (its locator
+    errors and distortion residual, its set point's step, INL and noise, its timing
+    jitter: the inputs named ``…_Pj``). Shared effects (the zero image's locator
+    errors, pivot, tilt, source gain and offset) move every point together and do not
+    scatter them about the line (ISO/TS 28037 clause 6).
     """
     if measured is None:
         return None
     from budget.fit import straight_line
 
-    u = [math.sqrt(sum(c.contribution**2 for c in ob.components if c.name in PER_POINT)) for ob in angles]
+    u = [math.sqrt(sum(r.contribution**2 for r in ob.linear.rows if r.name.endswith(f"_{ob.name}")))
+         for ob in angles]
     if min(u) <= 0:
         return None
     return float(straight_line(np.array(rig.sweep.set_points_v), np.array(measured), u_y=np.array(u)).chi2)
