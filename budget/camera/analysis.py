@@ -225,6 +225,7 @@ def run_budget(
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
         locator_notes=comp.locator_model(rig).notes, joint=mc.joint,
+        mode="design" if measured_deg is None else "evaluation",
     )
 
 

@@ -46,23 +46,31 @@ def predict(rig: RigDescription, result: RunResult, *, angle_deg: float | None =
     b = result.joint["intercept"]
     k_lin = result.gain.linear
     b_lin = result.gain_summary.intercept.linear
+    k_est, b_est = k_lin.estimate, b_lin.estimate
+    if result.mode == "design":
+        # The budget's samples are what the rig would read for the nominal line; what is known of
+        # the true line after a calibration that reads nominal is their reflection, 2n − v
+        # (the evaluation-mode relation true = measured − (located − nominal) with measured = nominal).
+        k_nom = rig.sweep.nominal_gain_deg_per_v
+        k, b = 2 * k_nom - k, -b
+        k_est, b_est = 2 * k_nom - k_est, -b_est
     rho = result.gain_summary.correlation_linear
     u_v = per_point_source_u_v(rig)
     v_lo, v_hi = min(rig.sweep.set_points_v), max(rig.sweep.set_points_v)
     warns = []
     if volts is not None:
         samples = k * volts + b
-        est_lin = k_lin.estimate * volts + b_lin.estimate
+        est_lin = k_est * volts + b_est
         u_lin2 = (volts * k_lin.u) ** 2 + b_lin.u**2 + 2 * volts * rho * k_lin.u * b_lin.u
-        extra = abs(k_lin.estimate) * u_v
+        extra = abs(k_est) * u_v
         unit, x_out = "°", volts
         outside = max(v_lo - volts, volts - v_hi, 0.0)
         what = f"θ({volts:g} V)"
     else:
         samples = (angle_deg - b) / k
-        est_lin = (angle_deg - b_lin.estimate) / k_lin.estimate
-        g = k_lin.estimate
-        d_k = -(angle_deg - b_lin.estimate) / g**2
+        est_lin = (angle_deg - b_est) / k_est
+        g = k_est
+        d_k = -(angle_deg - b_est) / g**2
         d_b = -1.0 / g
         u_lin2 = (d_k * k_lin.u) ** 2 + (d_b * b_lin.u) ** 2 + 2 * d_k * d_b * rho * k_lin.u * b_lin.u
         extra = u_v
