@@ -52,10 +52,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "camera": {
         "pixels_x": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
         "pixels_y": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
-        "pitch_um": _num("a number in (0, 100]", lambda v: 0 < v <= 100, True),
+        "pitch_um": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100, True),
         "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
-        "read_noise_e": _nonneg(),
-        "full_well_e": _pos(),
+        "read_noise_e": _num("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),
+        "full_well_e": _num("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
         "shutter": _choice("global", "rolling"),
         "row_time_us": _nonneg(),
         "frame_rate_hz": _pos(),
@@ -63,17 +63,17 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "source": _SOURCE,
     },
     "lens": {
-        "focal_length_mm": _num("a number in (0, 2000]", lambda v: 0 < v <= 2000, True),
+        "focal_length_mm": _num("a number in [1, 2000]", lambda v: 1 <= v <= 2000, True),
         "f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "distortion": _choice("corrected", "uncorrected"),
-        "residual_rms_px": _pos(),
-        "residual_correlation_px": _nonneg(),
+        "residual_rms_px": _num("a number in (0, 100]", lambda v: 0 < v <= 100),
+        "residual_correlation_px": _num("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
         "distortion_edge_pct": _num("a number in [0, 20]", lambda v: 0 <= v <= 20),
         "wavelength_nm": _num("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
         "source": _SOURCE,
     },
     "geometry": {
-        "working_distance_mm": _pos(True),
+        "working_distance_mm": _num("a number in (0, 1e6]", lambda v: 0 < v <= 1e6, True),
         "pointer_radius_mm": _pos(True),
         "pivot_offset_x_mm": _num("a finite number", math.isfinite),
         "pivot_offset_y_mm": _num("a finite number", math.isfinite),
@@ -90,10 +90,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "target": {
         "shape": _choice("spot", "disk"),
-        "sigma_px": _num("a number in (0, 100]", lambda v: 0 < v <= 100),
-        "diameter_mm": _nonneg(),
-        "signal_e": _pos(),
-        "background_e": _nonneg(),
+        "sigma_px": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
+        "diameter_mm": _num("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
+        "signal_e": _num("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12),
+        "background_e": _num("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9),
         "source": _SOURCE,
     },
     "locator": {
@@ -250,6 +250,14 @@ def _cross_checks(rig: d.RigDescription) -> None:
     if g.working_distance_mm <= lens.focal_length_mm:
         raise field_error("working_distance_mm", f"a number > the focal length ({lens.focal_length_mm:g} mm)",
                           g.working_distance_mm, "[geometry]")
+    for key in ("target_height_mm", "target_height_u_mm"):  # the target sits between the dial and the lens
+        if getattr(g, key) >= g.working_distance_mm:
+            raise field_error(key, f"a number >= 0 and < working_distance_mm ({g.working_distance_mm:g} mm)",
+                              getattr(g, key), "[geometry]")
+    if rig.radius_px < 1:  # a pointer imaged shorter than a pixel has no measurable angle
+        least = g.pointer_radius_mm / rig.radius_px
+        raise field_error("pointer_radius_mm", f"a radius that is imaged at least 1 px long (here >= {least:.3g} mm)",
+                          g.pointer_radius_mm, "[geometry]")
     modes = [g.tilt_bound_deg is not None, g.tilt_deg is not None]
     if all(modes):
         raise BudgetInputError(

@@ -267,3 +267,46 @@ def test_set_points_within_the_source_range(polarity, points, ok):
     else:
         msg = error_of(doc)
         assert "'set_points_v'" in msg and polarity in msg
+
+
+@pytest.mark.parametrize(("section", "key", "value"), [
+    ("camera", "read_noise_e", 1e300),            # OverflowError traceback
+    ("camera", "full_well_e", 1e300),             # "The 'b2' field of com_variance ..."
+    ("camera", "full_well_e", 1e15),              # "The model returned nan ..."
+    ("lens", "residual_correlation_px", 1e300),   # OverflowError traceback
+    ("lens", "residual_rms_px", 1e15),            # "The model returned nan ..."
+    ("lens", "focal_length_mm", 1e-300),          # "The model returned nan ..."
+    ("geometry", "working_distance_mm", 1e15),    # "The model returned nan ..."
+    ("geometry", "target_height_mm", 1e15),       # "The model returned nan ..."
+    ("geometry", "target_height_u_mm", 1e300),    # "The model returned nan ..."
+    ("target", "sigma_px", 1e-300),               # ZeroDivisionError traceback
+    ("target", "signal_e", 1e-300),               # "The 'sd' field of Normal ..."
+    ("target", "signal_e", 1e300),                # NaN in the JSON: traceback
+    ("target", "background_e", 1e300),            # "The model returned nan ..."
+    ("geometry", "pointer_radius_mm", 1e-10),     # "The model returned nan ..."
+    ("camera", "pitch_um", 1e-300),               # OverflowError traceback (a disk target)
+    ("target", "diameter_mm", 1e300),             # OverflowError traceback
+])
+def test_absurd_magnitudes_are_refused_naming_the_field(section, key, value):
+    """Values far outside any camera, lens or rig (the gauge template with one field changed) used to
+    pass validation and then fail inside the engine with a traceback or a message naming an internal
+    quantity. They are input errors naming the user's field and its range [the README: one line
+    naming the field and the allowed range]."""
+    doc = load_rig(TEMPLATES / TEMPLATE_NAMES["gauge"]).raw
+    if key in ("pitch_um", "diameter_mm"):
+        doc = merge_doc(doc, {"target": {"shape": "disk", "diameter_mm": 2.0, "sigma_px": None}})
+    msg = error_of(merge_doc(doc, {section: {key: value}}))
+    assert f"'{key}'" in msg and f"[{section}]" in msg
+
+
+def test_the_new_limits_keep_every_plausible_rig():
+    """Edges of the limits that still pass: the engine gives finite results there [derived: probed with
+    the gauge template, 2000 trials]."""
+    doc = load_rig(TEMPLATES / TEMPLATE_NAMES["gauge"]).raw
+    for section, key, value in [("camera", "read_noise_e", 1e4), ("camera", "full_well_e", 1e8),
+                                ("lens", "residual_correlation_px", 1e6), ("lens", "residual_rms_px", 100.0),
+                                ("lens", "focal_length_mm", 1.0), ("geometry", "working_distance_mm", 1e5),
+                                ("geometry", "target_height_mm", 400.0), ("geometry", "target_height_u_mm", 100.0),
+                                ("target", "sigma_px", 0.01), ("target", "signal_e", 1.0),
+                                ("target", "signal_e", 1e12), ("target", "background_e", 1e9)]:
+        parse_rig(merge_doc(doc, {section: {key: value}}))
