@@ -10,6 +10,7 @@ list is a CSV file (columns :data:`CAMERA_COLUMNS`); lenses are a list of tables
 from __future__ import annotations
 
 import csv
+import io
 import math
 from dataclasses import dataclass
 from pathlib import Path
@@ -239,8 +240,8 @@ _CSV_CHECKS = {
     "pixels_y": ("an integer in [16, 100000]", lambda v: v == int(v) and 16 <= v <= 100_000),
     "pitch_um": ("a number in (0, 100]", lambda v: 0 < v <= 100),
     "bit_depth": ("an integer in [1, 32]", lambda v: v == int(v) and 1 <= v <= 32),
-    "read_noise_e": ("a number >= 0", lambda v: v >= 0),
-    "full_well_e": ("a number > 0", lambda v: v > 0),
+    "read_noise_e": ("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),  # the rig file's limits
+    "full_well_e": ("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
     "max_frame_rate_hz": ("a number > 0", lambda v: v > 0),
     "price": ("a number >= 0", lambda v: v >= 0),
 }
@@ -265,11 +266,14 @@ def read_cameras_csv(path: str | Path) -> CameraTable:
     """
     p = Path(path)
     try:
-        fh = open(p, newline="", encoding="utf-8")
+        text = p.read_bytes().decode("utf-8-sig")  # spreadsheets save "CSV UTF-8" with a byte-order mark
     except OSError as exc:
         raise BudgetInputError(f"The cameras file '{p}' cannot be read: {exc.strerror}.") from None
+    except UnicodeDecodeError as exc:
+        raise BudgetInputError(f"The cameras file '{p}' is not UTF-8 text (byte {exc.start}); "
+                               "save it as UTF-8.") from None
     cols: dict[str, list] = {c: [] for c in CAMERA_COLUMNS}
-    with fh:
+    with io.StringIO(text, newline="") as fh:
         reader = csv.DictReader(line for line in fh if not line.lstrip().startswith("#"))
         header = reader.fieldnames or []
         missing = [c for c in CAMERA_COLUMNS if c not in header]

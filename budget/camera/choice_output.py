@@ -82,7 +82,8 @@ def render_choice(ch: Choice, top: int = 25, width: int = 170) -> str:
                  f"{row['U_angle_deg']:.3g}"] + ([f"{row['U_gain_pct']:.3g}"] if gain else []) + \
             ["yes" if row["meets"] else "no", row["limiting"]]
         table.add_row(*cells)
-    con = Console(width=width, record=True, file=open(os.devnull, "w"))  # noqa: SIM115
+    # markup off: square brackets in a title or a camera name are the user's text, not style tags
+    con = Console(width=width, record=True, file=open(os.devnull, "w"), markup=False)  # noqa: SIM115
     con.print(table)
     lines = [con.export_text()]
     goal = ", ".join(f"{k} = {v:g}" for k, v in spec.goal.items() if k in ("angle_U_deg", "gain_U_pct", "p"))

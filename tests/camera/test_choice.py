@@ -199,3 +199,57 @@ def test_thousands_of_candidates_in_one_call(spec):
     cand = _model_candidates(spec, rng.uniform(300, 5000, n))
     p = predict(spec, cand)
     assert p.U_angle_deg.shape == (n,) and np.all(np.isfinite(p.U_angle_deg))
+
+
+_HEADER = "name,pixels_x,pixels_y,pitch_um,bit_depth,read_noise_e,full_well_e,max_frame_rate_hz,shutter,price\n"
+
+
+@pytest.mark.parametrize(("column", "row"), [
+    ("read_noise_e", "demo-cam-a,1000,800,3.45,12,1e300,10000,30,global,100"),  # TypeError traceback in the table
+    ("full_well_e", "demo-cam-a,1000,800,3.45,12,2,1e300,30,global,100"),       # TypeError traceback in the table
+])
+def test_absurd_camera_cells_are_refused(tmp_path, column, row):
+    """Cells far outside any sensor passed the check and crashed the ranking's table; the limits are the
+    rig file's [the README: bad input is one line naming the field and the allowed range]."""
+    bad = tmp_path / "cams.csv"
+    bad.write_text(_HEADER + row + "\n", encoding="utf-8")
+    doc = _doc()
+    doc["candidates"]["cameras_csv"] = str(bad)
+    with pytest.raises(BudgetInputError, match=rf"Row 2 of .*'{column}' cell must be"):
+        parse_choose(doc)
+
+
+def test_camera_csv_that_is_not_utf8_is_one_line(tmp_path):
+    """A cameras file saved in a legacy code page raised UnicodeDecodeError (a traceback)."""
+    bad = tmp_path / "cams.csv"
+    bad.write_bytes((_HEADER + "demo-cam-µ,1000,800,3.45,12,2,10000,30,global,100\n").encode("latin-1"))
+    doc = _doc()
+    doc["candidates"]["cameras_csv"] = str(bad)
+    with pytest.raises(BudgetInputError, match="UTF-8") as exc:
+        parse_choose(doc)
+    assert "\n" not in str(exc.value) and "cams.csv" in str(exc.value)
+
+
+def test_square_brackets_in_a_camera_name_are_printed_as_written(tmp_path):
+    """A camera named with '[/]' crashed the text table (a markup error) [common practice: user text
+    is printed verbatim]."""
+    from budget.camera.choice_output import render_choice
+
+    cams = tmp_path / "cams.csv"
+    cams.write_text(_HEADER + "demo [/] cam [bold]b[/bold],2448,2048,3.45,12,2.4,10500,75,global,100\n",
+                    encoding="utf-8")
+    doc = _doc()
+    doc["candidates"]["cameras_csv"] = str(cams)
+    doc["title"] = "choice [/] (invented)"
+    text = render_choice(choose(parse_choose(doc)), width=400)
+    assert "choice [/] (invented)" in text and "demo [/] cam [bold]b[/bold]" in text
+
+
+def test_camera_csv_with_a_byte_order_mark_is_read(tmp_path):
+    """Spreadsheets save "CSV UTF-8" with a byte-order mark; the first column was then reported
+    missing ('lacks name') [common practice: UTF-8 readers accept the BOM, Python's 'utf-8-sig']."""
+    cams = tmp_path / "cams.csv"
+    cams.write_text(_HEADER + "demo-cam-a,2448,2048,3.45,12,2.4,10500,75,global,100\n", encoding="utf-8-sig")
+    doc = _doc()
+    doc["candidates"]["cameras_csv"] = str(cams)
+    assert parse_choose(doc).cameras.name == ("demo-cam-a",)
