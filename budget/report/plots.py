@@ -45,8 +45,16 @@ def _figure():
     return fig
 
 
-def _save(fig, path: Path) -> None:
-    fig.savefig(path, format="png", metadata={"Software": "thetabudget (matplotlib)"})
+def provenance(result: RunResult) -> str:
+    """The run a figure belongs to: input file, its SHA-256 and the seed (stored in each PNG)."""
+    return f"{result.input_path} (SHA-256 {result.input_sha256}), seed {result.seed}, thetabudget {result.tool_version}"
+
+
+def _save(fig, path: Path, stamp: str = "") -> None:
+    meta = {"Software": "thetabudget (matplotlib)"}
+    if stamp:
+        meta["Source"] = stamp  # a PNG text chunk: the figure can be traced to its run
+    fig.savefig(path, format="png", metadata=meta)
 
 
 def _safe_name(name: str) -> str:
@@ -75,7 +83,7 @@ def _rounded(estimate: float, u: float) -> str:
     return y.lstrip("-") if float(y) == 0 else y
 
 
-def mc_histogram(ob: OutputBudget, path: Path) -> None:
+def mc_histogram(ob: OutputBudget, path: Path, stamp: str = "") -> None:
     """Monte Carlo histogram with the linear method's distribution and the intervals."""
     mc, lin = ob.monte_carlo, ob.linear
     h = histogram(mc, extra=(lin.estimate - lin.U, lin.estimate + lin.U))
@@ -104,10 +112,10 @@ def mc_histogram(ob: OutputBudget, path: Path) -> None:
         "linear method NOT validated (JCGM 101 clause 8)"
     ax.text(0.01, 0.98, verdict, transform=ax.transAxes, va="top", fontsize=8)
     fig.legend(fontsize=7, loc="outside lower center", ncol=3, frameon=False)
-    _save(fig, path)
+    _save(fig, path, stamp)
 
 
-def pareto(ob: OutputBudget, path: Path) -> None:
+def pareto(ob: OutputBudget, path: Path, stamp: str = "") -> None:
     """Contributions in Pareto order, cumulative share of u_c², and Monte Carlo u of each alone."""
     comps = sorted(ob.components, key=lambda c: -c.percent)
     names = ["\n".join(textwrap.wrap(c.name, 14)) or "?" for c in comps]
@@ -128,7 +136,7 @@ def pareto(ob: OutputBudget, path: Path) -> None:
     handles = ax.get_legend_handles_labels()
     h2 = ax2.get_legend_handles_labels()
     ax.legend(handles[0] + h2[0], handles[1] + h2[1], fontsize=7, loc="center right")
-    _save(fig, path)
+    _save(fig, path, stamp)
 
 
 def sweep_residuals(result: RunResult, path: Path) -> None:
@@ -153,7 +161,7 @@ def sweep_residuals(result: RunResult, path: Path) -> None:
                  "each bar is the angle's whole u, shared errors (tilt, pivot, source gain) included",
                  fontsize=10)
     ax.legend(fontsize=8)
-    _save(fig, path)
+    _save(fig, path, provenance(result))
 
 
 def expanded_uncertainty(result: RunResult, path: Path) -> None:
@@ -170,7 +178,7 @@ def expanded_uncertainty(result: RunResult, path: Path) -> None:
     ax.set_ylim(0, ax.get_ylim()[1] * 1.1)
     ax.set_title(f"Expanded uncertainty across the range, p = {100 * result.p:g} %", fontsize=10)
     ax.legend(fontsize=8)
-    _save(fig, path)
+    _save(fig, path, provenance(result))
 
 
 def plot_names(outputs: Sequence[str], *, sweep: bool, n_angles: int) -> list[str]:
@@ -189,8 +197,9 @@ def plot_names(outputs: Sequence[str], *, sweep: bool, n_angles: int) -> list[st
 def plot_plan(result: RunResult) -> list[tuple[str, Callable[[Path], None]]]:
     """File names and the functions that draw them, in the order they are written."""
     draws: list[Callable[[Path], None]] = []
+    stamp = provenance(result)
     for ob in result.outputs:
-        draws += [lambda p, ob=ob: mc_histogram(ob, p), lambda p, ob=ob: pareto(ob, p)]
+        draws += [lambda p, ob=ob: mc_histogram(ob, p, stamp), lambda p, ob=ob: pareto(ob, p, stamp)]
     sweep = result.gain_summary is not None and result.gain is not None \
         and len(result.gain_summary.set_points_v) == len(result.angles)
     if sweep:
