@@ -110,8 +110,9 @@ def cmd_frames(args: argparse.Namespace) -> int:
 
     roi = parse_roi(args.roi)
     pos = args.position
-    if not pos or any(c in pos for c in ',"\r\n'):
-        raise field_error("--position", "a non-empty label without commas, quotes or line breaks", pos)
+    if not pos or any(c in pos for c in ',"\r\n') or pos.startswith(("=", "+", "-", "@", "\t")):
+        raise field_error("--position", "a non-empty label without commas, quotes or line breaks, not starting "
+                          "with =, +, -, @ or a tab (a spreadsheet would run it as a formula)", pos)
     _refuse_existing(args.out, args.force, "--out")
     for p in args.paths:
         if not Path(p).is_file():

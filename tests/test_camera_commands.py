@@ -125,3 +125,15 @@ def test_frames_errors_exit_2_and_write_nothing(tmp_path, capsys):
     out.write_text("keep\n", encoding="utf-8")
     assert main(["frames", *paths, "--roi", "10,5,20,20", "--out", str(out)]) == 2
     assert out.read_text(encoding="utf-8") == "keep\n"
+
+
+@pytest.mark.parametrize("label", ["=cmd|' /C calc'!A0", "+1", "-1", "@SUM(1)"])
+def test_frames_refuses_a_formula_like_position(tmp_path, capsys, label):
+    """The --position label went verbatim into the first cell of every CSV row, where a spreadsheet
+    runs it as a formula (CWE-1236; OWASP CSV injection): refused, exit 2, nothing written."""
+    paths, _ = _frames(tmp_path, "png", n=3)
+    out = tmp_path / "pos.csv"
+    assert main(["frames", *paths, "--roi", "10,5,20,20", "--position", label, "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "--position" in err and len(err.strip().splitlines()) == 1
+    assert not out.exists()

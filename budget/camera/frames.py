@@ -301,10 +301,10 @@ def write_frames_csv(result: FramesResult, path: str | os.PathLike, *, position_
     """
     where = "write_frames_csv"
     p = Path(path)
-    if not isinstance(position_id, str) or not position_id or any(c in position_id
-                                                                    for c in ',"\r\n'):
-        raise field_error("position_id", "a non-empty label without commas, quotes or line "
-                          "breaks", position_id, where)
+    if not isinstance(position_id, str) or not position_id or any(c in position_id for c in ',"\r\n') \
+            or position_id.startswith(("=", "+", "-", "@", "\t")):  # CWE-1236: a spreadsheet runs these
+        raise field_error("position_id", "a non-empty label without commas, quotes or line breaks, not "
+                          "starting with =, +, -, @ or a tab", position_id, where)
     if p.exists() and not overwrite:
         raise field_error("path", "a file that does not exist yet (pass --force to overwrite "
                           "it)", str(p), where)
