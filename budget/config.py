@@ -327,7 +327,7 @@ def read_toml(path: str | Path, what: str = "input file") -> dict:
     """Read a TOML file; a missing, unreadable or malformed file is one BudgetInputError line."""
     p = Path(path)
     try:
-        text = p.read_bytes().decode("utf-8")
+        text = p.read_bytes().decode("utf-8-sig")  # a byte-order mark (as some editors save) is not text
     except FileNotFoundError:
         raise BudgetInputError(f"The {what} '{p}' does not exist.") from None
     except (OSError, UnicodeDecodeError) as exc:

@@ -310,3 +310,12 @@ def test_the_new_limits_keep_every_plausible_rig():
                                 ("target", "sigma_px", 0.01), ("target", "signal_e", 1.0),
                                 ("target", "signal_e", 1e12), ("target", "background_e", 1e9)]:
         parse_rig(merge_doc(doc, {section: {key: value}}))
+
+
+def test_a_byte_order_mark_is_not_part_of_the_toml(tmp_path):
+    """Some editors save UTF-8 with a byte-order mark; TOML (1.0, 'a TOML file must be a valid
+    UTF-8 encoded Unicode document') is read from the text after it."""
+    src = Path(__file__).resolve().parent.parent / "templates" / "gauge_static.toml"
+    path = tmp_path / "bom.toml"
+    path.write_bytes(b"\xef\xbb\xbf" + src.read_bytes())
+    assert load_rig(path).title == load_rig(src).title

@@ -121,3 +121,14 @@ def test_cli_predict_needs_a_sweep(capsys):
     lines = err.strip().splitlines()
     assert len(lines) == 1 and "[sweep]" in lines[0] and "[positions]" in lines[0]
     assert out == ""
+
+
+@pytest.mark.parametrize("query", [{"angle_deg": 1e308}, {"angle_deg": float("nan")}, {"volts": float("inf")},
+                                   {"volts": 1.0, "angle_deg": 10.0}, {}])
+def test_library_predict_refuses_bad_queries(sweep_run, query):
+    """One clear error, never an overflow or a NaN answer."""
+    from budget.errors import BudgetInputError
+
+    rig, res = sweep_run
+    with pytest.raises(BudgetInputError):
+        predict(rig, res, **query)

@@ -7,6 +7,7 @@ import math
 import numpy as np
 
 from budget.camera.description import RigDescription
+from budget.errors import BudgetInputError, field_error
 from budget.propagation import coverage_factor, coverage_intervals, round_pair
 from budget.results import RunResult
 
@@ -39,9 +40,13 @@ def predict(rig: RigDescription, result: RunResult, *, angle_deg: float | None =
     A value outside the calibrated span is answered with an extrapolation warning.
     """
     if rig.sweep is None or result.gain is None or result.gain_summary is None:
-        from budget.errors import BudgetInputError
-
         raise BudgetInputError("predict needs a [sweep] rig file; this file has [positions].")
+    if (angle_deg is None) == (volts is None):
+        raise BudgetInputError("predict takes exactly one of angle_deg and volts.")
+    if angle_deg is not None and not (math.isfinite(angle_deg) and -360.0 < angle_deg < 360.0):
+        raise field_error("angle_deg", "a number in (-360, 360)", angle_deg, "predict")
+    if volts is not None and not math.isfinite(volts):
+        raise field_error("volts", "a finite number", volts, "predict")
     k = result.joint["gain"]
     b = result.joint["intercept"]
     k_lin = result.gain.linear

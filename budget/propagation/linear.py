@@ -192,24 +192,27 @@ def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
 
 
 def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
-                        h2: np.ndarray, u: np.ndarray, c: np.ndarray) -> float:
-    """The double sum of JCGM 100 eq. (14) from central differences.
+                        cu: np.ndarray) -> float:
+    """The double sum of JCGM 100 eq. (14) from central differences with steps h = STEP2·u.
 
     ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
-    ``pairs`` f at x0 ± h_i ± h_j, shape (P, 2, 2) indexed [sign of i, sign of j].
+    ``pairs`` f at x0 ± h_i ± h_j, shape (P, 2, 2) indexed [sign of i, sign of j]; ``cu``
+    the first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
+    matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/STEP2²), so no power of a tiny or huge
+    u is ever formed on its own and nothing under- or overflows.
     """
+    r = STEP2
     fm2, fm1, fp1, fp2 = diag.T
-    d2 = (fp1 - 2.0 * f0 + fm1) / h2**2
-    d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * h2**3)
-    total = float(np.sum((0.5 * d2**2 + c * d3) * u**4))
+    d2 = (fp1 - 2.0 * f0 + fm1) / r**2  # ∂²f/∂x_i² · u_i²
+    d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * r**3)  # ∂³f/∂x_i³ · u_i³
+    total = float(np.sum(0.5 * d2**2 + cu * d3))
     if ii.size:
         g = pairs
-        hi, hj = h2[ii], h2[jj]
-        dij = (g[:, 1, 1] - g[:, 1, 0] - g[:, 0, 1] + g[:, 0, 0]) / (4.0 * hi * hj)
-        # ∂³f/∂x_i∂x_j²: second difference in j at x_i ± h_i (its middle point from the axis stencil)
+        dij = (g[:, 1, 1] - g[:, 1, 0] - g[:, 0, 1] + g[:, 0, 0]) / (4.0 * r**2)  # · u_i u_j
+        # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis stencil)
         dijj = ((g[:, 1, 1] - 2.0 * fp1[ii] + g[:, 1, 0]) - (g[:, 0, 1] - 2.0 * fm1[ii] + g[:, 0, 0])) \
-            / (2.0 * hi * hj**2)
-        total += float(np.sum((0.5 * dij**2 + c[ii] * dijj) * u[ii] ** 2 * u[jj] ** 2))
+            / (2.0 * r**3)
+        total += float(np.sum(0.5 * dij**2 + cu[ii] * dijj))
     return total
 
 
@@ -287,7 +290,7 @@ def linear(
     dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
     h = STEP * u
     n_in = len(names)
-    h2 = h * (STEP2 / STEP)
+    h2 = STEP2 * u
     blocks = [x0[None, :], _axis_points(x0, h)] + ([_axis_points(x0, h2)] if second_order else [])
     pts = np.vstack(blocks)
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
@@ -313,7 +316,7 @@ def linear(
         u2_2 = 0.0
         if second_order:
             diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
-            u2_2 = _second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, h2, u, c)
+            u2_2 = _second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu)
         u_c2 = u1_2 + u2_2
         if u_c2 < 0:
             u_c2 = 0.0

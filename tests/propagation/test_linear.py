@@ -387,3 +387,14 @@ def test_correlation_of_an_output_with_zero_u_is_zero():
     assert np.all(np.isfinite(r))
     assert r[1, 1] == 1.0 and r[0, 1] == r[1, 0] == r[1, 2] == 0.0
     assert r[0, 2] == pytest.approx(-0.6, rel=1e-9)
+
+
+@pytest.mark.parametrize("scale", [1e-200, 1e150])
+def test_second_order_terms_survive_tiny_and_huge_uncertainties(scale):
+    """[derived] JCGM 100 5.1.2 note, eq. (14) for y = x1·x2 with normal inputs:
+    u² = x2²u1² + x1²u2² + u1²u2². With u1 = scale the terms must neither under- nor overflow
+    (the stencil steps are proportional to u; relative 1e-6 covers the difference quotients)."""
+    x1, x2, u1, u2 = 3.0, 2.0, scale, 0.5
+    res = linear(lambda a, b: a * b, {"a": Normal(x1, u1), "b": Normal(x2, u2)}, second_order=True)
+    want = math.sqrt(x2**2 * u1**2 + x1**2 * u2**2 + u1**2 * u2**2)
+    assert math.isfinite(res.u) and res.u == pytest.approx(want, rel=1e-6)
