@@ -199,8 +199,10 @@ class RigDescription:
         if t.sigma_px is not None:
             s2 = t.sigma_px**2
         else:
-            n_w = self.lens.f_number * (1.0 + self.magnification)
-            s2 = (0.42 * self.lens.wavelength_nm * 1e-6 * n_w / pitch_mm) ** 2
+            from budget.camera.optics import psf_sigma_um, working_f_number
+
+            n_w = working_f_number(self.lens.f_number, self.magnification)
+            s2 = (float(psf_sigma_um(self.lens.wavelength_nm, n_w)) * 1e-3 / pitch_mm) ** 2
         if t.shape == "disk":
             d_px = t.diameter_mm * self.magnification / pitch_mm
             s2 += d_px**2 / 16.0

@@ -22,11 +22,8 @@ from budget.errors import field_error
 
 __all__ = [
     "RenderedTargets",
-    "airy_radius_um",
     "expected_electrons",
-    "gaussian_sigma_from_airy",
     "render_target",
-    "working_f_number",
 ]
 
 _KINDS = ("gaussian", "disk")
@@ -302,84 +299,3 @@ def render_target(
     adu = np.clip(np.rint(electrons / gain + black), 0.0, top)
     c, single = _centres(centre_xy, n, where)
     return RenderedTargets(images=adu, centres_xy=c[0] if single else c, gain_e_per_adu=gain)
-
-
-def working_f_number(f_number: float, magnification: float) -> float:
-    """Working f-number ``N_w = N (1 + m)``.
-
-    Parameters
-    ----------
-    f_number : float
-        Lens f-number N (> 0).
-    magnification : float
-        Magnitude of the image-to-object magnification m (>= 0).
-
-    Returns
-    -------
-    float
-        The working f-number.
-
-    Notes
-    -----
-    Paraxial thin-lens relation for a lens focused at finite distance, pupil
-    magnification 1 (common practice).
-    """
-    n_ = _positive(f_number, "f_number", "working_f_number")
-    m = _non_negative(magnification, "magnification", "working_f_number")
-    return n_ * (1.0 + m)
-
-
-def airy_radius_um(wavelength_um: float, f_number_working: float) -> float:
-    """Radius of the first dark ring of the Airy pattern, ``1.22 lambda N_w``.
-
-    Parameters
-    ----------
-    wavelength_um : float
-        Wavelength in micrometres (> 0).
-    f_number_working : float
-        Working f-number N_w (> 0).
-
-    Returns
-    -------
-    float
-        Airy radius in micrometres, in the image plane.
-
-    Notes
-    -----
-    First zero of ``(2 J1(v)/v)^2`` at v = 3.8317 with ``v = pi r / (lambda N_w)``
-    (paraxial diffraction of a circular pupil; Born & Wolf, Principles of
-    Optics, 8.5.2, value from memory; 3.8317/pi = 1.2197 [derived]).
-    """
-    lam = _positive(wavelength_um, "wavelength_um", "airy_radius_um")
-    nw = _positive(f_number_working, "f_number_working", "airy_radius_um")
-    return 1.22 * lam * nw
-
-
-def gaussian_sigma_from_airy(wavelength_um: float, f_number_working: float) -> float:
-    """Standard deviation of the Gaussian that approximates the Airy spot.
-
-    Parameters
-    ----------
-    wavelength_um : float
-        Wavelength in micrometres (> 0).
-    f_number_working : float
-        Working f-number N_w (> 0); see :func:`working_f_number`.
-
-    Returns
-    -------
-    float
-        sigma in micrometres in the image plane: ``0.21 lambda / NA`` with
-        ``NA = 1/(2 N_w)``, i.e. ``0.42 lambda N_w``.
-
-    Notes
-    -----
-    Zhang, Zerubia & Olivo-Marin 2007, Appl. Opt. 46:1819, paraxial 2-D
-    wide-field case: sigma = 0.21 lambda/NA. A least-squares fit of a Gaussian
-    with its peak held at the Airy peak gives 0.2103 lambda/NA; with the peak
-    free it gives 0.2059 lambda/NA (both checked in
-    ``tests/camera/test_imaging.py``).
-    """
-    lam = _positive(wavelength_um, "wavelength_um", "gaussian_sigma_from_airy")
-    nw = _positive(f_number_working, "f_number_working", "gaussian_sigma_from_airy")
-    na = 1.0 / (2.0 * nw)
-    return 0.21 * lam / na

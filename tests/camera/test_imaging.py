@@ -6,13 +6,8 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from budget.camera.imaging import (
-    airy_radius_um,
-    expected_electrons,
-    gaussian_sigma_from_airy,
-    render_target,
-    working_f_number,
-)
+from budget.camera.imaging import expected_electrons, render_target
+from budget.camera.optics import airy_radius_um, psf_sigma_um, working_f_number
 from budget.errors import BudgetInputError
 
 COMMON = dict(read_noise_e=0.0, full_well_e=65535.0, bit_depth=16, gain_e_per_adu=1.0)
@@ -125,7 +120,7 @@ def test_bad_inputs_raise(change):
 def test_optics_helpers():
     # NA = 1/(2 N_w): 0.21 lambda / NA = 0.42 lambda N_w (Zhang, Zerubia & Olivo-Marin 2007).
     assert working_f_number(8.0, 0.25) == pytest.approx(10.0)
-    assert gaussian_sigma_from_airy(0.55, 10.0) == pytest.approx(0.42 * 0.55 * 10.0)
-    assert airy_radius_um(0.55, 10.0) == pytest.approx(1.22 * 0.55 * 10.0)
+    assert psf_sigma_um(550.0, 10.0) == pytest.approx(0.42 * 0.55 * 10.0)
+    assert airy_radius_um(550.0, 10.0) == pytest.approx(1.22 * 0.55 * 10.0)
     with pytest.raises(BudgetInputError):
-        gaussian_sigma_from_airy(-0.55, 10.0)
+        psf_sigma_um(-550.0, 10.0)

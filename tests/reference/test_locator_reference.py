@@ -8,13 +8,9 @@ import pytest
 from scipy.optimize import least_squares
 from scipy.special import j1, jn_zeros
 
-from budget.camera.imaging import (
-    airy_radius_um,
-    expected_electrons,
-    gaussian_sigma_from_airy,
-    render_target,
-)
+from budget.camera.imaging import expected_electrons, render_target
 from budget.camera.locators import centre_of_mass, fit_gaussian_spots, integer_peak
+from budget.camera.optics import airy_radius_um, psf_sigma_um
 from budget.camera.spot_theory import (
     adc_variance_e2,
     com_variance,
@@ -89,12 +85,12 @@ def test_integer_peak_scatter_is_one_over_root_twelve():
         assert np.max(np.abs(err)) <= 0.5
 
 
-def test_gaussian_sigma_from_airy_zhang_2007():
+def test_psf_sigma_zhang_2007():
     # Source: Zhang, Zerubia & Olivo-Marin 2007, Appl. Opt. 46:1819, paraxial 2-D wide-field
     # PSF: sigma = 0.21 lambda/NA (two digits quoted, so +-0.005, i.e. 2.4 %).
     lam, n_w = 0.55, 8.0
     na = 1 / (2 * n_w)
-    assert gaussian_sigma_from_airy(lam, n_w) == pytest.approx(0.21 * lam / na, rel=1e-12)
+    assert psf_sigma_um(lam * 1e3, n_w) == pytest.approx(0.21 * lam / na, rel=1e-12)
     # Numerical check: least-squares fit of a Gaussian to the Airy intensity
     # (2 J1(v)/v)^2, v = 2 pi NA r / lambda (scipy.special.j1), area-weighted over the
     # plane to three Airy radii. Peak held at the Airy peak: 0.2103; peak free: 0.2059.
@@ -116,4 +112,4 @@ def test_gaussian_sigma_from_airy_zhang_2007():
     # Airy radius 1.22 lambda N_w: first zero of J1 is 3.8317 (scipy.special.jn_zeros), and
     # 3.8317/pi = 1.2197; 1.22 is the customary three-digit rounding (0.03 %).
     exact = jn_zeros(1, 1)[0] / np.pi * lam * n_w
-    assert airy_radius_um(lam, n_w) == pytest.approx(exact, rel=3e-4)
+    assert airy_radius_um(lam * 1e3, n_w) == pytest.approx(exact, rel=3e-4)
