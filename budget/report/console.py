@@ -13,14 +13,22 @@ from budget.results import OutputBudget, RunResult
 __all__ = ["render_run", "budget_table", "fmt", "fmt_dof"]
 
 
-def fmt(x: float | None, digits: int = 3) -> str:
-    """A number with ``digits`` significant digits, or an em dash for None."""
+def fmt(x: float | int | None, digits: int = 3) -> str:
+    """A number with ``digits`` significant digits; whole ints as they are; ∞ / -∞; NaN; — for None.
+
+    The one number formatter of the text reports (console and Markdown).
+    """
     if x is None:
         return "—"
+    if isinstance(x, int) and not isinstance(x, bool):
+        return str(x)
+    x = float(x)
+    if math.isnan(x):
+        return "NaN"
+    if math.isinf(x):
+        return "∞" if x > 0 else "-∞"
     if x == 0:
         return "0"
-    if not math.isfinite(x):
-        return "∞" if x > 0 else "-∞"
     return f"{x:.{digits}g}"
 
 

@@ -7,8 +7,6 @@ for infinite degrees of freedom (``null`` in the JSON) and — for "not applicab
 
 from __future__ import annotations
 
-import math
-
 from budget.report.console import fmt
 from budget.results import OutputBudget, RunResult
 
@@ -20,15 +18,8 @@ COMPONENT_HEADER = ("component", "Type", "distribution", "u(x_i)", "c_i", "contr
 
 
 def num(x: float | int | None) -> str:
-    """Six significant digits; ∞ for an infinite value, — for None."""
-    if x is None:
-        return "—"
-    if isinstance(x, int) and not isinstance(x, bool):
-        return str(x)
-    x = float(x)
-    if math.isinf(x):
-        return "∞" if x > 0 else "-∞"
-    return f"{x:.6g}"
+    """Six significant digits (the console's formatter at six digits); ∞ for an infinite value, — for None."""
+    return fmt(x, 6)
 
 
 def md_text(s: str) -> str:
