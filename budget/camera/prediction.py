@@ -8,6 +8,7 @@ import numpy as np
 
 from budget.camera.description import RigDescription
 from budget.errors import BudgetInputError, field_error
+from budget.fit import line_variance
 from budget.propagation import coverage_factor, coverage_intervals, round_pair
 from budget.results import RunResult
 
@@ -60,13 +61,14 @@ def predict(rig: RigDescription, result: RunResult, *, angle_deg: float | None =
         k, b = 2 * k_nom - k, -b
         k_est, b_est = 2 * k_nom - k_est, -b_est
     rho = result.gain_summary.correlation_linear
+    cov = np.array([[k_lin.u**2, rho * k_lin.u * b_lin.u], [rho * k_lin.u * b_lin.u, b_lin.u**2]])
     u_v = per_point_source_u_v(rig)
     v_lo, v_hi = min(rig.sweep.set_points_v), max(rig.sweep.set_points_v)
     warns = []
     if volts is not None:
         samples = k * volts + b
         est_lin = k_est * volts + b_est
-        u_lin2 = (volts * k_lin.u) ** 2 + b_lin.u**2 + 2 * volts * rho * k_lin.u * b_lin.u
+        u_lin2 = float(line_variance(cov, volts))
         extra = abs(k_est) * u_v
         unit, x_out = "°", volts
         outside = max(v_lo - volts, volts - v_hi, 0.0)
@@ -74,10 +76,7 @@ def predict(rig: RigDescription, result: RunResult, *, angle_deg: float | None =
     else:
         samples = (angle_deg - b) / k
         est_lin = (angle_deg - b_est) / k_est
-        g = k_est
-        d_k = -(angle_deg - b_est) / g**2
-        d_b = -1.0 / g
-        u_lin2 = (d_k * k_lin.u) ** 2 + (d_b * b_lin.u) ** 2 + 2 * d_k * d_b * rho * k_lin.u * b_lin.u
+        u_lin2 = float(line_variance(cov, est_lin)) / k_est**2  # as StraightLine.inverse
         extra = u_v
         unit, x_out = "V", angle_deg
         outside = max(v_lo - est_lin, est_lin - v_hi, 0.0)

@@ -9,11 +9,12 @@ Parameter order in every covariance is (slope, intercept).
 
 from budget.fit.batch import ols_batch, ols_batch_residuals
 from budget.fit.estimators import FitConvergenceError, straight_line
-from budget.fit.line import StraightLine
+from budget.fit.line import StraightLine, line_variance
 
 __all__ = [
     "FitConvergenceError",
     "StraightLine",
+    "line_variance",
     "ols_batch",
     "ols_batch_residuals",
     "straight_line",

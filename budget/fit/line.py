@@ -29,6 +29,22 @@ def _as_output(value: np.ndarray, *inputs: np.ndarray) -> float | np.ndarray:
     return value
 
 
+def line_variance(covariance: np.ndarray, x0: float | np.ndarray) -> np.ndarray:
+    """u²(a + b·x0) of a line from the covariance of (slope, intercept) alone.
+
+    Notes
+    -----
+    [x0, 1] C [x0, 1]ᵀ (JCGM 100 eq. 13), written as a sum of non-negative terms about the
+    abscissa where the band is narrowest, so rounding cannot make it negative.
+    """
+    c = np.asarray(covariance, dtype=float)
+    x0 = np.asarray(x0, dtype=float)
+    if c[0, 0] == 0.0:  # exact OLS fit: the whole covariance is zero
+        return np.full(np.shape(x0), c[1, 1])
+    x_min = -c[0, 1] / c[0, 0]
+    return c[0, 0] * (x0 - x_min) ** 2 + (c[1, 1] - c[0, 1] ** 2 / c[0, 0])
+
+
 @dataclass(frozen=True, eq=False)
 class StraightLine:
     """Result of :func:`budget.fit.straight_line`: y = intercept + slope·x.
@@ -96,12 +112,7 @@ class StraightLine:
         return float(self.covariance[0, 1] / np.sqrt(self.covariance[0, 0] * self.covariance[1, 1]))
 
     def _line_variance(self, x0: np.ndarray) -> np.ndarray:
-        """u²(a + b·x0) from the covariance alone, written as a sum of non-negative terms."""
-        c = self.covariance
-        if c[0, 0] == 0.0:  # exact OLS fit: the whole covariance is zero
-            return np.full(np.shape(x0), c[1, 1])
-        x_min = -c[0, 1] / c[0, 0]  # where the band is narrowest
-        return c[0, 0] * (x0 - x_min) ** 2 + (c[1, 1] - c[0, 1] ** 2 / c[0, 0])
+        return line_variance(self.covariance, x0)
 
     def predict(self, x0: float | np.ndarray, u_x0: float | np.ndarray = 0.0
                 ) -> tuple[float | np.ndarray, float | np.ndarray]:
