@@ -216,7 +216,8 @@ def run_budget(
                               nonlinearity_p95_pct=nl_95, chi2=chi2,
                               dof=len(rig.sweep.set_points_v) - 2,
                               set_points_v=tuple(rig.sweep.set_points_v))
-    warns = _rig_warnings(rig)
+    notes = comp.locator_model(rig).notes
+    warns = _rig_warnings(rig, notes)
     path = Path(input_path) if input_path else None
     sha = hashlib.sha256(path.read_bytes()).hexdigest() if path and path.is_file() else ""
     return RunResult(
@@ -224,7 +225,7 @@ def run_budget(
         input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
-        locator_notes=comp.locator_model(rig).notes, joint=mc.joint,
+        locator_notes=notes, joint=mc.joint,
         mode="design" if measured_deg is None else "evaluation",
     )
 
@@ -292,9 +293,9 @@ def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _rig_warnings(rig: RigDescription) -> list[str]:
+def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...]) -> list[str]:
     """What the physics says about this rig, whatever the numbers."""
-    out = list(comp.locator_model(rig).notes)
+    out = list(locator_notes)
     if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid"):
         what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
         out.append(
