@@ -21,8 +21,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from budget.camera.choice_config import load_choose  # noqa: E402
-from budget.camera.choice_model import Candidates, design_geometry, predict  # noqa: E402
+from budget.choice.model import Candidates, design_geometry, predict_candidates  # noqa: E402
+from budget.inputs.choose_file import load_choose  # noqa: E402
 
 N = 10_000
 N_LOOP = 300
@@ -48,10 +48,10 @@ def main() -> None:
     best_vec = best_loop = float("inf")
     for _ in range(3):
         t = time.perf_counter()
-        pred = predict(spec, cand, geo)
+        pred = predict_candidates(spec, cand, geo)
         best_vec = min(best_vec, time.perf_counter() - t)
         t = time.perf_counter()
-        loop_u = [predict(spec, one(cand, i), geo).U_angle_deg[0] for i in range(N_LOOP)]
+        loop_u = [predict_candidates(spec, one(cand, i), geo).U_angle_deg[0] for i in range(N_LOOP)]
         best_loop = min(best_loop, (time.perf_counter() - t) * N / N_LOOP)
     assert np.allclose(loop_u, pred.U_angle_deg[:N_LOOP], rtol=1e-12)
     print(f"Python {platform.python_version()}, numpy {np.__version__}, {platform.machine()}")

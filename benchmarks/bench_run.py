@@ -30,11 +30,11 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from budget.camera import components as comp  # noqa: E402
-from budget.camera.analysis import component_mc_u, run_budget  # noqa: E402
-from budget.camera.rig import VirtualRig  # noqa: E402
-from budget.config import load_rig  # noqa: E402
+from budget.inputs.rig_file import load_rig  # noqa: E402
 from budget.propagation import linear, monte_carlo  # noqa: E402
+from budget.rig import components as comp  # noqa: E402
+from budget.rig.budget import component_mc_u, run_budget  # noqa: E402
+from budget.rig.model import VirtualRig  # noqa: E402
 
 CHUNK = 10_000
 

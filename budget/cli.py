@@ -13,15 +13,10 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from budget import __version__
+from budget.commands.new import STARTERS
 from budget.errors import BudgetInputError
 
 __all__ = ["main", "build_parser"]
-
-TEMPLATES = {
-    "gauge": "gauge_static.toml",
-    "sweep": "gain_sweep.toml",
-    "moving": "moving_pointer.toml",
-}
 
 
 def _positive_int(text: str) -> int:
@@ -94,7 +89,7 @@ def build_parser() -> argparse.ArgumentParser:
     chk.add_argument("file", type=Path)
 
     new = sub.add_parser("new", help="write a commented starter rig file")
-    new.add_argument("kind", choices=sorted(TEMPLATES))
+    new.add_argument("kind", choices=sorted(STARTERS))
     new.add_argument("path", type=Path)
 
     sub.add_parser("selftest", help="run the published reference cases through the engine")
@@ -146,6 +141,13 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--force", action="store_true", help="replace existing output files")
 
 
+_MODULES = {
+    "run": "run", "check": "check", "new": "new", "selftest": "selftest", "predict": "predict",
+    "choose": "choose", "verify-locator": "verify", "frames": "frames",
+}
+"""Sub-command name -> module of :mod:`budget.commands` that carries it out."""
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point; returns the exit status."""
     parser = build_parser()
@@ -153,12 +155,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse already printed its message
         return int(exc.code or 0)
-    from budget import commands  # heavy imports only when a command runs
+    import importlib
 
-    if args.command in ("choose", "verify-locator", "frames"):
-        from budget import camera_commands as commands  # type: ignore[no-redef]
+    module = importlib.import_module(f"budget.commands.{_MODULES[args.command]}")  # heavy imports only now
     try:
-        return int(getattr(commands, f"cmd_{args.command.replace('-', '_')}")(args))
+        return int(module.execute(args))
     except BudgetInputError as exc:
         print(f"thetabudget: error: {exc}", file=sys.stderr)
         return 2

@@ -13,7 +13,7 @@ from budget.propagation.distributions import (
     Trapezoidal,
     Triangular,
 )
-from budget.propagation.linear import (
+from budget.propagation.lpu import (
     GroupRow,
     LinearResult,
     MultiLinearResult,

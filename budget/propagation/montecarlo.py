@@ -15,7 +15,7 @@ import numpy as np
 
 from budget.errors import field_error
 from budget.propagation.distributions import Normal
-from budget.propagation.linear import check_p
+from budget.propagation.lpu import check_p
 from budget.propagation.model import (
     SINGLE,
     Model,

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from budget.errors import field_error
-from budget.propagation.linear import LinearResult
+from budget.propagation.lpu import LinearResult
 from budget.propagation.montecarlo import MonteCarloResult, numerical_tolerance
 
 __all__ = ["Validation", "validate"]

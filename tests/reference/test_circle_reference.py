@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from budget.camera.circle import (
+from budget.rig.pivot import (
     arc_centre_sd,
     circle_covariance,
     fit_circle,

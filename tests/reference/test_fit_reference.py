@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import re
 import tomllib
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -22,8 +21,7 @@ import uncertainties
 from scipy.optimize import curve_fit
 
 from budget.fit import straight_line
-
-REFERENCES = Path(__file__).resolve().parents[2] / "references"
+from tests.paths import REFERENCES
 
 
 def _norris() -> tuple[dict[str, float], np.ndarray, np.ndarray]:

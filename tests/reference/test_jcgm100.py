@@ -16,7 +16,7 @@ from scipy import stats
 from uncertainties import ufloat
 
 from budget.propagation import Normal, linear
-from budget.selftest import MODELS, build_inputs, load_cases, run_case
+from budget.reference_cases import MODELS, case_inputs, load_cases, run_case
 
 CASES = {c.id: c for c in load_cases() if c.id.startswith("jcgm100")}
 
@@ -67,7 +67,7 @@ def test_g4_1_welch_satterthwaite_derived():
     the engine's ν_eff is 18 or 18.9987 and k = t_95(ν_eff) in either case.
     """
     case = CASES["jcgm100-G.4.1"]
-    lin = linear(MODELS[case.model], build_inputs(case), p=case.p)
+    lin = linear(MODELS[case.model], case_inputs(case), p=case.p)
     rel = [0.25, 0.57, 0.82]
     u_c = math.sqrt(sum(r * r for r in rel))
     nu = u_c**4 / sum(r**4 / n for r, n in zip(rel, [9, 4, 14], strict=True))
@@ -80,7 +80,7 @@ def test_g4_1_welch_satterthwaite_derived():
 def test_h1_against_uncertainties_package():
     """H.1 first order cross-checked with the ``uncertainties`` package (linear propagation)."""
     case = CASES["jcgm100-H.1"]
-    inputs = build_inputs(case)
+    inputs = case_inputs(case)
     lin = linear(MODELS[case.model], inputs, p=case.p)
     x = {k: ufloat(d.mean, d.sd) for k, d in inputs.items()}
     theta = x["theta_mean"] + x["theta_cyclic"]
@@ -97,7 +97,7 @@ def test_h1_budget_shares_and_second_order_derived():
     Second order adds (l_s u(δα) u(θ))² + (l_s u(α_s) u(δθ))², u(θ)² = 0.2² + 0.5²/2.
     """
     case = CASES["jcgm100-H.1"]
-    inputs = build_inputs(case)
+    inputs = case_inputs(case)
     lin1 = linear(MODELS[case.model], inputs, p=case.p)
     lin2 = linear(MODELS[case.model], inputs, p=case.p, second_order=True)
     rows = {r.name: r for r in lin1.rows}

@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 
 from budget.propagation import linear, monte_carlo, validate
-from budget.selftest import MODELS, build_inputs, load_cases, run_case
+from budget.reference_cases import MODELS, case_inputs, load_cases, run_case
 
 CASES = {c.id: c for c in load_cases() if c.id.startswith("jcgm101")}
 
@@ -42,7 +42,7 @@ def quantile_se(p_tail: float, trials: int, density: float) -> float:
 
 def _run(case_id: str, trials: int | None, seed: int):
     case = CASES[case_id]
-    inputs = build_inputs(case)
+    inputs = case_inputs(case)
     model = MODELS[case.model]
     lin = linear(model, inputs, p=case.p)
     mc = monte_carlo(model, inputs, p=case.p, trials=trials, rng=np.random.default_rng(seed))
@@ -121,7 +121,7 @@ def test_9_3_second_order_terms_exact():
     ½·c² twice. Numerical differentiation is the only error (tolerance 1e-4 relative).
     """
     case = CASES["jcgm101-9.3"]
-    inputs = build_inputs(case)
+    inputs = case_inputs(case)
     model = MODELS[case.model]
     lin1 = linear(model, inputs, p=case.p)
     lin2 = linear(model, inputs, p=case.p, second_order=True)
@@ -146,7 +146,7 @@ def test_9_3_verdicts():
     seed makes the run reproducible.
     """
     case = CASES["jcgm101-9.3"]
-    inputs = build_inputs(case)
+    inputs = case_inputs(case)
     model = MODELS[case.model]
     lin1 = linear(model, inputs, p=case.p)
     lin2 = linear(model, inputs, p=case.p, second_order=True)
@@ -170,7 +170,7 @@ def test_adaptive_procedure_9_2_2():
     within δ of the exact value with high probability (exact: 0, 2, ±3.9199).
     """
     case = CASES["jcgm101-9.2.2"]
-    mc = monte_carlo(MODELS[case.model], build_inputs(case), p=case.p, trials=None,
+    mc = monte_carlo(MODELS[case.model], case_inputs(case), p=case.p, trials=None,
                      rng=np.random.default_rng(7), n_dig=2)
     assert mc.trials % 10_000 == 0 and mc.trials >= 20_000
     assert mc.estimate == pytest.approx(0.0, abs=0.05)
@@ -186,6 +186,6 @@ def test_adaptive_procedure_stops_at_first_stable_sequence():
     sums) it is first met at h = 2 … 9; h ≤ 20 (2·10⁵ trials) leaves a wide margin.
     """
     case = CASES["jcgm101-9.2.2"]
-    mc = monte_carlo(MODELS[case.model], build_inputs(case), p=case.p, trials=None,
+    mc = monte_carlo(MODELS[case.model], case_inputs(case), p=case.p, trials=None,
                      rng=np.random.default_rng(7), n_dig=2)
     assert mc.trials <= 200_000

@@ -8,10 +8,10 @@ import pytest
 from scipy.optimize import least_squares
 from scipy.special import j1, jn_zeros
 
-from budget.camera.imaging import expected_electrons, render_target
-from budget.camera.locators import centre_of_mass, fit_gaussian_spots, integer_peak
-from budget.camera.optics import airy_radius_um, psf_sigma_um
-from budget.camera.spot_theory import (
+from budget.imaging.locate import centre_of_mass, fit_gaussian_spots, integer_peak
+from budget.imaging.optics import airy_radius_um, psf_sigma_um
+from budget.imaging.render import expected_electrons, render_target
+from budget.imaging.spot import (
     adc_variance_e2,
     com_variance,
     mortensen_variance,

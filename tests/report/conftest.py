@@ -8,10 +8,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from budget.camera.analysis import run_budget
-from budget.config import load_rig
+from budget.inputs.rig_file import load_rig
+from budget.rig.budget import run_budget
+from tests.paths import TEMPLATES
 
-TEMPLATE_DIR = Path(__file__).resolve().parents[2] / "templates"
+TEMPLATE_DIR = TEMPLATES
 
 INJECTIONS = {
     "title": '=HYPERLINK("http://example.invalid","open me")',

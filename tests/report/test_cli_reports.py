@@ -7,8 +7,9 @@ from pathlib import Path
 import openpyxl
 
 from budget.cli import main
+from tests.paths import TEMPLATES
 
-TEMPLATE = Path(__file__).resolve().parents[2] / "templates" / "gauge_static.toml"
+TEMPLATE = TEMPLATES / "gauge_static.toml"
 RUN = ["--trials", "20000", "--seed", "1"]
 
 

@@ -1,1 +1,0 @@
-"""The rig: description, virtual rig, components, imaging and camera choice."""

@@ -1,0 +1,32 @@
+"""``thetabudget check``: validate a rig file and list its input quantities."""
+
+from __future__ import annotations
+
+import argparse
+
+__all__ = ["execute"]
+
+
+def execute(args: argparse.Namespace) -> int:
+    from budget.imaging.locator_model import locator_model
+    from budget.inputs.rig_file import load_rig
+    from budget.report.console import fmt, fmt_dof
+    from budget.rig.components import build_inputs
+    from budget.rig.evaluation import load_evaluation
+
+    ev = load_evaluation(load_rig(args.file))
+    rig = ev.rig
+    inputs, corr = build_inputs(rig, ev.type_a)
+    lm = locator_model(rig)
+    print(f"{args.file}: valid. {rig.title}")
+    print(f"pointer radius {rig.radius_px:.1f} px, spot sigma {lm.sigma_px:.3g} px, "
+          f"magnification {rig.magnification:.4g}, locator noise {lm.noise_px_per_frame:.3g} px per frame")
+    print(f"{len(inputs)} input quantities, {len(corr)} correlated pairs:")
+    print(f"  {'name':<22} {'component':<22} {'type':<4} {'distribution':<36} {'u':>10}  {'ν':>4}  source")
+    for name, q in inputs.items():
+        d = q.distribution
+        print(f"  {name:<22} {q.group or name:<22} {q.evaluation:<4} {d.describe():<36} "
+              f"{fmt(d.u):>7} {q.unit:<3} {fmt_dof(d.dof):>4}  {q.source}")
+    for note in lm.notes:
+        print(f"! {note}")
+    return 0

@@ -1,0 +1,43 @@
+"""What every sub-command shares: the one random-generator factory, progress, JSON text.
+
+Sub-commands live one per module in this package; each exposes ``execute(args) -> int`` and
+raises :class:`budget.errors.BudgetInputError` for bad input (:mod:`budget.cli` maps it to
+exit 2). This package is the only place a generator is made from a seed.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+
+import numpy as np
+
+__all__ = ["make_rng", "seed_of", "progress_bar", "dumps"]
+
+
+def make_rng(seed: int | None) -> np.random.Generator:
+    """The one place a generator is made from a seed; fresh entropy is drawn when none is given."""
+    return np.random.default_rng(np.random.SeedSequence(seed))
+
+
+def seed_of(rng: np.random.Generator) -> object:
+    """The seed a generator from :func:`make_rng` was made from (its seed sequence's entropy)."""
+    return getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
+
+
+def progress_bar(enabled: bool):
+    """A progress callback on stderr, or None (not a terminal, --quiet or --json)."""
+    if not enabled or not sys.stderr.isatty():
+        return None, None
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TextColumn
+
+    prog = Progress(TextColumn("Monte Carlo"), BarColumn(), TextColumn("{task.completed:,.0f} trials"),
+                    console=Console(stderr=True), transient=True)
+    task = prog.add_task("mc", total=None)
+    return prog, (lambda done: prog.update(task, completed=done))
+
+
+def dumps(obj: dict) -> str:
+    """Strict JSON text (no NaN or Infinity), UTF-8 kept readable."""
+    return json.dumps(obj, indent=2, allow_nan=False, ensure_ascii=False)

@@ -1,0 +1,351 @@
+"""TOML input file -> :class:`RigDescription`, with validation and one-line errors.
+
+Every problem raises :class:`BudgetInputError` naming the field, its section, the
+allowed range and the value received. An unknown key suggests the nearest valid
+one (a likely typo). Nothing is repaired silently.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+from budget.errors import BudgetInputError, field_error
+from budget.imaging.locator_model import spot_sigma_px
+from budget.rig import description as d
+
+__all__ = ["load_rig", "parse_rig", "read_toml", "SCHEMA"]
+
+
+@dataclass(frozen=True)
+class Field:
+    """One allowed key: its kind, what is allowed (for the message) and a check."""
+
+    kind: str  # "int", "float", "str", "bool", "floats"
+    allowed: str
+    ok: Callable[[object], bool] = lambda v: True
+    required: bool = False
+
+
+def _num(allowed: str, ok: Callable[[float], bool], required: bool = False) -> Field:
+    return Field("float", allowed, ok, required)
+
+
+def _pos(required: bool = False) -> Field:
+    return _num("a number > 0", lambda v: v > 0, required)
+
+
+def _nonneg() -> Field:
+    return _num("a number >= 0", lambda v: v >= 0)
+
+
+def _choice(*options: str) -> Field:
+    return Field("str", "one of " + ", ".join(repr(o) for o in options), lambda v: v in options)
+
+
+_SOURCE = Field("str", "a text note (datasheet, certificate, measured, assumed)")
+
+SCHEMA: dict[str, dict[str, Field]] = {
+    "camera": {
+        "pixels_x": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
+        "pixels_y": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
+        "pitch_um": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100, True),
+        "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
+        "read_noise_e": _num("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),
+        "full_well_e": _num("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
+        "shutter": _choice("global", "rolling"),
+        "row_time_us": _nonneg(),
+        "frame_rate_hz": _pos(),
+        "exposure_ms": _pos(),
+        "source": _SOURCE,
+    },
+    "lens": {
+        "focal_length_mm": _num("a number in [1, 2000]", lambda v: 1 <= v <= 2000, True),
+        "f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
+        "distortion": _choice("corrected", "uncorrected"),
+        "residual_rms_px": _num("a number in (0, 100]", lambda v: 0 < v <= 100),
+        "residual_correlation_px": _num("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
+        "distortion_edge_pct": _num("a number in [0, 20]", lambda v: 0 <= v <= 20),
+        "wavelength_nm": _num("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
+        "source": _SOURCE,
+    },
+    "geometry": {
+        "working_distance_mm": _num("a number in (0, 1e6]", lambda v: 0 < v <= 1e6, True),
+        "pointer_radius_mm": _pos(True),
+        "pivot_offset_x_mm": _num("a finite number", math.isfinite),
+        "pivot_offset_y_mm": _num("a finite number", math.isfinite),
+        "zero_direction_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "target_height_mm": _nonneg(),
+        "target_height_u_mm": _nonneg(),
+        "tilt_bound_deg": _num("a number in (0, 90)", lambda v: 0 < v < 90),
+        "tilt_deg": _num("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "tilt_u_deg": _num("a number in (0, 90)", lambda v: 0 < v < 90),
+        "tilt_azimuth_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "remounted": Field("bool", "true or false"),
+        "roll_bound_deg": _num("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "source": _SOURCE,
+    },
+    "target": {
+        "shape": _choice("spot", "disk"),
+        "sigma_px": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
+        "diameter_mm": _num("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
+        "signal_e": _num("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12),
+        "background_e": _num("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9),
+        "source": _SOURCE,
+    },
+    "locator": {
+        "method": _choice("integer", "centroid", "fit"),
+        "window_px": Field("int", "an odd integer in [3, 255]", lambda v: 3 <= v <= 255 and v % 2 == 1),
+        "source": _SOURCE,
+    },
+    "pivot": {
+        "method": _choice("readings", "arc", "mark"),
+        "arc_half_angle_deg": _num("a number in (0, 180]", lambda v: 0 < v <= 180),
+        "arc_points": Field("int", "an integer in [3, 1000]", lambda v: 3 <= v <= 1000),
+        "arc_centre_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "mark_offset_bound_mm": _nonneg(),
+        "source": _SOURCE,
+    },
+    "frames": {
+        "per_reading": Field("int", "an integer in [1, 100000]", lambda v: 1 <= v <= 100_000),
+        "source": _SOURCE,
+    },
+    "motion": {
+        "state": _choice("static", "moving"),
+        "rate_deg_per_s": _num("a finite number", math.isfinite),
+        "timestamp": _choice("start", "middle"),
+        "jitter_ms": _nonneg(),
+        "source": _SOURCE,
+    },
+    "source": {
+        "span_v": _pos(),
+        "polarity": _choice("bipolar", "unipolar"),
+        "bits": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
+        "gain_error_pct": _num("a number in [0, 50]", lambda v: 0 <= v <= 50),
+        "offset_mv": _nonneg(),
+        "inl_lsb": _nonneg(),
+        "noise_uv": _nonneg(),
+        "output_impedance_ohm": _nonneg(),
+        "load_resistance_ohm": _pos(),
+        "readback": _choice("commanded", "dmm"),
+        "dmm_pct_reading": _nonneg(),
+        "dmm_counts": _nonneg(),
+        "dmm_resolution_v": _pos(),
+        "source": _SOURCE,
+    },
+    "positions": {"angles_deg": Field("floats", "a list of angles in (-360, 360)",
+                                      lambda v: all(-360 < a < 360 for a in v), True)},
+    "sweep": {
+        "set_points_v": Field("floats", "a list of at least 3 strictly increasing voltages",
+                              lambda v: len(v) >= 3 and all(b > a for a, b in zip(v, v[1:], strict=False)),
+                              True),
+        "nominal_gain_deg_per_v": _num("a non-zero finite number", lambda v: v != 0 and math.isfinite(v), True),
+    },
+    "data": {
+        "readings_csv": Field("str", "a path to a CSV file"),
+        "pivot_csv": Field("str", "a path to a CSV file"),
+    },
+}
+
+_CLASSES = {
+    "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
+    "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
+    "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
+}
+_REQUIRED_SECTIONS = ("camera", "lens", "geometry")
+_TOP_KEYS = ("title",)
+
+
+def _suggest(key: str, options) -> str:
+    near = difflib.get_close_matches(key, list(options), n=1, cutoff=0.6)
+    return f" Did you mean '{near[0]}'?" if near else ""
+
+
+def _coerce(section: str, key: str, spec: Field, value: object) -> object:
+    where = f"[{section}]"
+    if spec.kind == "bool":
+        if not isinstance(value, bool):
+            raise field_error(key, spec.allowed, value, where)
+        return value
+    if spec.kind == "str":
+        if not isinstance(value, str):
+            raise field_error(key, spec.allowed, value, where)
+    elif spec.kind == "int":
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise field_error(key, spec.allowed, value, where)
+    elif spec.kind == "float":
+        if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+            raise field_error(key, spec.allowed, value, where)
+        value = float(value)
+    elif spec.kind == "floats":
+        if not isinstance(value, list) or not all(
+            isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v) for v in value
+        ) or not value:
+            raise field_error(key, spec.allowed, value, where)
+        value = tuple(float(v) for v in value)
+    if not spec.ok(value):
+        raise field_error(key, spec.allowed, value, where)
+    return value
+
+
+def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
+    """Validate a parsed TOML document and build the rig description."""
+    for key in doc:
+        if key not in SCHEMA and key not in _TOP_KEYS:
+            raise BudgetInputError(
+                f"Unknown section [{key}] in the input file.{_suggest(key, [*SCHEMA, *_TOP_KEYS])}"
+            )
+    for name in _REQUIRED_SECTIONS:
+        if name not in doc:
+            raise BudgetInputError(f"The section [{name}] is missing from the input file.")
+    if ("positions" in doc) == ("sweep" in doc):
+        raise BudgetInputError(
+            "The input file must have exactly one of [positions] (a list of angles) "
+            "or [sweep] (set points and a nominal gain)."
+        )
+    built: dict[str, object] = {}
+    for section, fields in SCHEMA.items():
+        raw = doc.get(section)
+        if raw is None:
+            built[section] = None
+            continue
+        if not isinstance(raw, dict):
+            raise BudgetInputError(f"[{section}] must be a table of keys, got {raw!r}.")
+        values = {}
+        for key, value in raw.items():
+            if key not in fields:
+                raise BudgetInputError(
+                    f"Unknown key '{key}' in [{section}].{_suggest(key, fields)}"
+                )
+            values[key] = _coerce(section, key, fields[key], value)
+        for key, spec in fields.items():
+            if spec.required and key not in values:
+                raise BudgetInputError(f"The '{key}' field of [{section}] is missing; it must be {spec.allowed}.")
+        built[section] = _CLASSES[section](**values)
+    for section in ("target", "locator", "pivot", "frames", "motion"):
+        if built[section] is None:
+            built[section] = _CLASSES[section]()
+    title = doc.get("title", "untitled rig")
+    if not isinstance(title, str):
+        raise field_error("title", "a text", title)
+    if built["sweep"] is not None and built["source"] is None:
+        built["source"] = d.VoltageSource()
+    if built["data"] is not None and base is not None:
+        data = built["data"]
+        built["data"] = d.Data(
+            readings_csv=str(base / data.readings_csv) if data.readings_csv else None,
+            pivot_csv=str(base / data.pivot_csv) if data.pivot_csv else None,
+        )
+    rig = d.RigDescription(title=title, raw=doc, **built)  # type: ignore[arg-type]
+    _cross_checks(rig)
+    return rig
+
+
+def _cross_checks(rig: d.RigDescription) -> None:
+    """Checks that involve several fields."""
+    g, cam, lens = rig.geometry, rig.camera, rig.lens
+    if g.working_distance_mm <= lens.focal_length_mm:
+        raise field_error("working_distance_mm", f"a number > the focal length ({lens.focal_length_mm:g} mm)",
+                          g.working_distance_mm, "[geometry]")
+    for key in ("target_height_mm", "target_height_u_mm"):  # the target sits between the dial and the lens
+        if getattr(g, key) >= g.working_distance_mm:
+            raise field_error(key, f"a number >= 0 and < working_distance_mm ({g.working_distance_mm:g} mm)",
+                              getattr(g, key), "[geometry]")
+    if rig.radius_px < 1:  # a pointer imaged shorter than a pixel has no measurable angle
+        least = g.pointer_radius_mm / rig.radius_px
+        raise field_error("pointer_radius_mm", f"a radius that is imaged at least 1 px long (here >= {least:.3g} mm)",
+                          g.pointer_radius_mm, "[geometry]")
+    modes = [g.tilt_bound_deg is not None, g.tilt_deg is not None]
+    if all(modes):
+        raise BudgetInputError(
+            "[geometry] gives both 'tilt_bound_deg' and 'tilt_deg': give a bound, or a measured tilt "
+            "with 'tilt_u_deg'."
+        )
+    for key in ("tilt_u_deg", "tilt_azimuth_deg"):
+        if g.tilt_deg is None and getattr(g, key) is not None:
+            raise BudgetInputError(
+                f"The '{key}' field of [geometry] belongs to a measured 'tilt_deg', which is not given; "
+                f"give 'tilt_deg' too, or remove '{key}' (with 'tilt_bound_deg' the azimuth is unknown). "
+                f"Got {getattr(g, key)!r}."
+            )
+    if g.tilt_deg is not None and g.tilt_u_deg is None:
+        raise BudgetInputError("The 'tilt_u_deg' field of [geometry] is missing; a measured 'tilt_deg' "
+                               "needs its standard uncertainty, a number in (0, 90).")
+    if g.remounted and g.roll_bound_deg <= 0:
+        raise field_error("roll_bound_deg", "a number in (0, 45] when remounted = true",
+                          g.roll_bound_deg, "[geometry]")
+    if rig.target.shape == "disk" and rig.target.diameter_mm <= 0:
+        raise field_error("diameter_mm", "a number > 0 for a disk target", rig.target.diameter_mm, "[target]")
+    if rig.motion.state == "moving" and rig.motion.rate_deg_per_s == 0:
+        raise field_error("rate_deg_per_s", "a non-zero number for a moving pointer",
+                          rig.motion.rate_deg_per_s, "[motion]")
+    if cam.shutter == "rolling" and cam.row_time_us <= 0:
+        raise field_error("row_time_us", "a number > 0 for a rolling shutter", cam.row_time_us, "[camera]")
+    angles = rig.nominal_angles_deg
+    distinct = {round(a % 360.0, 9) % 360.0 for a in (0.0, *angles)}
+    if rig.pivot.method == "readings" and (len(angles) < 2 or len(distinct) < 3):
+        raise BudgetInputError(
+            "[pivot] method = 'readings' fits a circle through the zero image and the readings: "
+            f"it needs at least 2 readings at different positions from each other and from 0°. "
+            f"Got {list(angles)}."
+        )
+    if rig.sweep is not None and rig.source is not None:
+        span = rig.source.span_v
+        lo, hi = (-span / 2, span / 2) if rig.source.polarity == "bipolar" else (0.0, span)
+        if min(rig.sweep.set_points_v) < lo or max(rig.sweep.set_points_v) > hi:
+            raise field_error("set_points_v", f"voltages within the source's range [{lo:g}, {hi:g}] V "
+                              f"({rig.source.polarity}, span {span:g} V)", list(rig.sweep.set_points_v), "[sweep]")
+    # the pointer must stay in the field of view (with the spot's 3-sigma margin)
+    pitch_mm = cam.pitch_um * 1e-3
+    m = rig.magnification
+    cx = g.pivot_offset_x_mm * m / pitch_mm
+    cy = g.pivot_offset_y_mm * m / pitch_mm
+    r = rig.radius_px + 3 * spot_sigma_px(rig) + 1
+    half_w, half_h = cam.pixels_x / 2, cam.pixels_y / 2
+    points = [("", a) for a in (0.0, *angles)]
+    if rig.pivot.method == "arc":  # the pivot-arc points are located too
+        p = rig.pivot
+        mid = p.arc_centre_deg if p.arc_centre_deg is not None else 0.5 * (min(0.0, *angles) + max(0.0, *angles))
+        step = 2 * p.arc_half_angle_deg / (p.arc_points - 1)
+        points += [(" (pivot arc)", mid - p.arc_half_angle_deg + i * step) for i in range(p.arc_points)]
+    for what, a in points:
+        t = math.radians(g.zero_direction_deg + a)
+        x, y = cx + r * math.cos(t), cy + r * math.sin(t)
+        if abs(x) > half_w or abs(y) > half_h:
+            raise BudgetInputError(
+                f"The pointer leaves the sensor's field of view at {a:g}°{what}: the target would be imaged at "
+                f"({x:.0f}, {y:.0f}) px from the sensor centre, outside ±({half_w:.0f}, {half_h:.0f}) px. "
+                "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
+                + (" and the [pivot] arc." if what else ".")
+            )
+
+
+def read_toml(path: str | Path, what: str = "input file") -> dict:
+    """Read a TOML file; a missing, unreadable or malformed file is one BudgetInputError line."""
+    p = Path(path)
+    try:
+        text = p.read_bytes().decode("utf-8-sig")  # a byte-order mark (as some editors save) is not text
+    except FileNotFoundError:
+        raise BudgetInputError(f"The {what} '{p}' does not exist.") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise BudgetInputError(f"The {what} '{p}' cannot be read: {exc}.") from None
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise BudgetInputError(f"The {what} '{p}' is not valid TOML: {exc}.") from None
+
+
+def load_rig(path: str | Path) -> d.RigDescription:
+    """Read and validate a rig description file.
+
+    Raises
+    ------
+    BudgetInputError
+        For a missing or unreadable file, malformed TOML (with the line), or any
+        invalid field.
+    """
+    return parse_rig(read_toml(path), base=Path(path).parent)

@@ -1,0 +1,313 @@
+"""Run a rig's budget by both methods and say in words what the physics says.
+
+input file -> rig description -> virtual rig -> propagation -> :class:`RunResult`.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import math
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+
+from budget import __version__
+from budget.fit import ols_batch_residuals
+from budget.imaging.locator_model import locator_model
+from budget.propagation import (
+    InputQuantity,
+    interval_statement,
+    linear,
+    monte_carlo,
+    statement,
+    validate,
+)
+from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
+from budget.rig import components as comp
+from budget.rig.description import RigDescription
+from budget.rig.model import VirtualRig
+
+__all__ = ["run_budget", "component_mc_u", "GROUP_TRIALS"]
+
+GROUP_TRIALS = 20_000
+"""Trials of each one-component-at-a-time Monte Carlo (its u to about ±1 %)."""
+
+
+def _fixed_model(model, inputs: dict[str, InputQuantity], keep: tuple[str, ...]):
+    """The model with every input outside ``keep`` held at its estimate."""
+    means = {k: q.distribution.mean for k, q in inputs.items() if k not in keep}
+
+    def wrapped(**kw):
+        n = len(next(iter(kw.values())))
+        full = {k: np.full(n, v) for k, v in means.items()}
+        full.update(kw)
+        return model(**full)
+
+    return wrapped
+
+
+def component_mc_u(model, inputs: dict[str, InputQuantity], corr: dict, members: tuple[str, ...],
+                   *, rng: np.random.Generator, p: float) -> dict[str, float]:
+    """Monte Carlo standard uncertainty of every output when only ``members`` vary.
+
+    Notes
+    -----
+    GROUP_TRIALS trials, or the least M >= 100/(1 − p) of JCGM 101 7.9.4 if that is more.
+    """
+    sub = {k: inputs[k] for k in members}
+    sub_corr = {pair: r for pair, r in corr.items() if pair[0] in sub and pair[1] in sub} or None
+    trials = max(GROUP_TRIALS, math.ceil(100.0 / (1.0 - p) - 1e-9))
+    res = monte_carlo(_fixed_model(model, inputs, members), sub, p, trials, rng=rng,
+                      correlation=sub_corr)
+    return {name: res[name].u for name in res.names}
+
+
+def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) -> tuple[ComponentLine, ...]:
+    rows = {r.name: r for r in lin.rows}
+    lines = []
+    for g in lin.groups:
+        members = [rows[n] for n in g.inputs]
+        first = members[0]
+        same = all(abs(m.u - first.u) <= 1e-12 * max(first.u, 1e-300) and m.unit == first.unit
+                   for m in members)
+        kinds = sorted({m.distribution.split(",")[0] for m in members})
+        dist = kinds[0] if len(kinds) == 1 else " + ".join(kinds)
+        if len(members) > 1:
+            dist += f" ×{len(members)}"
+        lines.append(ComponentLine(
+            name=g.name, evaluation=g.evaluation, distribution=dist,
+            u_input=first.u if same else None, unit=first.unit if same else "",
+            sensitivity=first.sensitivity if len(members) == 1 else None,
+            contribution=g.contribution, percent=g.percent, dof=g.dof,
+            mc_u=group_mc.get(g.name, {}).get(output), sources=g.sources, inputs=g.inputs,
+        ))
+    return tuple(lines)
+
+
+def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, group_mc,
+            p: float, symbol: str, method: str = "", bias_causes: tuple[str, ...] = ()) -> OutputBudget:
+    val = validate(lin, mc, n_dig=2)
+    # The engine's per-input zero-sensitivity notes list every other point's inputs for each
+    # angle; the component-level comparison with Monte Carlo below says what matters.
+    warns = [w for w in lin.warnings if "zero first-order sensitivity" not in w] + list(mc.warnings)
+    u2 = lin2.u if lin2 is not None else None
+    lines = _component_lines(lin, group_mc, name)
+    missed = [c for c in lines if c.mc_u is not None and c.contribution <= 1e-9 * max(lin.u, 1e-300)
+              and c.mc_u > 0.05 * mc.u]
+    if missed:  # the linear shares are then shares of the wrong total
+        warns = [w for w in warns if "of the variance of" not in w]
+    for line in missed:
+        warns.append(
+            f"{label}: '{line.name}' has zero first-order sensitivity at its estimate, so the linear "
+            f"method gives it 0; Monte Carlo gives it u = {line.mc_u:.2g} {unit} (a second-order "
+            "effect, JCGM 100 5.1.2 note). The Monte Carlo interval is the result."
+        )
+    top = max(lines, key=lambda c: c.percent)
+    if top.name == comp.PIVOT and top.percent > 50:
+        why = {"arc": "a pivot fitted to a short arc is poorly determined (Chernov 2010, ch. 7); "
+                      "widen the arc or use a mark",
+               "mark": "the pivot mark's location and offset from the shaft set the result; "
+                       "locate the mark better or fit a circle over a wide arc"}.get(method, "")
+        warns.append(f"{label}: the pivot estimate dominates ({top.percent:.0f} % of the variance)"
+                     + (f": {why}." if why else "."))
+    bias = mc.estimate - nominal
+    if abs(bias) > 3 * mc.u / math.sqrt(mc.trials) and abs(bias) > 0.05 * mc.u:
+        causes = f" ({', '.join(bias_causes)})" if bias_causes else ""
+        warns.append(
+            f"{label}: the estimate differs from {nominal:g} {unit} (the nominal, or in evaluation mode the "
+            f"measured value) by {bias:+.2g} {unit}: systematic effects{causes} that the model carries as "
+            "offsets; correct them at the source or report them."
+        )
+    lin_stmt = statement(symbol, lin.estimate, lin.U, lin.k, p, unit) if lin.U > 0 else \
+        f"{symbol} = {lin.estimate:g} {unit} (the linear method gives U = 0)"
+    mc_stmt = interval_statement(symbol, mc.estimate, mc.u, mc.interval, p, unit) if mc.u > 0 else \
+        f"{symbol} = {mc.estimate:g} {unit}"
+    return OutputBudget(
+        name=name, label=label, unit=unit, nominal=nominal, linear=lin, u_second_order=u2,
+        monte_carlo=mc, validation=val, components=lines, statement=lin_stmt, mc_statement=mc_stmt,
+        method="linear" if val.validated else "monte carlo", warnings=tuple(warns),
+    )
+
+
+def _nonlinearity_pct(rig: RigDescription, joint: dict[str, np.ndarray], n: int) -> tuple[float, float]:
+    """Largest |residual| of the straight line as % of the angle span, from the joint samples."""
+    y = np.column_stack([joint[f"P{i + 1}"] for i in range(n)])
+    x = np.array(rig.sweep.set_points_v)
+    _, _, res = ols_batch_residuals(x, y)
+    span = np.ptp(y, axis=1)
+    nl = 100.0 * np.max(np.abs(res), axis=1) / span
+    return float(nl.mean()), float(np.quantile(nl, 0.95))
+
+
+def run_budget(
+    rig: RigDescription,
+    *,
+    rng: np.random.Generator,
+    p: float = 0.95,
+    trials: int | None = None,
+    input_path: str | Path = "",
+    progress: Callable[[int], None] | None = None,
+    type_a: dict | None = None,
+    measured_deg: tuple[float, ...] | None = None,
+) -> RunResult:
+    """Budget of every angle position (and the gain of a sweep) by JCGM 100 and JCGM 101.
+
+    Parameters
+    ----------
+    rig : RigDescription
+    rng : numpy.random.Generator
+        Random numbers for Monte Carlo; its seed is recorded.
+    p : float
+        Coverage probability.
+    trials : int, optional
+        Fixed Monte Carlo trials; default the adaptive procedure (JCGM 101 7.9).
+    input_path : path
+        The input file, for provenance (its SHA-256 goes into every report).
+    progress : callable, optional
+        Called with the trials done.
+    type_a : dict, optional
+        Repeated-frame scatter per point label (see :func:`components.build_inputs`).
+    measured_deg : tuple, optional
+        Measured reading angles of a sweep (evaluation mode): they give the fit's
+        chi-squared against the per-point uncertainties (ISO/TS 28037 clause 6).
+    """
+    inputs, corr = comp.build_inputs(rig, type_a)
+    nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
+    if rig.sweep is not None:
+        nominal.update(gain=rig.sweep.nominal_gain_deg_per_v, intercept=0.0)
+    model = VirtualRig(rig)
+    reference = nominal
+    if measured_deg is not None:
+        reference = _located(rig, measured_deg)
+        model = TrueValueModel(model, located=reference, nominal=nominal)
+    corr_arg = corr or None
+    lin = linear(model, inputs, p=p, correlation=corr_arg)
+    lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
+    mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress)
+    groups: dict[str, tuple[str, ...]] = {}
+    for name, q in inputs.items():
+        groups.setdefault(q.group or name, ())
+        groups[q.group or name] += (name,)
+    group_mc = {g: component_mc_u(model, inputs, corr, members, rng=rng, p=p) for g, members in groups.items()}
+    causes = _bias_causes(rig)
+    angles = []
+    for i in range(len(rig.nominal_angles_deg)):
+        name = f"P{i + 1}"
+        label = f"angle {name} ({reference[name]:g}°)"
+        angles.append(_budget(name, label, "°", reference[name], lin[name], lin2[name] if lin2 else None,
+                              mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes))
+    gain = summary = None
+    if rig.sweep is not None:
+        gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
+                       mc["gain"], group_mc, p, "K", rig.pivot.method, causes)
+        intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
+                            lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
+                            rig.pivot.method, causes)
+        names = list(lin.names)
+        ig, ii = names.index("gain"), names.index("intercept")
+        c = lin.covariance
+        corr_lin = c[ig, ii] / math.sqrt(c[ig, ig] * c[ii, ii]) if c[ig, ig] * c[ii, ii] > 0 else 0.0
+        corr_mc = float(np.corrcoef(mc.joint["gain"], mc.joint["intercept"])[0, 1])
+        nl_mean, nl_95 = _nonlinearity_pct(rig, mc.joint, len(rig.nominal_angles_deg))
+        chi2 = _chi2(rig, angles, measured_deg)
+        summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
+                              correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
+                              nonlinearity_p95_pct=nl_95, chi2=chi2,
+                              dof=len(rig.sweep.set_points_v) - 2,
+                              set_points_v=tuple(rig.sweep.set_points_v))
+    notes = locator_model(rig).notes
+    warns = _rig_warnings(rig, notes)
+    path = Path(input_path) if input_path else None
+    sha = hashlib.sha256(path.read_bytes()).hexdigest() if path and path.is_file() else ""
+    return RunResult(
+        title=rig.title, tool_version=__version__, input_path=str(path.name if path else ""),
+        input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+        seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
+        warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
+        locator_notes=notes, joint=mc.joint,
+        mode="design" if measured_deg is None else "evaluation",
+    )
+
+
+class TrueValueModel:
+    """Evaluation mode: the measurand is the true value behind a measured (located) value.
+
+    The virtual rig gives the located value ``v`` for a true value at its nominal
+    ``n``, so the error is ``v − n`` and the true value behind a measured ``m`` is
+    ``m − (v − n)``. Same inputs, same sensitivities up to sign: one model still
+    serves both methods.
+    """
+
+    def __init__(self, model, *, located: dict[str, float], nominal: dict[str, float]) -> None:
+        self.model, self.located, self.nominal = model, located, nominal
+
+    def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
+        out = self.model(**kw)
+        return {k: self.located[k] + self.nominal[k] - v for k, v in out.items()}
+
+
+def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, float]:
+    """Measured values of every output: the angles and, for a sweep, their straight line."""
+    out = {f"P{i + 1}": float(a) for i, a in enumerate(measured_deg)}
+    if rig.sweep is not None:
+        slope, intercept = np.polyfit(np.array(rig.sweep.set_points_v), np.array(measured_deg), 1)
+        out.update(gain=float(slope), intercept=float(intercept))
+    return out
+
+
+def _chi2(rig: RigDescription, angles: list[OutputBudget], measured: tuple[float, ...] | None) -> float | None:
+    """Chi-squared of the measured angles about their straight line, or None in design mode.
+
+    Notes
+    -----
+    Weighted least squares with u(θ_j) from the inputs of reading j alone (its locator
+    errors and distortion residual, its set point's step, INL and noise, its timing
+    jitter: the inputs named ``…_Pj``). Shared effects (the zero image's locator
+    errors, pivot, tilt, source gain and offset) move every point together and do not
+    scatter them about the line (ISO/TS 28037 clause 6).
+    """
+    if measured is None:
+        return None
+    from budget.fit import straight_line
+
+    u = [math.sqrt(sum(r.contribution**2 for r in ob.linear.rows if r.name.endswith(f"_{ob.name}")))
+         for ob in angles]
+    if min(u) <= 0:
+        return None
+    return float(straight_line(np.array(rig.sweep.set_points_v), np.array(measured), u_y=np.array(u)).chi2)
+
+
+def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
+    """Effects the model carries as known offsets rather than zero-mean errors."""
+    out = []
+    if rig.motion.state == "moving":
+        if rig.motion.timestamp == "start":
+            out.append("start-of-exposure timestamps")
+        if rig.camera.shutter == "rolling":
+            out.append("rolling-shutter row delay")
+    if rig.geometry.tilt_deg:
+        out.append("the measured camera tilt")
+    if rig.source is not None and rig.source.load_resistance_ohm and rig.source.output_impedance_ohm:
+        out.append("the source's output impedance into the load")
+    return tuple(out)
+
+
+def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...]) -> list[str]:
+    """What the physics says about this rig, whatever the numbers."""
+    out = list(locator_notes)
+    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid"):
+        what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
+        out.append(
+            f"Averaging {rig.frames.per_reading} frames divides the centroid noise by "
+            f"√{rig.frames.per_reading} but leaves {what} unchanged: a static target keeps its "
+            "sub-pixel phase in every frame."
+        )
+    if rig.motion.state == "moving" and rig.motion.timestamp == "start":
+        b = rig.motion.rate_deg_per_s * 0.5 * rig.camera.exposure_ms * 1e-3
+        out.append(
+            f"Start-of-exposure timestamps: the image shows the mid-exposure angle, a bias of "
+            f"ω·t_e/2 = {b:+.3g}° in every moving reading; stamp the middle of the exposure or correct it."
+        )
+    return out

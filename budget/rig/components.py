@@ -1,0 +1,179 @@
+"""Budget components: the rig's error sources as named, grouped input quantities.
+
+Each component (a row the user sees) is a group of input quantities of the
+propagation engine; each quantity carries the source note of the section it
+comes from. The names of per-point quantities end in the point's label:
+``Z`` the zero image, ``P1…Pn`` the readings, ``C1…Cm`` the pivot-arc points,
+``M`` the pivot mark.
+"""
+
+from __future__ import annotations
+
+import math
+
+from budget.imaging.locator_model import locator_model
+from budget.propagation import Arcsine, InputQuantity, Normal, Rectangular, StudentT
+from budget.rig.description import RigDescription
+from budget.rig.geometry import nominal_image_points, point_labels
+
+__all__ = ["GROUPS", "build_inputs"]
+
+QUANT = "pixel quantization"
+LOCK = "pixel-locking"
+NOISE = "centroid noise"
+PIVOT = "pivot estimate"
+SKEW = "camera skew"
+DIST = "lens distortion"
+TIMING = "frame timing"
+SOURCE = "input voltage source"
+READBACK = "voltage readback"
+GROUPS = (QUANT, LOCK, NOISE, PIVOT, SKEW, DIST, TIMING, SOURCE, READBACK)
+
+
+def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
+    return InputQuantity(distribution=dist, unit=unit, group=group, source=source)
+
+
+def build_inputs(
+    rig: RigDescription, type_a: dict[str, tuple[float, float, int]] | None = None
+) -> tuple[dict[str, InputQuantity], dict[tuple[str, str], float]]:
+    """All input quantities of the virtual rig and their correlations.
+
+    Parameters
+    ----------
+    rig : RigDescription
+    type_a : dict, optional
+        Per point label, (s_x/√n, s_y/√n, n) from repeated frames; replaces the
+        light-budget noise of that point by t distributions with n − 1 dof.
+
+    Returns
+    -------
+    inputs, correlation
+        Mapping of names to :class:`InputQuantity`, and ``{(a, b): r}``.
+    """
+    lm = locator_model(rig)
+    lens = rig.lens
+    n_frames = rig.frames.per_reading
+    out: dict[str, InputQuantity] = {}
+    corr: dict[tuple[str, str], float] = {}
+    loc_src = f"{rig.locator.source}; {lm.noise_formula}"
+    labels = point_labels(rig)
+    for lab in labels:
+        pivot_point = lab.startswith("C") or lab == "M"
+        for ax in ("x", "y"):
+            if lm.quantization_half_width_px > 0:
+                h = lm.quantization_half_width_px
+                out[f"quant_{ax}_{lab}"] = _q(Rectangular(-h, h), "px", PIVOT if pivot_point else QUANT,
+                                              rig.locator.source + "; integer locator, ±0.5 px")
+            if lm.locking_amplitude_px > 0:
+                a = lm.locking_amplitude_px
+                out[f"lock_{ax}_{lab}"] = _q(Arcsine(-a, a), "px", PIVOT if pivot_point else LOCK,
+                                             rig.target.source + "; sub-pixel phase unknown (arcsine)")
+            if type_a and lab in type_a:
+                sx, sy, n = type_a[lab]
+                s_ax = sx if ax == "x" else sy
+                out[f"noise_{ax}_{lab}"] = _q(StudentT(0.0, s_ax, n - 1), "px", PIVOT if pivot_point else NOISE,
+                                              f"repeated frames, n = {n} (Type A)")
+            elif lm.noise_px_per_frame > 0:
+                s = lm.noise_px_per_frame / math.sqrt(n_frames)
+                out[f"noise_{ax}_{lab}"] = _q(Normal(0.0, s), "px", PIVOT if pivot_point else NOISE,
+                                              f"{loc_src}; {n_frames} frame(s) averaged")
+            if lens.distortion == "corrected":
+                s = lens.residual_rms_px / math.sqrt(2.0)
+                out[f"resid_{ax}_{lab}"] = _q(Normal(0.0, s), "px", DIST,
+                                              lens.source + "; RMS reprojection residual / √2 per axis")
+    if lens.distortion == "corrected" and lens.residual_correlation_px > 0:
+        _residual_correlation(rig, labels, corr)
+    if lens.distortion == "uncorrected" and lens.distortion_edge_pct > 0:
+        k1 = _k1_bound(rig)
+        out["k1"] = _q(Rectangular(-k1, k1), "", DIST,
+                       lens.source + f"; ±{lens.distortion_edge_pct:g} % at the field edge, uncorrected")
+    _skew_inputs(rig, out)
+    if rig.pivot.method == "mark" and rig.pivot.mark_offset_bound_mm > 0:
+        b = rig.pivot.mark_offset_bound_mm
+        for ax in ("x", "y"):
+            out[f"mark_offset_{ax}_mm"] = _q(Rectangular(-b, b), "mm", PIVOT,
+                                             rig.pivot.source + "; mark offset from the true axis")
+    if rig.motion.state == "moving" and rig.motion.jitter_ms > 0:
+        for lab in labels:
+            if lab.startswith("P"):
+                out[f"jitter_ms_{lab}"] = _q(Normal(0.0, rig.motion.jitter_ms), "ms", TIMING,
+                                             rig.motion.source + "; timestamp jitter")
+    if rig.sweep is not None and rig.source is not None:
+        _source_inputs(rig, out)
+    return out, corr
+
+
+def _k1_bound(rig: RigDescription) -> float:
+    """k1 whose radial distortion at the sensor's corner is the datasheet percentage."""
+    cam = rig.camera
+    r_edge_px = 0.5 * math.hypot(cam.pixels_x, cam.pixels_y)
+    return rig.lens.distortion_edge_pct / 100.0 / (r_edge_px / rig.focal_px) ** 2
+
+
+def _residual_correlation(rig: RigDescription, labels, corr) -> None:
+    """Residuals of nearby points are correlated: r = exp(−d²/2L²) (assumption, per axis)."""
+    x, y = nominal_image_points(rig)
+    length = rig.lens.residual_correlation_px
+    for i, a in enumerate(labels):
+        for j in range(i + 1, len(labels)):
+            b = labels[j]
+            r = math.exp(-((x[i] - x[j]) ** 2 + (y[i] - y[j]) ** 2) / (2 * length**2))
+            if r > 1e-6:
+                for ax in ("x", "y"):
+                    corr[(f"resid_{ax}_{a}", f"resid_{ax}_{b}")] = r
+
+
+def _skew_inputs(rig: RigDescription, out: dict) -> None:
+    g = rig.geometry
+    src = g.source
+    if g.tilt_bound_deg is not None:
+        b = g.tilt_bound_deg
+        out["tilt_x_deg"] = _q(Rectangular(-b, b), "°", SKEW, src + "; tilt bound, each axis")
+        out["tilt_y_deg"] = _q(Rectangular(-b, b), "°", SKEW, src + "; tilt bound, each axis")
+    elif g.tilt_deg is not None:
+        out["tilt_deg"] = _q(Normal(g.tilt_deg, g.tilt_u_deg), "°", SKEW, src + "; measured tilt")
+        if g.tilt_azimuth_deg is None:
+            out["tilt_azimuth_deg"] = _q(Rectangular(0.0, 360.0), "°", SKEW, src + "; azimuth unknown")
+    if g.remounted:
+        b = g.roll_bound_deg
+        out["roll_deg"] = _q(Rectangular(-b, b), "°", SKEW, src + "; camera re-mounted after the zero image")
+    if g.target_height_u_mm > 0:
+        out["target_height_mm"] = _q(Normal(g.target_height_mm, g.target_height_u_mm), "mm", SKEW,
+                                     src + "; target height above the dial (parallax)")
+
+
+def _source_inputs(rig: RigDescription, out: dict) -> None:
+    s = rig.source
+    assert s is not None and rig.sweep is not None
+    src = s.source
+    if s.gain_error_pct > 0:
+        out["source_gain_pct"] = _q(Rectangular(-s.gain_error_pct, s.gain_error_pct), "%", SOURCE,
+                                    src + "; gain error, shared by all set points")
+    if s.offset_mv > 0:
+        out["source_offset_mv"] = _q(Rectangular(-s.offset_mv, s.offset_mv), "mV", SOURCE,
+                                     src + "; offset, shared by all set points")
+    if s.load_resistance_ohm is not None and s.output_impedance_ohm > 0:
+        out["source_zout_ohm"] = _q(Rectangular(0.0, s.output_impedance_ohm), "Ω", SOURCE,
+                                    src + "; output impedance into the load (divider)")
+    lsb_mv = s.lsb_v * 1e3
+    for i in range(len(rig.sweep.set_points_v)):
+        lab = f"P{i + 1}"
+        out[f"lsb_mv_{lab}"] = _q(Rectangular(-lsb_mv / 2, lsb_mv / 2), "mV", SOURCE,
+                                  src + f"; {s.bits}-bit step over {s.span_v:g} V")
+        if s.inl_lsb > 0:
+            out[f"inl_mv_{lab}"] = _q(Rectangular(-s.inl_lsb * lsb_mv, s.inl_lsb * lsb_mv), "mV", SOURCE,
+                                      src + "; integral non-linearity")
+        if s.noise_uv > 0:
+            out[f"vnoise_mv_{lab}"] = _q(Normal(0.0, s.noise_uv * 1e-3), "mV", SOURCE, src + "; output noise")
+        if s.readback == "dmm":
+            res_mv = s.dmm_resolution_v * 1e3
+            out[f"dmm_res_mv_{lab}"] = _q(Rectangular(-res_mv / 2, res_mv / 2), "mV", READBACK,
+                                          src + "; meter resolution")
+    if s.readback == "dmm":
+        if s.dmm_pct_reading > 0:
+            out["dmm_gain_pct"] = _q(Rectangular(-s.dmm_pct_reading, s.dmm_pct_reading), "%", READBACK,
+                                     src + "; meter ±% of reading, shared")
+        if s.dmm_counts > 0:
+            c = s.dmm_counts * s.dmm_resolution_v * 1e3
+            out["dmm_offset_mv"] = _q(Rectangular(-c, c), "mV", READBACK, src + "; meter ±counts, shared")

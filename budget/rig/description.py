@@ -1,0 +1,200 @@
+"""The rig description: what the user's input file says, as plain frozen dataclasses.
+
+Every section carries a ``source`` note (datasheet, certificate, measured,
+assumed) that reaches every report. Units are in the field names.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+__all__ = [
+    "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
+    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription",
+]
+
+
+@dataclass(frozen=True)
+class Camera:
+    pixels_x: int
+    pixels_y: int
+    pitch_um: float
+    bit_depth: int = 12
+    read_noise_e: float = 2.0
+    full_well_e: float = 10000.0
+    shutter: str = "global"
+    row_time_us: float = 0.0
+    frame_rate_hz: float = 30.0
+    exposure_ms: float = 5.0
+    source: str = "assumed"
+
+    @property
+    def gain_e_per_adu(self) -> float:
+        """Conversion gain that maps the full well onto the ADC range (common practice)."""
+        return self.full_well_e / (2**self.bit_depth - 1)
+
+
+@dataclass(frozen=True)
+class Lens:
+    focal_length_mm: float
+    f_number: float = 8.0
+    distortion: str = "corrected"
+    residual_rms_px: float = 0.05
+    residual_correlation_px: float = 0.0
+    distortion_edge_pct: float = 0.0
+    wavelength_nm: float = 550.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Geometry:
+    working_distance_mm: float
+    pointer_radius_mm: float
+    pivot_offset_x_mm: float = 0.0
+    pivot_offset_y_mm: float = 0.0
+    zero_direction_deg: float = 90.0
+    target_height_mm: float = 0.0
+    target_height_u_mm: float = 0.0
+    tilt_bound_deg: float | None = None
+    tilt_deg: float | None = None
+    tilt_u_deg: float | None = None
+    tilt_azimuth_deg: float | None = None
+    remounted: bool = False
+    roll_bound_deg: float = 0.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Target:
+    shape: str = "spot"
+    sigma_px: float | None = None
+    diameter_mm: float = 0.0
+    signal_e: float = 50000.0
+    background_e: float = 10.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Locator:
+    method: str = "centroid"
+    window_px: int = 9
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Pivot:
+    method: str = "readings"
+    arc_half_angle_deg: float = 45.0
+    arc_points: int = 9
+    arc_centre_deg: float | None = None
+    mark_offset_bound_mm: float = 0.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Frames:
+    per_reading: int = 1
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Motion:
+    state: str = "static"
+    rate_deg_per_s: float = 0.0
+    timestamp: str = "middle"
+    jitter_ms: float = 0.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class VoltageSource:
+    span_v: float = 20.0
+    polarity: str = "bipolar"
+    bits: int = 16
+    gain_error_pct: float = 0.0
+    offset_mv: float = 0.0
+    inl_lsb: float = 0.0
+    noise_uv: float = 0.0
+    output_impedance_ohm: float = 0.0
+    load_resistance_ohm: float | None = None
+    readback: str = "commanded"
+    dmm_pct_reading: float = 0.0
+    dmm_counts: float = 0.0
+    dmm_resolution_v: float = 1e-4
+    source: str = "assumed"
+
+    @property
+    def lsb_v(self) -> float:
+        """One step of the source's DAC, V."""
+        return self.span_v / 2**self.bits
+
+    @property
+    def range_v(self) -> tuple[float, float]:
+        """The voltages the source can command: ±span/2 (bipolar) or [0, span] (unipolar)."""
+        if self.polarity == "bipolar":
+            return -self.span_v / 2, self.span_v / 2
+        return 0.0, self.span_v
+
+
+@dataclass(frozen=True)
+class Positions:
+    angles_deg: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class Sweep:
+    set_points_v: tuple[float, ...]
+    nominal_gain_deg_per_v: float
+
+
+@dataclass(frozen=True)
+class Data:
+    readings_csv: str | None = None
+    pivot_csv: str | None = None
+
+
+@dataclass(frozen=True)
+class RigDescription:
+    """A whole rig: one instance per input file."""
+
+    title: str
+    camera: Camera
+    lens: Lens
+    geometry: Geometry
+    target: Target
+    locator: Locator
+    pivot: Pivot
+    frames: Frames
+    motion: Motion
+    source: VoltageSource | None
+    positions: Positions | None
+    sweep: Sweep | None
+    data: Data | None = None
+    raw: dict = field(default_factory=dict, compare=False, repr=False)
+
+    # ---- derived optics (pinhole with a thin lens focused at the working distance)
+    @property
+    def magnification(self) -> float:
+        """m = f/(D − f) (thin lens, common practice)."""
+        f = self.lens.focal_length_mm
+        return f / (self.geometry.working_distance_mm - f)
+
+    @property
+    def focal_px(self) -> float:
+        """Image distance in pixels: the pinhole constant of the projection."""
+        m = self.magnification
+        return m * self.geometry.working_distance_mm / (self.camera.pitch_um * 1e-3)
+
+    @property
+    def radius_px(self) -> float:
+        """Pointer radius in pixels, R·m/pitch."""
+        return self.geometry.pointer_radius_mm * self.magnification / (self.camera.pitch_um * 1e-3)
+
+    @property
+    def nominal_angles_deg(self) -> tuple[float, ...]:
+        """Angles of the readings relative to the zero image."""
+        if self.sweep is not None:
+            k = self.sweep.nominal_gain_deg_per_v
+            return tuple(k * v for v in self.sweep.set_points_v)
+        assert self.positions is not None
+        return self.positions.angles_deg

@@ -1,0 +1,134 @@
+"""Geometry of the rig, dial to image: the ONE home of the tilt and projection model.
+
+Dial frame: the dial plane is z = 0 with the pivot at the origin, z towards the camera; a dial
+angle is measured from the dial's x axis. The dial is tilted by the rotation vector (wx, wy, 0)
+(Rodrigues), shifted by the pivot's offset from the optical axis, and projected by a pinhole at
+the working distance with first-order radial distortion (Brown–Conrady k1). Image coordinates
+are px from the principal point. The virtual rig (:mod:`budget.rig.model`) calls these
+functions for every trial; nothing else in the package projects a point.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from budget.rig.description import RigDescription
+
+__all__ = ["rotate_tilt", "project", "dial_angles_deg", "point_labels", "tilt_vector", "image_points",
+           "nominal_image_points"]
+
+
+def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy: np.ndarray):
+    """Rotate points by the rotation vector (wx, wy, 0) (radians), Rodrigues' formula.
+
+    The dial plane tilted by β = |w| about the in-plane axis at azimuth
+    atan2(wy, wx). In the orthographic limit a dial angle θ is seen at θ′ with
+    tan(θ′ − φ) = cos β·tan(θ − φ) [derived].
+    """
+    beta2 = wx * wx + wy * wy
+    beta = np.sqrt(beta2)
+    c = np.cos(beta)
+    a = np.sinc(beta / np.pi)  # sin β / β, exact at β = 0
+    b = 0.5 * np.sinc(beta / (2 * np.pi)) ** 2  # (1 − cos β)/β²
+    dot = wx * x + wy * y
+    # w × v with w = (wx, wy, 0)
+    cx, cy, cz = wy * z, -wx * z, wx * y - wy * x
+    return (c * x + a * cx + b * wx * dot,
+            c * y + a * cy + b * wy * dot,
+            c * z + a * cz)
+
+
+def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
+    """Pinhole projection of points (mm, z towards the camera) to px about the principal point.
+
+    Radial lens distortion x_d = x(1 + k1·r²) on normalized coordinates
+    (Brown–Conrady, first radial term).
+    """
+    s = focal_px / (distance_mm - z)
+    u, v = s * x, s * y
+    if np.any(k1 != 0.0):
+        r2 = (u * u + v * v) / focal_px**2
+        u, v = u * (1 + k1 * r2), v * (1 + k1 * r2)
+    return u, v
+
+
+def dial_angles_deg(rig: RigDescription) -> np.ndarray:
+    """Nominal dial angles (deg, from the dial's x axis) of every located point."""
+    g = rig.geometry
+    z0 = g.zero_direction_deg
+    angles = [z0, *(z0 + a for a in rig.nominal_angles_deg)]
+    if rig.pivot.method == "arc":
+        mid = rig.pivot.arc_centre_deg
+        if mid is None:
+            nominal = rig.nominal_angles_deg
+            mid = 0.5 * (min(0.0, *nominal) + max(0.0, *nominal))
+        half = rig.pivot.arc_half_angle_deg
+        angles += list(z0 + mid + np.linspace(-half, half, rig.pivot.arc_points))
+    elif rig.pivot.method == "mark":
+        angles.append(0.0)  # placeholder: the mark's position is set in the model
+    return np.array(angles, dtype=float)
+
+
+def nominal_image_points(rig: RigDescription) -> tuple[np.ndarray, np.ndarray]:
+    """Image coordinates (px from the principal point) of every located point, no errors."""
+    x, y = image_points(rig, {}, 1, dial_angles_deg(rig))
+    return x[0], y[0]
+
+
+def point_labels(rig: RigDescription) -> tuple[str, ...]:
+    """Labels of every located point: the zero image, the readings, then pivot points."""
+    labels = ["Z", *(f"P{i + 1}" for i in range(len(rig.nominal_angles_deg)))]
+    if rig.pivot.method == "arc":
+        labels += [f"C{i + 1}" for i in range(rig.pivot.arc_points)]
+    elif rig.pivot.method == "mark":
+        labels.append("M")
+    return tuple(labels)
+
+
+def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
+    """The tilt of the dial as a rotation vector (wx, wy) in radians, each (T,).
+
+    A bound gives the two components as inputs; a measured tilt gives β and the azimuth φ
+    of the tilt axis: (wx, wy) = β(cos φ, sin φ).
+    """
+    g = rig.geometry
+    if "tilt_x_deg" in kw:
+        return np.radians(kw["tilt_x_deg"]), np.radians(kw["tilt_y_deg"])
+    if g.tilt_deg is not None:
+        beta = np.radians(kw.get("tilt_deg", np.full(t, g.tilt_deg)))
+        az = np.radians(kw["tilt_azimuth_deg"]) if "tilt_azimuth_deg" in kw \
+            else np.full(t, math.radians(g.tilt_azimuth_deg))
+        return beta * np.cos(az), beta * np.sin(az)
+    return np.zeros(t), np.zeros(t)
+
+
+def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
+                 reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Noise-free image coordinates (px from the principal point) of every located point, each (T, n_points).
+
+    ``dial_deg`` are the points' nominal dial angles (:func:`dial_angles_deg`); ``reading_deg``
+    (T, n_readings), if given, replaces the readings' angles relative to the zero direction.
+    ``kw`` holds the trial values of the geometric inputs (tilt, target height, mark offset, k1).
+    """
+    g = rig.geometry
+    n_read = len(rig.nominal_angles_deg)
+    r_mm = g.pointer_radius_mm
+    h = kw.get("target_height_mm", np.full(t, g.target_height_mm))[:, None]
+    dial = np.broadcast_to(np.radians(dial_deg), (t, dial_deg.size)).copy()
+    if reading_deg is not None:
+        dial[:, 1:1 + n_read] = np.radians(g.zero_direction_deg + reading_deg)
+    x = r_mm * np.cos(dial)
+    y = r_mm * np.sin(dial)
+    z = np.broadcast_to(h, dial.shape).copy()
+    if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
+        x[:, -1] = kw.get("mark_offset_x_mm", 0.0)
+        y[:, -1] = kw.get("mark_offset_y_mm", 0.0)
+        z[:, -1] = 0.0
+    wx, wy = tilt_vector(rig, kw, t)
+    xr, yr, zr = rotate_tilt(x, y, z, wx[:, None], wy[:, None])
+    xr = xr + g.pivot_offset_x_mm
+    yr = yr + g.pivot_offset_y_mm
+    k1 = kw["k1"][:, None] if "k1" in kw else 0.0
+    return project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)

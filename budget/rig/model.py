@@ -1,0 +1,149 @@
+"""The virtual rig: one vectorized function from error sources to the reported numbers.
+
+true pointer angles -> dial-plane target points -> camera projection (tilt,
+pivot off-axis, parallax) -> lens distortion -> pixel coordinates -> locator
+errors -> the pivot as the user finds it -> atan2 angle about the estimated pivot
+relative to the zero image -> timing -> (sweep) straight-line fit of angle against
+voltage -> outputs.
+
+The same :class:`VirtualRig` instance is differentiated by the linear method and
+sampled by Monte Carlo, so the two methods cannot disagree about the model.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from budget.fit import ols_batch
+from budget.rig.description import RigDescription
+from budget.rig.geometry import dial_angles_deg, image_points, point_labels
+from budget.rig.pivot import fit_circle
+
+__all__ = ["VirtualRig"]
+
+
+class VirtualRig:
+    """The measurement model of one rig as a vectorized callable.
+
+    Called with keyword arrays named like :func:`budget.rig.components.build_inputs`
+    (every array of one length T), it returns ``{"P1": angle_deg, …}`` and, for a
+    sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
+    """
+
+    def __init__(self, rig: RigDescription) -> None:
+        self.rig = rig
+        self.labels = point_labels(rig)
+        self.n_read = len(rig.nominal_angles_deg)
+        self.nominal_deg = np.array(rig.nominal_angles_deg)
+        self.dial_deg = dial_angles_deg(rig)
+        cam = rig.camera
+        self.pitch_mm = cam.pitch_um * 1e-3
+        m = rig.motion
+        self.rate = m.rate_deg_per_s if m.state == "moving" else 0.0
+        self.stamp_offset_s = 0.5 * cam.exposure_ms * 1e-3 if m.timestamp == "start" else 0.0
+
+    # ---- pieces of the chain -------------------------------------------------------
+    def _true_reading_angles(self, kw: dict, t: int) -> np.ndarray:
+        """True pointer angles of the readings relative to the zero image, (T, n) deg."""
+        rig = self.rig
+        if rig.sweep is None:
+            return np.broadcast_to(np.array(rig.nominal_angles_deg), (t, self.n_read))
+        return rig.sweep.nominal_gain_deg_per_v * self._actual_volts(kw, t)
+
+    def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
+        """Voltage at the pointer for each set point, (T, n) V."""
+        rig = self.rig
+        s = rig.source
+        v = np.broadcast_to(np.array(rig.sweep.set_points_v), (t, self.n_read)).copy()
+        for name in ("lsb_mv", "inl_mv", "vnoise_mv"):
+            for i in range(self.n_read):
+                key = f"{name}_P{i + 1}"
+                if key in kw:
+                    v[:, i] += kw[key] * 1e-3
+        if "source_gain_pct" in kw:
+            v *= (1.0 + kw["source_gain_pct"] * 1e-2)[:, None]
+        if "source_offset_mv" in kw:
+            v += (kw["source_offset_mv"] * 1e-3)[:, None]
+        if "source_zout_ohm" in kw and s.load_resistance_ohm is not None:
+            rl = s.load_resistance_ohm
+            v *= (rl / (rl + kw["source_zout_ohm"]))[:, None]
+        return v
+
+    def _fit_volts(self, kw: dict, t: int, v_actual: np.ndarray) -> np.ndarray:
+        """The x values of the user's fit: commanded set points or the meter's readings."""
+        rig = self.rig
+        if rig.source is None or rig.source.readback == "commanded":
+            return np.array(rig.sweep.set_points_v)
+        x = v_actual.copy()
+        if "dmm_gain_pct" in kw:
+            x *= (1.0 + kw["dmm_gain_pct"] * 1e-2)[:, None]
+        if "dmm_offset_mv" in kw:
+            x += (kw["dmm_offset_mv"] * 1e-3)[:, None]
+        for i in range(self.n_read):
+            key = f"dmm_res_mv_P{i + 1}"
+            if key in kw:
+                x[:, i] += kw[key] * 1e-3
+        return x
+
+    def _locator_errors(self, kw: dict, u: np.ndarray, v: np.ndarray) -> None:
+        for j, lab in enumerate(self.labels):
+            for ax, arr in (("x", u), ("y", v)):
+                for kind in ("quant", "lock", "noise", "resid"):
+                    key = f"{kind}_{ax}_{lab}"
+                    if key in kw:
+                        arr[:, j] += kw[key]
+
+    # ---- the model ---------------------------------------------------------------
+    def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
+        t = len(next(iter(kw.values()))) if kw else 1
+        kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
+        true_deg = self._true_reading_angles(kw, t)
+        u, v = image_points(self.rig, kw, t, self.dial_deg,
+                            reading_deg=true_deg if self.rig.sweep is not None else None)
+        u, v = u.copy(), v.copy()
+        if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
+            r = np.radians(kw["roll_deg"])
+            u0, v0 = u[:, 0].copy(), v[:, 0].copy()
+            u[:, 0] = np.cos(r) * u0 - np.sin(r) * v0
+            v[:, 0] = np.sin(r) * u0 + np.cos(r) * v0
+        self._locator_errors(kw, u, v)
+        xc, yc = self._pivot(u, v)
+        rx, ry = u - xc[:, None], v - yc[:, None]
+        x0, y0 = rx[:, :1], ry[:, :1]
+        xs, ys = rx[:, 1:1 + self.n_read], ry[:, 1:1 + self.n_read]
+        angle = np.degrees(np.arctan2(x0 * ys - y0 * xs, x0 * xs + y0 * ys))
+        # atan2 answers in (−180°, 180°]; the user's reading is the branch nearest its nominal.
+        angle = self.nominal_deg + (angle - self.nominal_deg + 180.0) % 360.0 - 180.0
+        angle = angle + self._timing_deg(kw, t, v[:, 1:1 + self.n_read])
+        out = {f"P{i + 1}": angle[:, i] for i in range(self.n_read)}
+        if self.rig.sweep is not None:
+            x = self._fit_volts(kw, t, self._actual_volts(kw, t))
+            slope, intercept = ols_batch(x, angle)
+            out["gain"] = slope
+            out["intercept"] = intercept
+        return out
+
+    def _pivot(self, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        method = self.rig.pivot.method
+        if method == "mark":
+            return u[:, -1], v[:, -1]
+        if method == "arc":
+            xc, yc, _ = fit_circle(u[:, 1 + self.n_read:], v[:, 1 + self.n_read:])
+            return xc, yc
+        xc, yc, _ = fit_circle(u[:, :1 + self.n_read], v[:, :1 + self.n_read])
+        return xc, yc
+
+    def _timing_deg(self, kw: dict, t: int, v_px: np.ndarray) -> np.ndarray:
+        """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
+        if self.rate == 0.0:
+            return np.zeros((t, self.n_read))
+        cam = self.rig.camera
+        delay = np.full((t, self.n_read), self.stamp_offset_s)
+        if cam.shutter == "rolling":
+            rows = 0.5 * cam.pixels_y - v_px  # rows counted from the top of the sensor
+            delay = delay + rows * cam.row_time_us * 1e-6
+        for i in range(self.n_read):
+            key = f"jitter_ms_P{i + 1}"
+            if key in kw:
+                delay[:, i] += kw[key] * 1e-3
+        return self.rate * delay
