@@ -1,7 +1,8 @@
 """The ``thetabudget`` command: a thin layer over the library.
 
 Only :func:`main` turns exceptions into exit codes: 0 success, 1 a failed
-selftest, 2 bad input (one line on stderr naming the field; nothing written).
+selftest, 2 bad input or an input the computation cannot handle (one line on stderr naming
+the field; nothing written).
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from pathlib import Path
 
 from budget import __version__
 from budget.commands.new import STARTERS
-from budget.errors import BudgetInputError
+from budget.errors import BudgetComputationError, BudgetInputError
 
 __all__ = ["main", "build_parser"]
 
@@ -161,6 +162,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(module.execute(args))
     except BudgetInputError as exc:
+        print(f"thetabudget: error: {exc}", file=sys.stderr)
+        return 2
+    except BudgetComputationError as exc:  # the input made the computation impossible
         print(f"thetabudget: error: {exc}", file=sys.stderr)
         return 2
     except BrokenPipeError:  # output piped into a reader that stopped early (e.g. head)

@@ -42,6 +42,7 @@ class ComponentLine:
     mc_u: float | None
     sources: tuple[str, ...]
     inputs: tuple[str, ...]
+    description: str = ""
 
 
 @dataclass(frozen=True)
@@ -97,6 +98,15 @@ class RunResult:
     locator_notes: tuple[str, ...]
     joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
     mode: str = "design"  # "design": outputs are what the rig would read; "evaluation": true values
+
+    def component_descriptions(self) -> dict[str, str]:
+        """Every component shown in the budgets, in order of first appearance, with what it is."""
+        out: dict[str, str] = {}
+        for ob in self.outputs:
+            for c in ob.components:
+                if c.description and c.name not in out:
+                    out[c.name] = c.description
+        return out
 
     @property
     def outputs(self) -> tuple[OutputBudget, ...]:

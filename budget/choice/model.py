@@ -13,14 +13,12 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import erf, j1
 from scipy.stats import norm
 
 from budget.imaging import optics, spot
 from budget.inputs.choose_file import ChooseSpec
 
-__all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates",
-           "window_truncation_max"]
+__all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates"]
 
 COMPONENTS = ("pixel quantization", "pixel-locking", "centroid noise", "pivot estimate", "camera skew",
               "lens distortion", "frame timing")
@@ -188,37 +186,6 @@ class Prediction:
     limiting: tuple[str, ...]
 
 
-def window_truncation_max(sigma_px: np.ndarray, window_px: np.ndarray, n_delta: int = 51) -> np.ndarray:
-    """Largest extra centre-of-mass bias of a finite window over the sub-pixel phase, px (vectorized).
-
-    Notes
-    -----
-    Same quantity as :func:`budget.imaging.spot.window_truncation_bias` (exact erf pixel
-    values of one axis; windowed centre of mass minus the unbounded harmonic series), for arrays
-    of σ and window sizes; the bias is odd in δ, so δ runs over [0, 1/2].
-    """
-    s = np.asarray(sigma_px, dtype=float)
-    w = np.asarray(window_px, dtype=int)
-    out = np.zeros(s.shape)
-    need = w < 12.0 * s + 1.0  # beyond this the truncation is below 1e-8 px
-    if not np.any(need):
-        return out
-    s_n, w_n = s[need], w[need]
-    half = (int(w_n.max()) - 1) // 2
-    d = np.linspace(0.0, 0.5, n_delta)
-    j = np.arange(-half, half + 1, dtype=float)
-    inside = (np.abs(j)[None, :] <= ((w_n - 1) // 2)[:, None])[:, None, :]  # (c, 1, J)
-    x = j[None, None, :] - d[None, :, None]
-    r2s = (math.sqrt(2.0) * s_n)[:, None, None]
-    f = 0.5 * (erf((x + 0.5) / r2s) - erf((x - 0.5) / r2s)) * inside
-    windowed = np.sum(j * f, axis=2) / np.sum(f, axis=2) - d[None, :]
-    kk = np.arange(1, 11, dtype=float)[:, None, None]
-    series = np.sum((-1.0) ** kk * np.sin(2 * np.pi * kk * d[None, None, :]) / (np.pi * kk)
-                    * np.exp(-2 * np.pi**2 * kk**2 * s_n[None, :, None] ** 2), axis=0)
-    out[need] = np.max(np.abs(windowed - series), axis=1)
-    return out
-
-
 def _layout(spec: ChooseSpec, cand: Candidates):
     """Working distance, focal length and magnification that fit the dial (and margin) in the short side."""
     sc = spec.scene
@@ -227,7 +194,7 @@ def _layout(spec: ChooseSpec, cand: Candidates):
     m_fit = short_mm / field
     d_min, d_max = sc["working_distance_min_mm"], sc["working_distance_max_mm"]
     auto = np.isnan(cand.focal_length_mm)
-    f = np.where(auto, d_max * m_fit / (1.0 + m_fit), cand.focal_length_mm)  # farthest: least perspective
+    f = np.where(auto, optics.focal_length_to_fit(field, short_mm, d_max), cand.focal_length_mm)  # farthest
     d_fit = f * (1.0 + m_fit) / m_fit  # distance at which the field just fills the short side
     dist = np.clip(d_fit, d_min, d_max)
     fits = d_fit <= d_max * (1 + 1e-12)
@@ -270,7 +237,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     sc, tg, lt, lo, mo = spec.scene, spec.target, spec.light, spec.locator, spec.motion
     field, f, dist, m, fits = _layout(spec, cand)
     pitch_mm = cand.pitch_um * 1e-3
-    mm_per_px = pitch_mm / m
+    mm_per_px = optics.object_pixel_mm(cand.pitch_um, m)
     r_px = sc["pointer_radius_mm"] / mm_per_px
     nw = optics.working_f_number(cand.f_number, m)
     s_diff = optics.psf_sigma_um(tg["wavelength_nm"], nw) / cand.pitch_um
@@ -284,7 +251,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     if omega > 0:
         t_ms = np.minimum(t_ms, 1e3 * mo["max_blur_px"] / (omega * r_px))
     scale = (lt["reference_f_number"] / cand.f_number) ** 2
-    peak_frac = erf(1.0 / (2.0 * math.sqrt(2.0) * sigma)) ** 2
+    peak_frac = spot.peak_fraction(sigma)
     peak_per_ms = scale * (lt["signal_e_per_ms"] * peak_frac + lt["background_e_per_um2_per_ms"] * cand.pitch_um**2)
     t_ms = np.minimum(t_ms, cand.full_well_e / peak_per_ms)
     signal = lt["signal_e_per_ms"] * scale * t_ms
@@ -297,18 +264,16 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     zero = np.zeros(sigma.shape)
     quant, lock, noise = zero, zero, zero
     if method == "integer":
-        quant = np.full(sigma.shape, 0.25 / 3.0)
+        quant = np.full(sigma.shape, spot.integer_quantization_variance())
     elif method == "fit":
         noise = spot.mortensen_variance(sigma, 1.0, signal, b2)
     else:
-        wf = window.astype(float)
-        noise = (sigma**2 + 1.0 / 12.0) / signal + b2 * wf**2 * (wf**2 - 1.0) / (12.0 * signal**2)
+        noise = spot.com_variance(sigma, signal, b2, window)
         if tg["shape"] == "disk":
-            x = math.pi * disk_px
-            amp = np.abs(2 * j1(x) / x) * np.exp(-2 * np.pi**2 * (s_diff**2 + t_spot**2)) / np.pi
+            amp = spot.disk_locking_amplitude(disk_px, np.sqrt(s_diff**2 + t_spot**2))
         else:
             amp = spot.pixel_locking_amplitude(sigma)
-        amp = amp + window_truncation_max(sigma, window)
+        amp = amp + spot.window_truncation_max(sigma, window)
         lock = amp**2 / 2.0
     noise_px = np.sqrt(noise)
     noise = noise / lo["frames_per_reading"]
@@ -345,7 +310,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     # checks
     dof = optics.depth_of_field_mm(cand.f_number, lo["coc_px"] * pitch_mm, m)
     dof_need = sc["dial_diameter_mm"] * math.sin(beta) + sc["target_height_mm"]
-    blur = omega * t_ms * 1e-3 * r_px
+    blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
     fr_need = abs(mo["rate_deg_per_s"]) / mo["sample_step_deg"]
     fr_ok = cand.max_frame_rate_hz >= fr_need
     dof_ok = dof >= dof_need

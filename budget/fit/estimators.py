@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from budget.errors import field_error
+from budget.errors import BudgetComputationError, field_error
 from budget.fit import _checks
 from budget.fit.line import StraightLine
 
@@ -16,7 +16,7 @@ YORK_MAX_ITER = 200
 _WHERE = "straight_line"
 
 
-class FitConvergenceError(RuntimeError):
+class FitConvergenceError(BudgetComputationError):
     """An iterative fit did not reach its tolerance within its iteration cap."""
 
 

@@ -11,8 +11,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import numpy as np
-
 from budget.imaging import optics, spot
 from budget.rig.description import RigDescription
 
@@ -74,7 +72,7 @@ def locator_model(rig: RigDescription) -> LocatorModel:
             "shorten the exposure or dim the light."
         )
     if loc.method == "integer":
-        return LocatorModel(0.5, 0.0, 0.0, "integer peak", s,
+        return LocatorModel(spot.INTEGER_HALF_WIDTH_PX, 0.0, 0.0, "integer peak", s,
                             ("integer-pixel locator: error uniform over one pixel (JCGM 100 F.2.2.1)", *notes))
     if loc.method == "fit":
         var = float(spot.mortensen_variance(s, 1.0, t.signal_e, b2))
@@ -86,8 +84,7 @@ def locator_model(rig: RigDescription) -> LocatorModel:
         amp = _disk_locking_amplitude(rig)
     else:
         amp = float(spot.pixel_locking_amplitude(s))
-    deltas = np.linspace(-0.5, 0.5, 101)
-    trunc = float(np.max(np.abs(spot.window_truncation_bias(deltas, s, loc.window_px))))
+    trunc = float(spot.window_truncation_max(s, loc.window_px))
     if loc.window_px < 6 * s + 1:
         notes.append(
             f"The centroid window ({loc.window_px} px) is narrower than 6σ + 1 = {6 * s + 1:.1f} px: "
@@ -107,7 +104,7 @@ def peak_electrons(rig: RigDescription) -> float:
     """
     t = rig.target
     s = spot_sigma_px(rig)
-    frac = math.erf(0.5 / (math.sqrt(2.0) * s)) ** 2
+    frac = float(spot.peak_fraction(s))
     if t.shape == "disk":
         d_px = t.diameter_mm * rig.magnification / (rig.camera.pitch_um * 1e-3)
         frac = min(frac, 1.0 / max(math.pi * d_px**2 / 4.0, 1.0)) if d_px > 1 else frac
@@ -115,23 +112,11 @@ def peak_electrons(rig: RigDescription) -> float:
 
 
 def _disk_locking_amplitude(rig: RigDescription) -> float:
-    """Leading pixel-locking harmonic of a blurred uniform disk, px.
-
-    Notes
-    -----
-    [derived] As for the Gaussian (Poisson summation over pixel-integrated
-    samples), the k-th harmonic of the centre-of-mass bias is (1/πk)·|F(k)/F(0)|,
-    F the Fourier transform of the spot's marginal profile. For a uniform disk of
-    radius a blurred by a Gaussian of σ_b: F(k)/F(0) = 2J1(2πka)/(2πka)·exp(−2π²k²σ_b²).
-    """
-    from scipy.special import j1
-
+    """Leading pixel-locking harmonic of the rig's disk target (:func:`spot.disk_locking_amplitude`)."""
     t = rig.target
-    pitch_mm = rig.camera.pitch_um * 1e-3
-    a = 0.5 * t.diameter_mm * rig.magnification / pitch_mm
+    d_px = t.diameter_mm * rig.magnification / (rig.camera.pitch_um * 1e-3)
     if t.sigma_px is not None:
         blur = t.sigma_px
     else:  # the diffraction spot alone: the rig's sigma without the disk's own second moment
-        blur = math.sqrt(max(spot_sigma_px(rig) ** 2 - a**2 / 4.0, 0.0))
-    x = 2 * math.pi * a
-    return float(abs(2 * j1(x) / x) * math.exp(-2 * math.pi**2 * blur**2) / math.pi)
+        blur = math.sqrt(max(spot_sigma_px(rig) ** 2 - d_px**2 / 16.0, 0.0))
+    return float(spot.disk_locking_amplitude(d_px, blur))

@@ -24,13 +24,11 @@ from budget.errors import field_error
 __all__ = [
     "airy_radius_um",
     "depth_of_field_mm",
-    "field_of_view_mm",
     "focal_length_to_fit",
     "image_distance_mm",
     "magnification",
     "motion_blur_px",
     "object_pixel_mm",
-    "parallax_shift",
     "psf_sigma_um",
     "spot_sigma_px",
     "working_f_number",
@@ -109,24 +107,6 @@ def object_pixel_mm(pitch_um: ArrayLike, magnification: ArrayLike) -> NDArray:
     p = _pos(pitch_um, "pitch_um", "object_pixel_mm")
     m = _pos(magnification, "magnification", "object_pixel_mm")
     return 1e-3 * p / m
-
-
-def field_of_view_mm(sensor_mm: ArrayLike, magnification: ArrayLike) -> NDArray:
-    """Field of view on the object, sensor size / m, in mm.
-
-    Parameters
-    ----------
-    sensor_mm, magnification : array_like
-        Sensor width, height or diagonal in mm (> 0), and lateral magnification m (> 0).
-
-    Returns
-    -------
-    ndarray
-        The matching object-side extent in mm ([derived] from the definition of m).
-    """
-    s = _pos(sensor_mm, "sensor_mm", "field_of_view_mm")
-    m = _pos(magnification, "magnification", "field_of_view_mm")
-    return s / m
 
 
 def focal_length_to_fit(field_mm: ArrayLike, sensor_mm: ArrayLike,
@@ -272,32 +252,6 @@ def motion_blur_px(omega_rad_s: ArrayLike, exposure_s: ArrayLike,
     t = _arr(exposure_s, "exposure_s", "a number >= 0", lambda a: a >= 0, "motion_blur_px")
     r = _pos(radius_px, "radius_px", "motion_blur_px")
     return w * t * r
-
-
-def parallax_shift(rho: ArrayLike, height_mm: ArrayLike, distance_mm: ArrayLike) -> NDArray:
-    """Apparent radial shift of a target at height h above a mark at image radius rho.
-
-    Parameters
-    ----------
-    rho, height_mm, distance_mm : array_like
-        Radial image position of the mark from the principal point (any unit, e.g. px);
-        height h of the target above the dial plane toward the camera (< D); distance D
-        from the lens to the dial plane (> 0).
-
-    Returns
-    -------
-    ndarray
-        rho h / (D - h), outward for h > 0, in the unit of rho.
-
-    Notes
-    -----
-    [derived] Similar triangles: a lateral offset X images at f X / D on the dial and at
-    f X / (D - h) at height h; the difference is rho (D / (D - h) - 1).
-    """
-    d = _pos(distance_mm, "distance_mm", "parallax_shift")
-    h = _arr(height_mm, "height_mm", "a number < distance_mm", lambda a: a < d,
-             "parallax_shift")
-    return np.asarray(rho, dtype=float) * h / (d - h)
 
 
 def spot_sigma_px(wavelength_nm, f_number, magnification, pitch_um, target_sigma_px=0.0, disk_diameter_px=0.0):

@@ -28,6 +28,8 @@ What the derivation found (checked to 1e-14 px against noiseless renders in
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from numpy.typing import ArrayLike
 from scipy.special import erf
@@ -35,12 +37,16 @@ from scipy.special import erf
 from budget.errors import field_error
 
 __all__ = [
+    "INTEGER_HALF_WIDTH_PX",
     "adc_variance_e2",
     "com_variance",
+    "disk_locking_amplitude",
+    "integer_quantization_variance",
+    "peak_fraction",
+    "window_truncation_max",
     "mortensen_variance",
     "pixel_locking_amplitude",
     "pixel_locking_bias",
-    "thompson_variance",
     "window_truncation_bias",
 ]
 
@@ -59,39 +65,6 @@ def _check_non_negative(value, field: str, where: str) -> np.ndarray:
     if not np.all(np.isfinite(v)) or np.any(v < 0):
         raise field_error(field, "a number >= 0", value, where)
     return v
-
-
-def thompson_variance(s_px: ArrayLike, a_px: ArrayLike, N: ArrayLike, b: ArrayLike) -> np.ndarray:
-    """Localization variance of a Gaussian spot, Thompson, Larson & Webb 2002.
-
-    Parameters
-    ----------
-    s_px : float or array_like
-        Standard deviation of the spot, px.
-    a_px : float or array_like
-        Pixel size (1 when working in px).
-    N : float or array_like
-        Number of detected photons (electrons) in the spot.
-    b : float or array_like
-        Background noise per pixel, standard deviation in photons (for a
-        shot-noise-limited background, the square root of the background
-        photons per pixel).
-
-    Returns
-    -------
-    numpy.ndarray or float
-        Variance of one coordinate, px^2.
-
-    Notes
-    -----
-    Thompson, Larson & Webb 2002, Biophys. J. 82:2775, eq. (14):
-    ``<dx^2> = (s^2 + a^2/12)/N + 8 pi s^4 b^2 / (a^2 N^2)``.
-    """
-    s = _check_positive(s_px, "s_px", "thompson_variance")
-    a = _check_positive(a_px, "a_px", "thompson_variance")
-    n = _check_positive(N, "N", "thompson_variance")
-    b = _check_non_negative(b, "b", "thompson_variance")
-    return (s**2 + a**2 / 12.0) / n + 8.0 * np.pi * s**4 * b**2 / (a**2 * n**2)
 
 
 def mortensen_variance(s_px: ArrayLike, a_px: ArrayLike, N: ArrayLike,
@@ -140,7 +113,7 @@ def com_variance(s_px: ArrayLike, N: ArrayLike, b2: ArrayLike, window_px: int) -
     b2 : float or array_like
         Background variance per pixel, photons^2 (plus read noise^2 and the
         ADC step g^2/12 if any, see :func:`adc_variance_e2`).
-    window_px : int
+    window_px : int or array_like of int
         Odd side of the square window, centred on the spot.
 
     Returns
@@ -158,9 +131,10 @@ def com_variance(s_px: ArrayLike, N: ArrayLike, b2: ArrayLike, window_px: int) -
     s = _check_positive(s_px, "s_px", "com_variance")
     n = _check_positive(N, "N", "com_variance")
     b2 = _check_non_negative(b2, "b2", "com_variance")
-    if int(window_px) != window_px or window_px < 1 or window_px % 2 == 0:
+    w = np.asarray(window_px)
+    if not np.all((w == np.round(w)) & (w >= 1) & (w % 2 == 1)):
         raise field_error("window_px", "an odd integer >= 1", window_px, "com_variance")
-    w = float(window_px)
+    w = w.astype(float)
     return (s**2 + 1.0 / 12.0) / n + b2 * w**2 * (w**2 - 1.0) / (12.0 * n**2)
 
 
@@ -297,3 +271,77 @@ def window_truncation_bias(delta: ArrayLike, sigma_px: float, window_px: int) ->
     f = 0.5 * (erf((u + 0.5) / (np.sqrt(2.0) * s)) - erf((u - 0.5) / (np.sqrt(2.0) * s)))
     windowed = np.sum(j * f, axis=0) / np.sum(f, axis=0) - d
     return windowed - pixel_locking_bias(d, s)
+
+
+INTEGER_HALF_WIDTH_PX = 0.5
+"""The integer locator's error bound: the located pixel is within half a pixel of the centre."""
+
+
+def integer_quantization_variance() -> float:
+    """Variance per axis of the integer locator over a random sub-pixel phase, px².
+
+    Notes
+    -----
+    Rectangular on ±1/2 px: (1/2)²/3 = 1/12 (JCGM 100 4.3.7, F.2.2.1).
+    """
+    return INTEGER_HALF_WIDTH_PX**2 / 3.0
+
+
+def peak_fraction(sigma_px: ArrayLike) -> np.ndarray:
+    """Fraction of a pixel-integrated Gaussian spot's signal in its brightest pixel, centred on it.
+
+    Notes
+    -----
+    [derived] The central pixel holds erf(1/(2√2σ))² of the signal (separable erf integral).
+    """
+    s = _check_positive(sigma_px, "sigma_px", "peak_fraction")
+    return erf(0.5 / (np.sqrt(2.0) * s)) ** 2
+
+
+def disk_locking_amplitude(diameter_px: ArrayLike, blur_sigma_px: ArrayLike) -> np.ndarray:
+    """Leading pixel-locking harmonic of a uniform disk blurred by a Gaussian, px.
+
+    Notes
+    -----
+    [derived] As for the Gaussian (Poisson summation over pixel-integrated samples), the k-th
+    harmonic of the centre-of-mass bias is (1/πk)·|F(k)/F(0)|, F the Fourier transform of the
+    spot's marginal profile. For a uniform disk of radius a blurred by a Gaussian of σ_b:
+    F(k)/F(0) = 2J1(2πka)/(2πka)·exp(−2π²k²σ_b²).
+    """
+    from scipy.special import j1
+
+    d = _check_positive(diameter_px, "diameter_px", "disk_locking_amplitude")
+    b = _check_non_negative(blur_sigma_px, "blur_sigma_px", "disk_locking_amplitude")
+    x = np.pi * d
+    return np.abs(2 * j1(x) / x) * np.exp(-2 * np.pi**2 * b**2) / np.pi
+
+
+def window_truncation_max(sigma_px: np.ndarray, window_px: np.ndarray, n_delta: int = 51) -> np.ndarray:
+    """Largest extra centre-of-mass bias of a finite window over the sub-pixel phase, px (vectorized).
+
+    Notes
+    -----
+    Same quantity as :func:`window_truncation_bias` (exact erf pixel
+    values of one axis; windowed centre of mass minus the unbounded harmonic series), for arrays
+    of σ and window sizes; the bias is odd in δ, so δ runs over [0, 1/2].
+    """
+    s = np.asarray(sigma_px, dtype=float)
+    w = np.asarray(window_px, dtype=int)
+    out = np.zeros(s.shape)
+    need = w < 12.0 * s + 1.0  # beyond this the truncation is below 1e-8 px
+    if not np.any(need):
+        return out
+    s_n, w_n = s[need], w[need]
+    half = (int(w_n.max()) - 1) // 2
+    d = np.linspace(0.0, 0.5, n_delta)
+    j = np.arange(-half, half + 1, dtype=float)
+    inside = (np.abs(j)[None, :] <= ((w_n - 1) // 2)[:, None])[:, None, :]  # (c, 1, J)
+    x = j[None, None, :] - d[None, :, None]
+    r2s = (math.sqrt(2.0) * s_n)[:, None, None]
+    f = 0.5 * (erf((x + 0.5) / r2s) - erf((x - 0.5) / r2s)) * inside
+    windowed = np.sum(j * f, axis=2) / np.sum(f, axis=2) - d[None, :]
+    kk = np.arange(1, 11, dtype=float)[:, None, None]
+    series = np.sum((-1.0) ** kk * np.sin(2 * np.pi * kk * d[None, None, :]) / (np.pi * kk)
+                    * np.exp(-2 * np.pi**2 * kk**2 * s_n[None, :, None] ** 2), axis=0)
+    out[need] = np.max(np.abs(windowed - series), axis=1)
+    return out

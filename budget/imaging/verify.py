@@ -14,6 +14,7 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from budget.errors import field_error
+from budget.imaging import spot
 from budget.imaging.locate import centre_of_mass, gaussian_fit, integer_peak
 from budget.imaging.locator_model import LocatorModel, locator_model
 from budget.imaging.render import render_target
@@ -145,7 +146,7 @@ def verify_locator(rig: RigDescription, *, renders: int, rng: np.random.Generato
                        f"px assumed (±{amp_se:.2g} px standard error): {'supported' if ok_l else 'NOT supported'}.")
     if s_rend != s_model:
         verdict.append(f"Rendered with σ = {s_rend:g} px where the rig states {s_model:g} px.")
-    peak = t.signal_e * math.erf(1.0 / (2.0 * math.sqrt(2.0) * s_rend)) ** 2 + t.background_e
+    peak = t.signal_e * float(spot.peak_fraction(s_rend)) + t.background_e
     if peak > cam.full_well_e:
         verdict.append(f"The brightest pixel holds about {peak:.3g} e, above the full well ({cam.full_well_e:g} e): "
                        "saturation, which the budget's formulas do not describe.")

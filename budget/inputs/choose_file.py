@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from budget.errors import BudgetInputError, field_error
-from budget.inputs.rig_file import Field, _coerce, _suggest
+from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
 
 __all__ = ["CAMERA_COLUMNS", "ChooseSpec", "CameraTable", "LensList", "SCHEMA", "load_choose", "parse_choose",
            "read_cameras_csv"]
@@ -27,101 +27,85 @@ CAMERA_COLUMNS = ("name", "pixels_x", "pixels_y", "pitch_um", "bit_depth", "read
                   "max_frame_rate_hz", "shutter", "price")
 
 
-def _num(allowed: str, ok, required: bool = False) -> Field:
-    return Field("float", allowed, ok, required)
-
-
-def _pos(required: bool = False) -> Field:
-    return _num("a number > 0", lambda v: v > 0, required)
-
-
-def _nonneg(required: bool = False) -> Field:
-    return _num("a number >= 0", lambda v: v >= 0, required)
-
-
-def _choice(*options: str) -> Field:
-    return Field("str", "one of " + ", ".join(repr(o) for o in options), lambda v: v in options)
-
-
 _SOURCE = Field("str", "a text note (datasheet, drawing, measured, assumed)")
 _ANGLES = Field("floats", "a list of angles in (-360, 360)", lambda v: all(-360 < a < 360 for a in v))
 
 SCHEMA: dict[str, dict[str, Field]] = {
     "scene": {
-        "pointer_radius_mm": _pos(True),
-        "dial_diameter_mm": _pos(True),
-        "field_margin_pct": _num("a number in [0, 100]", lambda v: 0 <= v <= 100),
-        "working_distance_min_mm": _pos(True),
-        "working_distance_max_mm": _pos(True),
-        "pivot_offset_x_mm": _num("a finite number", math.isfinite),
-        "pivot_offset_y_mm": _num("a finite number", math.isfinite),
-        "zero_direction_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
-        "tilt_bound_deg": _num("a number in [0, 30]", lambda v: 0 <= v <= 30),
-        "target_height_mm": _nonneg(),
+        "pointer_radius_mm": positive(True),
+        "dial_diameter_mm": positive(True),
+        "field_margin_pct": number("a number in [0, 100]", lambda v: 0 <= v <= 100),
+        "working_distance_min_mm": positive(True),
+        "working_distance_max_mm": positive(True),
+        "pivot_offset_x_mm": number("a finite number", math.isfinite),
+        "pivot_offset_y_mm": number("a finite number", math.isfinite),
+        "zero_direction_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "tilt_bound_deg": number("a number in [0, 30]", lambda v: 0 <= v <= 30),
+        "target_height_mm": non_negative(),
         "source": _SOURCE,
     },
     "target": {
-        "shape": _choice("spot", "disk"),
-        "sigma_mm": _nonneg(),
-        "diameter_mm": _nonneg(),
-        "wavelength_nm": _num("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
+        "shape": choice("spot", "disk"),
+        "sigma_mm": non_negative(),
+        "diameter_mm": non_negative(),
+        "wavelength_nm": number("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
         "source": _SOURCE,
     },
     "light": {
-        "signal_e_per_ms": _pos(True),
-        "background_e_per_um2_per_ms": _nonneg(),
-        "reference_f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
-        "exposure_ms": _pos(True),
+        "signal_e_per_ms": positive(True),
+        "background_e_per_um2_per_ms": non_negative(),
+        "reference_f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
+        "exposure_ms": positive(True),
         "source": _SOURCE,
     },
     "locator": {
-        "method": _choice("integer", "centroid", "fit"),
+        "method": choice("integer", "centroid", "fit"),
         "window_px": Field("int", "an odd integer in [3, 255], or 0 for automatic (smallest odd >= 8 sigma + 1)",
                            lambda v: v == 0 or (3 <= v <= 255 and v % 2 == 1)),
         "frames_per_reading": Field("int", "an integer in [1, 100000]", lambda v: 1 <= v <= 100_000),
-        "distortion_residual_rms_px": _nonneg(),
-        "coc_px": _num("a number in (0, 100]", lambda v: 0 < v <= 100),
+        "distortion_residual_rms_px": non_negative(),
+        "coc_px": number("a number in (0, 100]", lambda v: 0 < v <= 100),
         "source": _SOURCE,
     },
     "pivot": {
-        "method": _choice("readings", "arc", "mark"),
-        "arc_half_angle_deg": _num("a number in (0, 180]", lambda v: 0 < v <= 180),
+        "method": choice("readings", "arc", "mark"),
+        "arc_half_angle_deg": number("a number in (0, 180]", lambda v: 0 < v <= 180),
         "arc_points": Field("int", "an integer in [3, 1000]", lambda v: 3 <= v <= 1000),
-        "mark_offset_bound_mm": _nonneg(),
+        "mark_offset_bound_mm": non_negative(),
         "source": _SOURCE,
     },
     "measurement": {
         "angles_deg": _ANGLES,
         "set_points_v": Field("floats", "a list of at least 3 strictly increasing voltages",
                               lambda v: len(v) >= 3 and all(b > a for a, b in zip(v, v[1:], strict=False))),
-        "nominal_gain_deg_per_v": _num("a non-zero finite number", lambda v: v != 0),
+        "nominal_gain_deg_per_v": number("a non-zero finite number", lambda v: v != 0),
         "source": _SOURCE,
     },
     "motion": {
-        "rate_deg_per_s": _num("a finite number", math.isfinite),
-        "jitter_ms": _nonneg(),
-        "max_blur_px": _pos(),
-        "sample_step_deg": _pos(),
+        "rate_deg_per_s": number("a finite number", math.isfinite),
+        "jitter_ms": non_negative(),
+        "max_blur_px": positive(),
+        "sample_step_deg": positive(),
         "source": _SOURCE,
     },
     "goal": {
-        "angle_U_deg": _pos(),
-        "gain_U_pct": _pos(),
-        "p": _num("a number in (0, 1)", lambda v: 0 < v < 1),
+        "angle_U_deg": positive(),
+        "gain_U_pct": positive(),
+        "p": number("a number in (0, 1)", lambda v: 0 < v < 1),
         "source": _SOURCE,
     },
     "candidates": {
         "cameras_csv": Field("str", "a path to a CSV file of cameras", required=True),
         "lenses": Field("lenses", "a list of {focal_length_mm, f_number} tables, or \"auto\"", required=True),
-        "auto_f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
+        "auto_f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "source": _SOURCE,
     },
     "pixel_model": {
-        "sensor_width_mm": _pos(True),
-        "read_noise_e": _nonneg(),
-        "full_well_e_per_um2": _pos(),
+        "sensor_width_mm": positive(True),
+        "read_noise_e": non_negative(),
+        "full_well_e_per_um2": positive(),
         "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
-        "f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
+        "f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "pixels_min": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000),
         "pixels_max": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000),
         "source": _SOURCE,
@@ -206,9 +190,9 @@ def _section(doc: dict, name: str) -> dict | None:
     out = dict(_DEFAULTS.get(name, {}))
     for key, value in raw.items():
         if key not in fields:
-            raise BudgetInputError(f"Unknown key '{key}' in [{name}].{_suggest(key, fields)}")
+            raise BudgetInputError(f"Unknown key '{key}' in [{name}].{suggest(key, fields)}")
         spec = fields[key]
-        out[key] = value if spec.kind == "lenses" else _coerce(name, key, spec, value)
+        out[key] = value if spec.kind == "lenses" else coerce(name, key, spec, value)
     for key, spec in fields.items():
         if spec.required and key not in out:
             raise BudgetInputError(f"The '{key}' field of [{name}] is missing; it must be {spec.allowed}.")
@@ -226,10 +210,10 @@ def _lenses(cand: dict) -> LensList:
     for i, item in enumerate(value):
         if not isinstance(item, dict) or set(item) - {"focal_length_mm", "f_number"} or "focal_length_mm" not in item:
             raise field_error(f"lenses[{i}]", "a table {focal_length_mm = ..., f_number = ...}", item, "[candidates]")
-        fl = _coerce("candidates", f"lenses[{i}].focal_length_mm",
-                     _num("a number in (0, 2000]", lambda v: 0 < v <= 2000), item["focal_length_mm"])
-        fn = _coerce("candidates", f"lenses[{i}].f_number",
-                     _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64), item.get("f_number", 8.0))
+        fl = coerce("candidates", f"lenses[{i}].focal_length_mm",
+                     number("a number in (0, 2000]", lambda v: 0 < v <= 2000), item["focal_length_mm"])
+        fn = coerce("candidates", f"lenses[{i}].f_number",
+                     number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64), item.get("f_number", 8.0))
         f.append(fl)
         n.append(fn)
     return LensList(False, tuple(f), tuple(n), cand["auto_f_number"])
@@ -313,7 +297,7 @@ def parse_choose(doc: dict, base: Path | None = None) -> ChooseSpec:
     """Validate a parsed ``choose`` document and read its camera list (relative to ``base``)."""
     for key in doc:
         if key not in SCHEMA and key not in _TOP:
-            raise BudgetInputError(f"Unknown section [{key}] in the choose file.{_suggest(key, [*SCHEMA, *_TOP])}")
+            raise BudgetInputError(f"Unknown section [{key}] in the choose file.{suggest(key, [*SCHEMA, *_TOP])}")
     for name in _REQUIRED:
         if name not in doc:
             raise BudgetInputError(f"The section [{name}] is missing from the choose file.")
@@ -373,6 +357,4 @@ def load_choose(path: str | Path) -> ChooseSpec:
     BudgetInputError
         A missing or unreadable file, malformed TOML, or any invalid field (one line).
     """
-    from budget.inputs.rig_file import read_toml
-
     return parse_choose(read_toml(path, "choose file"), base=Path(path).parent)

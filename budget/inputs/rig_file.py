@@ -7,44 +7,15 @@ one (a likely typo). Nothing is repaired silently.
 
 from __future__ import annotations
 
-import difflib
 import math
-import tomllib
-from collections.abc import Callable
-from dataclasses import dataclass
 from pathlib import Path
 
 from budget.errors import BudgetInputError, field_error
 from budget.imaging.locator_model import spot_sigma_px
+from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
 from budget.rig import description as d
 
-__all__ = ["load_rig", "parse_rig", "read_toml", "SCHEMA"]
-
-
-@dataclass(frozen=True)
-class Field:
-    """One allowed key: its kind, what is allowed (for the message) and a check."""
-
-    kind: str  # "int", "float", "str", "bool", "floats"
-    allowed: str
-    ok: Callable[[object], bool] = lambda v: True
-    required: bool = False
-
-
-def _num(allowed: str, ok: Callable[[float], bool], required: bool = False) -> Field:
-    return Field("float", allowed, ok, required)
-
-
-def _pos(required: bool = False) -> Field:
-    return _num("a number > 0", lambda v: v > 0, required)
-
-
-def _nonneg() -> Field:
-    return _num("a number >= 0", lambda v: v >= 0)
-
-
-def _choice(*options: str) -> Field:
-    return Field("str", "one of " + ", ".join(repr(o) for o in options), lambda v: v in options)
+__all__ = ["load_rig", "parse_rig", "SCHEMA"]
 
 
 _SOURCE = Field("str", "a text note (datasheet, certificate, measured, assumed)")
@@ -53,61 +24,61 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "camera": {
         "pixels_x": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
         "pixels_y": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
-        "pitch_um": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100, True),
+        "pitch_um": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100, True),
         "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
-        "read_noise_e": _num("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),
-        "full_well_e": _num("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
-        "shutter": _choice("global", "rolling"),
-        "row_time_us": _nonneg(),
-        "frame_rate_hz": _pos(),
-        "exposure_ms": _pos(),
+        "read_noise_e": number("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),
+        "full_well_e": number("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
+        "shutter": choice("global", "rolling"),
+        "row_time_us": non_negative(),
+        "frame_rate_hz": positive(),
+        "exposure_ms": positive(),
         "source": _SOURCE,
     },
     "lens": {
-        "focal_length_mm": _num("a number in [1, 2000]", lambda v: 1 <= v <= 2000, True),
-        "f_number": _num("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
-        "distortion": _choice("corrected", "uncorrected"),
-        "residual_rms_px": _num("a number in (0, 100]", lambda v: 0 < v <= 100),
-        "residual_correlation_px": _num("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
-        "distortion_edge_pct": _num("a number in [0, 20]", lambda v: 0 <= v <= 20),
-        "wavelength_nm": _num("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
+        "focal_length_mm": number("a number in [1, 2000]", lambda v: 1 <= v <= 2000, True),
+        "f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
+        "distortion": choice("corrected", "uncorrected"),
+        "residual_rms_px": number("a number in (0, 100]", lambda v: 0 < v <= 100),
+        "residual_correlation_px": number("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
+        "distortion_edge_pct": number("a number in [0, 20]", lambda v: 0 <= v <= 20),
+        "wavelength_nm": number("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
         "source": _SOURCE,
     },
     "geometry": {
-        "working_distance_mm": _num("a number in (0, 1e6]", lambda v: 0 < v <= 1e6, True),
-        "pointer_radius_mm": _pos(True),
-        "pivot_offset_x_mm": _num("a finite number", math.isfinite),
-        "pivot_offset_y_mm": _num("a finite number", math.isfinite),
-        "zero_direction_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
-        "target_height_mm": _nonneg(),
-        "target_height_u_mm": _nonneg(),
-        "tilt_bound_deg": _num("a number in (0, 90)", lambda v: 0 < v < 90),
-        "tilt_deg": _num("a number in [0, 90)", lambda v: 0 <= v < 90),
-        "tilt_u_deg": _num("a number in (0, 90)", lambda v: 0 < v < 90),
-        "tilt_azimuth_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "working_distance_mm": number("a number in (0, 1e6]", lambda v: 0 < v <= 1e6, True),
+        "pointer_radius_mm": positive(True),
+        "pivot_offset_x_mm": number("a finite number", math.isfinite),
+        "pivot_offset_y_mm": number("a finite number", math.isfinite),
+        "zero_direction_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "target_height_mm": non_negative(),
+        "target_height_u_mm": non_negative(),
+        "tilt_bound_deg": number("a number in (0, 90)", lambda v: 0 < v < 90),
+        "tilt_deg": number("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "tilt_u_deg": number("a number in (0, 90)", lambda v: 0 < v < 90),
+        "tilt_azimuth_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
         "remounted": Field("bool", "true or false"),
-        "roll_bound_deg": _num("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "roll_bound_deg": number("a number in [0, 45]", lambda v: 0 <= v <= 45),
         "source": _SOURCE,
     },
     "target": {
-        "shape": _choice("spot", "disk"),
-        "sigma_px": _num("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
-        "diameter_mm": _num("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
-        "signal_e": _num("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12),
-        "background_e": _num("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9),
+        "shape": choice("spot", "disk"),
+        "sigma_px": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
+        "diameter_mm": number("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
+        "signal_e": number("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12),
+        "background_e": number("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9),
         "source": _SOURCE,
     },
     "locator": {
-        "method": _choice("integer", "centroid", "fit"),
+        "method": choice("integer", "centroid", "fit"),
         "window_px": Field("int", "an odd integer in [3, 255]", lambda v: 3 <= v <= 255 and v % 2 == 1),
         "source": _SOURCE,
     },
     "pivot": {
-        "method": _choice("readings", "arc", "mark"),
-        "arc_half_angle_deg": _num("a number in (0, 180]", lambda v: 0 < v <= 180),
+        "method": choice("readings", "arc", "mark"),
+        "arc_half_angle_deg": number("a number in (0, 180]", lambda v: 0 < v <= 180),
         "arc_points": Field("int", "an integer in [3, 1000]", lambda v: 3 <= v <= 1000),
-        "arc_centre_deg": _num("a number in [-360, 360]", lambda v: -360 <= v <= 360),
-        "mark_offset_bound_mm": _nonneg(),
+        "arc_centre_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "mark_offset_bound_mm": non_negative(),
         "source": _SOURCE,
     },
     "frames": {
@@ -115,26 +86,26 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "source": _SOURCE,
     },
     "motion": {
-        "state": _choice("static", "moving"),
-        "rate_deg_per_s": _num("a finite number", math.isfinite),
-        "timestamp": _choice("start", "middle"),
-        "jitter_ms": _nonneg(),
+        "state": choice("static", "moving"),
+        "rate_deg_per_s": number("a finite number", math.isfinite),
+        "timestamp": choice("start", "middle"),
+        "jitter_ms": non_negative(),
         "source": _SOURCE,
     },
     "source": {
-        "span_v": _pos(),
-        "polarity": _choice("bipolar", "unipolar"),
+        "span_v": positive(),
+        "polarity": choice("bipolar", "unipolar"),
         "bits": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
-        "gain_error_pct": _num("a number in [0, 50]", lambda v: 0 <= v <= 50),
-        "offset_mv": _nonneg(),
-        "inl_lsb": _nonneg(),
-        "noise_uv": _nonneg(),
-        "output_impedance_ohm": _nonneg(),
-        "load_resistance_ohm": _pos(),
-        "readback": _choice("commanded", "dmm"),
-        "dmm_pct_reading": _nonneg(),
-        "dmm_counts": _nonneg(),
-        "dmm_resolution_v": _pos(),
+        "gain_error_pct": number("a number in [0, 50]", lambda v: 0 <= v <= 50),
+        "offset_mv": non_negative(),
+        "inl_lsb": non_negative(),
+        "noise_uv": non_negative(),
+        "output_impedance_ohm": non_negative(),
+        "load_resistance_ohm": positive(),
+        "readback": choice("commanded", "dmm"),
+        "dmm_pct_reading": non_negative(),
+        "dmm_counts": non_negative(),
+        "dmm_resolution_v": positive(),
         "source": _SOURCE,
     },
     "positions": {"angles_deg": Field("floats", "a list of angles in (-360, 360)",
@@ -143,7 +114,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "set_points_v": Field("floats", "a list of at least 3 strictly increasing voltages",
                               lambda v: len(v) >= 3 and all(b > a for a, b in zip(v, v[1:], strict=False)),
                               True),
-        "nominal_gain_deg_per_v": _num("a non-zero finite number", lambda v: v != 0 and math.isfinite(v), True),
+        "nominal_gain_deg_per_v": number("a non-zero finite number", lambda v: v != 0 and math.isfinite(v), True),
     },
     "data": {
         "readings_csv": Field("str", "a path to a CSV file"),
@@ -160,44 +131,12 @@ _REQUIRED_SECTIONS = ("camera", "lens", "geometry")
 _TOP_KEYS = ("title",)
 
 
-def _suggest(key: str, options) -> str:
-    near = difflib.get_close_matches(key, list(options), n=1, cutoff=0.6)
-    return f" Did you mean '{near[0]}'?" if near else ""
-
-
-def _coerce(section: str, key: str, spec: Field, value: object) -> object:
-    where = f"[{section}]"
-    if spec.kind == "bool":
-        if not isinstance(value, bool):
-            raise field_error(key, spec.allowed, value, where)
-        return value
-    if spec.kind == "str":
-        if not isinstance(value, str):
-            raise field_error(key, spec.allowed, value, where)
-    elif spec.kind == "int":
-        if isinstance(value, bool) or not isinstance(value, int):
-            raise field_error(key, spec.allowed, value, where)
-    elif spec.kind == "float":
-        if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
-            raise field_error(key, spec.allowed, value, where)
-        value = float(value)
-    elif spec.kind == "floats":
-        if not isinstance(value, list) or not all(
-            isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v) for v in value
-        ) or not value:
-            raise field_error(key, spec.allowed, value, where)
-        value = tuple(float(v) for v in value)
-    if not spec.ok(value):
-        raise field_error(key, spec.allowed, value, where)
-    return value
-
-
 def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
     """Validate a parsed TOML document and build the rig description."""
     for key in doc:
         if key not in SCHEMA and key not in _TOP_KEYS:
             raise BudgetInputError(
-                f"Unknown section [{key}] in the input file.{_suggest(key, [*SCHEMA, *_TOP_KEYS])}"
+                f"Unknown section [{key}] in the input file.{suggest(key, [*SCHEMA, *_TOP_KEYS])}"
             )
     for name in _REQUIRED_SECTIONS:
         if name not in doc:
@@ -219,9 +158,9 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
         for key, value in raw.items():
             if key not in fields:
                 raise BudgetInputError(
-                    f"Unknown key '{key}' in [{section}].{_suggest(key, fields)}"
+                    f"Unknown key '{key}' in [{section}].{suggest(key, fields)}"
                 )
-            values[key] = _coerce(section, key, fields[key], value)
+            values[key] = coerce(section, key, fields[key], value)
         for key, spec in fields.items():
             if spec.required and key not in values:
                 raise BudgetInputError(f"The '{key}' field of [{section}] is missing; it must be {spec.allowed}.")
@@ -322,21 +261,6 @@ def _cross_checks(rig: d.RigDescription) -> None:
                 "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
                 + (" and the [pivot] arc." if what else ".")
             )
-
-
-def read_toml(path: str | Path, what: str = "input file") -> dict:
-    """Read a TOML file; a missing, unreadable or malformed file is one BudgetInputError line."""
-    p = Path(path)
-    try:
-        text = p.read_bytes().decode("utf-8-sig")  # a byte-order mark (as some editors save) is not text
-    except FileNotFoundError:
-        raise BudgetInputError(f"The {what} '{p}' does not exist.") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise BudgetInputError(f"The {what} '{p}' cannot be read: {exc}.") from None
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise BudgetInputError(f"The {what} '{p}' is not valid TOML: {exc}.") from None
 
 
 def load_rig(path: str | Path) -> d.RigDescription:

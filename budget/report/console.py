@@ -92,6 +92,12 @@ def render_run(result: RunResult, width: int = 170) -> str:
                   f"{s.correlation_mc:+.3f} (Monte Carlo)")
         con.print(f"Non-linearity from measurement errors alone: mean {s.nonlinearity_mean_pct:.2g} % of span, "
                   f"95th percentile {s.nonlinearity_p95_pct:.2g} %")
+    described = result.component_descriptions()
+    if described:
+        con.print()
+        con.print("What the components are:")
+        for name, text in described.items():
+            con.print(f"  {name}: {text}")
     if result.warnings:
         con.print()
         con.print("Notes on this rig:")

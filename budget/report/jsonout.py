@@ -12,7 +12,7 @@ __all__ = ["run_to_dict", "run_to_json", "output_to_dict"]
 def _components(ob: OutputBudget) -> list[dict]:
     return [
         {
-            "name": c.name, "type": c.evaluation, "distribution": c.distribution,
+            "name": c.name, "description": c.description, "type": c.evaluation, "distribution": c.distribution,
             "u": c.contribution, "percent": c.percent, "dof": finite_or_none(c.dof),
             "monte_carlo_u": c.mc_u, "sources": list(c.sources),
         }

@@ -113,6 +113,10 @@ def render_markdown(result: RunResult) -> str:
     for ob in result.outputs:
         lines.append(output_markdown(ob))
     lines += _sweep(result)
+    described = result.component_descriptions()
+    if described:
+        lines += ["## What the components are", ""]
+        lines += [f"- **{md_text(k)}**: {md_text(v)}" for k, v in described.items()] + [""]
     if result.warnings:
         lines += ["## Notes on this rig", "", *(f"- {md_text(w)}" for w in result.warnings), ""]
     return "\n".join(lines).rstrip("\n") + "\n"

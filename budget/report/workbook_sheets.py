@@ -69,6 +69,7 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
     number(ws, r, 2, result.p, FMT["p"])
     r += 2
     r = _sweep_rows(ws, r, result)
+    r = _components(ws, r, result)
     _warnings(ws, r, result)
     ws.freeze_panes = "B4"
     set_widths(ws, {1: 30, 2: 48, 3: 13, 4: 13, 5: 6, 6: 12, 7: 7, 8: 7, 9: 12, 10: 12, 11: 13, 12: 13,
@@ -116,6 +117,16 @@ def _sweep_rows(ws, r: int, result: RunResult) -> int:
         else:
             number(ws, r, 2, value, fmt)
     return r + 2
+
+
+def _components(ws, r: int, result: RunResult) -> int:
+    """What each component of the budgets is, one row each; returns the next free row."""
+    described = result.component_descriptions()
+    title(ws, r, "What the components are", 2)
+    for i, (name, what) in enumerate(described.items(), start=1):
+        text(ws, r + i, 1, name)
+        text(ws, r + i, 2, what).alignment = WRAP
+    return r + len(described) + 2
 
 
 def _warnings(ws, r: int, result: RunResult) -> None:

@@ -9,11 +9,13 @@ import datetime as _dt
 import hashlib
 import math
 from collections.abc import Callable
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 
 from budget import __version__
+from budget.errors import collected_warnings
 from budget.fit import ols_batch_residuals
 from budget.imaging.locator_model import locator_model
 from budget.propagation import (
@@ -82,6 +84,7 @@ def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) ->
             sensitivity=first.sensitivity if len(members) == 1 else None,
             contribution=g.contribution, percent=g.percent, dof=g.dof,
             mc_u=group_mc.get(g.name, {}).get(output), sources=g.sources, inputs=g.inputs,
+            description=comp.DESCRIPTIONS.get(g.name, ""),
         ))
     return tuple(lines)
 
@@ -173,6 +176,15 @@ def run_budget(
         Measured reading angles of a sweep (evaluation mode): they give the fit's
         chi-squared against the per-point uncertainties (ISO/TS 28037 clause 6).
     """
+    with collected_warnings() as raised:
+        result = _run_budget(rig, rng=rng, p=p, trials=trials, input_path=input_path, progress=progress,
+                             type_a=type_a, measured_deg=measured_deg)
+    return replace(result, warnings=(*result.warnings, *raised)) if raised else result
+
+
+def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, trials: int | None,
+                input_path: str | Path, progress: Callable[[int], None] | None, type_a: dict | None,
+                measured_deg: tuple[float, ...] | None) -> RunResult:
     inputs, corr = comp.build_inputs(rig, type_a)
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
@@ -205,11 +217,10 @@ def run_budget(
         intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
                             lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
                             rig.pivot.method, causes)
-        names = list(lin.names)
-        ig, ii = names.index("gain"), names.index("intercept")
-        c = lin.covariance
-        corr_lin = c[ig, ii] / math.sqrt(c[ig, ig] * c[ii, ii]) if c[ig, ig] * c[ii, ii] > 0 else 0.0
-        corr_mc = float(np.corrcoef(mc.joint["gain"], mc.joint["intercept"])[0, 1])
+        ig, ii = lin.names.index("gain"), lin.names.index("intercept")
+        corr_lin = lin.correlation[ig, ii]
+        jg, ji = mc.names.index("gain"), mc.names.index("intercept")
+        corr_mc = float(mc.correlation[jg, ji])
         nl_mean, nl_95 = _nonlinearity_pct(rig, mc.joint, len(rig.nominal_angles_deg))
         chi2 = _chi2(rig, angles, measured_deg)
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),

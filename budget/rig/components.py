@@ -15,8 +15,9 @@ from budget.imaging.locator_model import locator_model
 from budget.propagation import Arcsine, InputQuantity, Normal, Rectangular, StudentT
 from budget.rig.description import RigDescription
 from budget.rig.geometry import nominal_image_points, point_labels
+from budget.rig.source import READBACK, SOURCE, source_inputs
 
-__all__ = ["GROUPS", "build_inputs"]
+__all__ = ["GROUPS", "DESCRIPTIONS", "build_inputs"]
 
 QUANT = "pixel quantization"
 LOCK = "pixel-locking"
@@ -25,9 +26,22 @@ PIVOT = "pivot estimate"
 SKEW = "camera skew"
 DIST = "lens distortion"
 TIMING = "frame timing"
-SOURCE = "input voltage source"
-READBACK = "voltage readback"
 GROUPS = (QUANT, LOCK, NOISE, PIVOT, SKEW, DIST, TIMING, SOURCE, READBACK)
+
+DESCRIPTIONS = {
+    QUANT: "integer-pixel locator: the located position is a whole pixel",
+    LOCK: "sub-pixel locator's bias towards pixel centres, over the unknown sub-pixel phase",
+    NOISE: "scatter of the located position from frame to frame (light, background, read noise, ADC)",
+    PIVOT: "the pivot as the user finds it: a circle fit to located points, or a located mark",
+    SKEW: "the camera not square to the dial: tilt of the dial plane to the image plane, camera roll "
+          "between the zero image and the readings, and parallax of a raised target (not the "
+          "non-orthogonality of the pixel axes that camera calibration calls skew)",
+    DIST: "lens distortion left after calibration (residual), or uncorrected radial distortion",
+    TIMING: "a moving pointer read at the wrong instant: timestamp offset, rolling-shutter rows, jitter",
+    SOURCE: "the voltage at the pointer differs from the set point: gain, offset, DAC step, INL, noise",
+    READBACK: "the meter that reads the voltage back: its ±% of reading, ±counts and resolution",
+}
+"""What each budget component is, in words; every report shows it beside the component's name."""
 
 
 def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
@@ -100,7 +114,7 @@ def build_inputs(
                 out[f"jitter_ms_{lab}"] = _q(Normal(0.0, rig.motion.jitter_ms), "ms", TIMING,
                                              rig.motion.source + "; timestamp jitter")
     if rig.sweep is not None and rig.source is not None:
-        _source_inputs(rig, out)
+        out.update(source_inputs(rig))
     return out, corr
 
 
@@ -141,39 +155,3 @@ def _skew_inputs(rig: RigDescription, out: dict) -> None:
     if g.target_height_u_mm > 0:
         out["target_height_mm"] = _q(Normal(g.target_height_mm, g.target_height_u_mm), "mm", SKEW,
                                      src + "; target height above the dial (parallax)")
-
-
-def _source_inputs(rig: RigDescription, out: dict) -> None:
-    s = rig.source
-    assert s is not None and rig.sweep is not None
-    src = s.source
-    if s.gain_error_pct > 0:
-        out["source_gain_pct"] = _q(Rectangular(-s.gain_error_pct, s.gain_error_pct), "%", SOURCE,
-                                    src + "; gain error, shared by all set points")
-    if s.offset_mv > 0:
-        out["source_offset_mv"] = _q(Rectangular(-s.offset_mv, s.offset_mv), "mV", SOURCE,
-                                     src + "; offset, shared by all set points")
-    if s.load_resistance_ohm is not None and s.output_impedance_ohm > 0:
-        out["source_zout_ohm"] = _q(Rectangular(0.0, s.output_impedance_ohm), "Ω", SOURCE,
-                                    src + "; output impedance into the load (divider)")
-    lsb_mv = s.lsb_v * 1e3
-    for i in range(len(rig.sweep.set_points_v)):
-        lab = f"P{i + 1}"
-        out[f"lsb_mv_{lab}"] = _q(Rectangular(-lsb_mv / 2, lsb_mv / 2), "mV", SOURCE,
-                                  src + f"; {s.bits}-bit step over {s.span_v:g} V")
-        if s.inl_lsb > 0:
-            out[f"inl_mv_{lab}"] = _q(Rectangular(-s.inl_lsb * lsb_mv, s.inl_lsb * lsb_mv), "mV", SOURCE,
-                                      src + "; integral non-linearity")
-        if s.noise_uv > 0:
-            out[f"vnoise_mv_{lab}"] = _q(Normal(0.0, s.noise_uv * 1e-3), "mV", SOURCE, src + "; output noise")
-        if s.readback == "dmm":
-            res_mv = s.dmm_resolution_v * 1e3
-            out[f"dmm_res_mv_{lab}"] = _q(Rectangular(-res_mv / 2, res_mv / 2), "mV", READBACK,
-                                          src + "; meter resolution")
-    if s.readback == "dmm":
-        if s.dmm_pct_reading > 0:
-            out["dmm_gain_pct"] = _q(Rectangular(-s.dmm_pct_reading, s.dmm_pct_reading), "%", READBACK,
-                                     src + "; meter ±% of reading, shared")
-        if s.dmm_counts > 0:
-            c = s.dmm_counts * s.dmm_resolution_v * 1e3
-            out["dmm_offset_mv"] = _q(Rectangular(-c, c), "mV", READBACK, src + "; meter ±counts, shared")

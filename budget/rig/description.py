@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from budget.imaging import optics
+
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
     "VoltageSource", "Positions", "Sweep", "Data", "RigDescription",
@@ -175,20 +177,20 @@ class RigDescription:
     # ---- derived optics (pinhole with a thin lens focused at the working distance)
     @property
     def magnification(self) -> float:
-        """m = f/(D − f) (thin lens, common practice)."""
-        f = self.lens.focal_length_mm
-        return f / (self.geometry.working_distance_mm - f)
+        """m = f/(D − f) (thin lens, :func:`budget.imaging.optics.magnification`)."""
+        return float(optics.magnification(self.lens.focal_length_mm, self.geometry.working_distance_mm))
 
     @property
     def focal_px(self) -> float:
         """Image distance in pixels: the pinhole constant of the projection."""
-        m = self.magnification
-        return m * self.geometry.working_distance_mm / (self.camera.pitch_um * 1e-3)
+        d_i = optics.image_distance_mm(self.lens.focal_length_mm, self.geometry.working_distance_mm)
+        return float(d_i) / (self.camera.pitch_um * 1e-3)
 
     @property
     def radius_px(self) -> float:
-        """Pointer radius in pixels, R·m/pitch."""
-        return self.geometry.pointer_radius_mm * self.magnification / (self.camera.pitch_um * 1e-3)
+        """Pointer radius in pixels: R over the pixel's size on the dial."""
+        return self.geometry.pointer_radius_mm / float(optics.object_pixel_mm(self.camera.pitch_um,
+                                                                              self.magnification))
 
     @property
     def nominal_angles_deg(self) -> tuple[float, ...]:

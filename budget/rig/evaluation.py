@@ -7,61 +7,17 @@ pivot-arc points (in ``pivot_csv`` or the same file), ``M`` a pivot mark.
 
 from __future__ import annotations
 
-import csv
 import math
 from dataclasses import dataclass, replace
-from pathlib import Path
 
 import numpy as np
 
 from budget.errors import BudgetInputError
+from budget.inputs.data_csv import read_positions_csv
 from budget.rig.description import Positions, RigDescription, Sweep
-from budget.rig.geometry import point_labels
-from budget.rig.pivot import fit_circle
+from budget.rig.geometry import point_labels, reading_angles_deg
 
-__all__ = ["read_positions_csv", "type_a_from_data", "load_evaluation", "Evaluation", "measured_angles_deg"]
-
-COLUMNS = ("position", "frame", "x_px", "y_px")
-
-
-def read_positions_csv(path: str | Path) -> dict[str, np.ndarray]:
-    """Read located positions: ``{position id: array (n_frames, 2)}``.
-
-    Raises
-    ------
-    BudgetInputError
-        Missing file or columns, a non-numeric or NaN cell (naming the row).
-    """
-    p = Path(path)
-    try:
-        fh = open(p, newline="", encoding="utf-8")
-    except OSError as exc:
-        raise BudgetInputError(f"The data file '{p}' cannot be read: {exc.strerror}.") from None
-    with fh:
-        reader = csv.DictReader(fh)
-        missing = [c for c in COLUMNS if c not in (reader.fieldnames or [])]
-        if missing:
-            raise BudgetInputError(f"The data file '{p}' lacks the column(s) {', '.join(missing)}; "
-                                   f"it must have {', '.join(COLUMNS)}.")
-        out: dict[str, list[tuple[float, float]]] = {}
-        for row_no, row in enumerate(reader, start=2):
-            vals = []
-            for col in ("x_px", "y_px"):
-                try:
-                    v = float(row[col])
-                except (TypeError, ValueError):
-                    raise BudgetInputError(
-                        f"Row {row_no} of '{p}': the '{col}' cell must be a number. Got {row[col]!r}."
-                    ) from None
-                if not math.isfinite(v):
-                    raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell is {v}; it must be finite.")
-                vals.append(v)
-            pid = (row["position"] or "").strip()
-            if not pid:
-                raise BudgetInputError(f"Row {row_no} of '{p}': the 'position' cell is empty.")
-            out.setdefault(pid, []).append((vals[0], vals[1]))
-    return {k: np.array(v) for k, v in out.items()}
-
+__all__ = ["type_a_from_data", "load_evaluation", "Evaluation", "measured_angles_deg"]
 
 def _load(rig: RigDescription) -> dict[str, np.ndarray] | None:
     if rig.data is None or rig.data.readings_csv is None:
@@ -139,21 +95,7 @@ def load_evaluation(rig: RigDescription) -> Evaluation:
 def measured_angles_deg(rig: RigDescription, data: dict[str, np.ndarray]) -> np.ndarray:
     """Angles of the readings about the pivot, relative to the zero image, from mean positions."""
     mean = {k: v.mean(axis=0) for k, v in data.items()}
-    n = len(rig.nominal_angles_deg)
-    reads = [f"P{i + 1}" for i in range(n)]
-    if rig.pivot.method == "mark":
-        c = mean["M"]
-    else:
-        labs = ["Z", *reads] if rig.pivot.method == "readings" else \
-            [f"C{i + 1}" for i in range(rig.pivot.arc_points)]
-        xs = np.array([mean[k][0] for k in labs])
-        ys = np.array([mean[k][1] for k in labs])
-        xc, yc, _ = fit_circle(xs, ys)
-        c = np.array([float(xc), float(yc)])
-    r0 = mean["Z"] - c
-    out = []
-    for k, nominal in zip(reads, rig.nominal_angles_deg, strict=True):
-        r = mean[k] - c
-        a = math.degrees(math.atan2(r0[0] * r[1] - r0[1] * r[0], r0[0] * r[0] + r0[1] * r[1]))
-        out.append(nominal + (a - nominal + 180.0) % 360.0 - 180.0)  # the branch nearest the file's angle
-    return np.array(out)
+    labels = point_labels(rig)
+    img_x = np.array([[mean[k][0] for k in labels]])
+    img_y = np.array([[mean[k][1] for k in labels]])
+    return reading_angles_deg(rig, img_x, img_y)[0]

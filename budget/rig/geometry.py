@@ -15,9 +15,10 @@ import math
 import numpy as np
 
 from budget.rig.description import RigDescription
+from budget.rig.pivot import fit_circle
 
 __all__ = ["rotate_tilt", "project", "dial_angles_deg", "point_labels", "tilt_vector", "image_points",
-           "nominal_image_points"]
+           "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg"]
 
 
 def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy: np.ndarray):
@@ -132,3 +133,42 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     yr = yr + g.pivot_offset_y_mm
     k1 = kw["k1"][:, None] if "k1" in kw else 0.0
     return project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
+
+
+def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The pivot as the user finds it from the located points, each (T,).
+
+    Columns of ``img_x``, ``img_y`` (T, n_points) follow :func:`point_labels`. A mark is the
+    pivot; otherwise a circle is fitted (:func:`budget.rig.pivot.fit_circle`) to the zero
+    image and the readings, or to the pivot-arc points.
+    """
+    method = rig.pivot.method
+    if method == "mark":
+        return img_x[:, -1], img_y[:, -1]
+    n_read = len(rig.nominal_angles_deg)
+    cols = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
+    xc, yc, _ = fit_circle(img_x[:, cols], img_y[:, cols])
+    return xc, yc
+
+
+def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.ndarray:
+    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal."""
+    return nominal_deg + (angle_deg - nominal_deg + 180.0) % 360.0 - 180.0
+
+
+def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
+    """The readings' angles about the estimated pivot relative to the zero image, (T, n) deg.
+
+    Notes
+    -----
+    θ = atan2(r0 × r, r0 · r) with r0, r the zero image and the reading relative to the
+    estimated pivot (never the law of cosines, whose derivative is infinite at zero
+    deflection), on the branch nearest the nominal angle.
+    """
+    xc, yc = estimate_pivot(rig, img_x, img_y)
+    n_read = len(rig.nominal_angles_deg)
+    rx, ry = img_x - xc[:, None], img_y - yc[:, None]
+    x0, y0 = rx[:, :1], ry[:, :1]
+    xs, ys = rx[:, 1:1 + n_read], ry[:, 1:1 + n_read]
+    angle = np.degrees(np.arctan2(x0 * ys - y0 * xs, x0 * xs + y0 * ys))
+    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg))

@@ -16,8 +16,7 @@ import numpy as np
 
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription
-from budget.rig.geometry import dial_angles_deg, image_points, point_labels
-from budget.rig.pivot import fit_circle
+from budget.rig.geometry import dial_angles_deg, image_points, point_labels, reading_angles_deg
 
 __all__ = ["VirtualRig"]
 
@@ -85,9 +84,9 @@ class VirtualRig:
                 x[:, i] += kw[key] * 1e-3
         return x
 
-    def _locator_errors(self, kw: dict, u: np.ndarray, v: np.ndarray) -> None:
+    def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
         for j, lab in enumerate(self.labels):
-            for ax, arr in (("x", u), ("y", v)):
+            for ax, arr in (("x", img_x), ("y", img_y)):
                 for kind in ("quant", "lock", "noise", "resid"):
                     key = f"{kind}_{ax}_{lab}"
                     if key in kw:
@@ -98,23 +97,17 @@ class VirtualRig:
         t = len(next(iter(kw.values()))) if kw else 1
         kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
         true_deg = self._true_reading_angles(kw, t)
-        u, v = image_points(self.rig, kw, t, self.dial_deg,
-                            reading_deg=true_deg if self.rig.sweep is not None else None)
-        u, v = u.copy(), v.copy()
+        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg,
+                                    reading_deg=true_deg if self.rig.sweep is not None else None)
+        img_x, img_y = img_x.copy(), img_y.copy()
         if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
             r = np.radians(kw["roll_deg"])
-            u0, v0 = u[:, 0].copy(), v[:, 0].copy()
-            u[:, 0] = np.cos(r) * u0 - np.sin(r) * v0
-            v[:, 0] = np.sin(r) * u0 + np.cos(r) * v0
-        self._locator_errors(kw, u, v)
-        xc, yc = self._pivot(u, v)
-        rx, ry = u - xc[:, None], v - yc[:, None]
-        x0, y0 = rx[:, :1], ry[:, :1]
-        xs, ys = rx[:, 1:1 + self.n_read], ry[:, 1:1 + self.n_read]
-        angle = np.degrees(np.arctan2(x0 * ys - y0 * xs, x0 * xs + y0 * ys))
-        # atan2 answers in (−180°, 180°]; the user's reading is the branch nearest its nominal.
-        angle = self.nominal_deg + (angle - self.nominal_deg + 180.0) % 360.0 - 180.0
-        angle = angle + self._timing_deg(kw, t, v[:, 1:1 + self.n_read])
+            x0, y0 = img_x[:, 0].copy(), img_y[:, 0].copy()
+            img_x[:, 0] = np.cos(r) * x0 - np.sin(r) * y0
+            img_y[:, 0] = np.sin(r) * x0 + np.cos(r) * y0
+        self._locator_errors(kw, img_x, img_y)
+        angle = reading_angles_deg(self.rig, img_x, img_y)
+        angle = angle + self._timing_deg(kw, t, img_y[:, 1:1 + self.n_read])
         out = {f"P{i + 1}": angle[:, i] for i in range(self.n_read)}
         if self.rig.sweep is not None:
             x = self._fit_volts(kw, t, self._actual_volts(kw, t))
@@ -123,24 +116,14 @@ class VirtualRig:
             out["intercept"] = intercept
         return out
 
-    def _pivot(self, u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        method = self.rig.pivot.method
-        if method == "mark":
-            return u[:, -1], v[:, -1]
-        if method == "arc":
-            xc, yc, _ = fit_circle(u[:, 1 + self.n_read:], v[:, 1 + self.n_read:])
-            return xc, yc
-        xc, yc, _ = fit_circle(u[:, :1 + self.n_read], v[:, :1 + self.n_read])
-        return xc, yc
-
-    def _timing_deg(self, kw: dict, t: int, v_px: np.ndarray) -> np.ndarray:
+    def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
         if self.rate == 0.0:
             return np.zeros((t, self.n_read))
         cam = self.rig.camera
         delay = np.full((t, self.n_read), self.stamp_offset_s)
         if cam.shutter == "rolling":
-            rows = 0.5 * cam.pixels_y - v_px  # rows counted from the top of the sensor
+            rows = 0.5 * cam.pixels_y - img_y  # rows counted from the top of the sensor
             delay = delay + rows * cam.row_time_us * 1e-6
         for i in range(self.n_read):
             key = f"jitter_ms_P{i + 1}"

@@ -11,21 +11,9 @@ from budget.fit import line_variance
 from budget.propagation import coverage_factor, coverage_intervals, round_pair
 from budget.results import RunResult
 from budget.rig.description import RigDescription
+from budget.rig.source import per_point_u_v
 
-__all__ = ["predict_from_sweep", "per_point_source_u_v"]
-
-
-def per_point_source_u_v(rig: RigDescription) -> float:
-    """Standard uncertainty of one commanded voltage from the source's per-point terms, V.
-
-    LSB step (rectangular, LSB/√12), INL (rectangular, ±INL·LSB) and noise; the
-    shared gain and offset are already inside the calibration's K and intercept.
-    """
-    s = rig.source
-    if s is None:
-        return 0.0
-    lsb = s.lsb_v
-    return math.sqrt(lsb**2 / 12 + (s.inl_lsb * lsb) ** 2 / 3 + (s.noise_uv * 1e-6) ** 2)
+__all__ = ["predict_from_sweep"]
 
 
 def predict_from_sweep(rig: RigDescription, result: RunResult, *, angle_deg: float | None = None,
@@ -62,7 +50,7 @@ def predict_from_sweep(rig: RigDescription, result: RunResult, *, angle_deg: flo
         k_est, b_est = 2 * k_nom - k_est, -b_est
     rho = result.gain_summary.correlation_linear
     cov = np.array([[k_lin.u**2, rho * k_lin.u * b_lin.u], [rho * k_lin.u * b_lin.u, b_lin.u**2]])
-    u_v = per_point_source_u_v(rig)
+    u_v = per_point_u_v(rig)
     v_lo, v_hi = min(rig.sweep.set_points_v), max(rig.sweep.set_points_v)
     warns = []
     if volts is not None:

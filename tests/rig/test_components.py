@@ -20,7 +20,7 @@ from budget.rig import components as comp
 from budget.rig.budget import run_budget
 from budget.rig.components import build_inputs
 from budget.rig.model import VirtualRig
-from budget.rig.pivot import arc_centre_sd, circle_covariance
+from tests.oracles.closed_forms import arc_centre_sd, circle_covariance
 from tests.rigdoc import merge_doc
 
 BASE = {

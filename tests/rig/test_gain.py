@@ -18,7 +18,7 @@ from budget.propagation import Rectangular, linear
 from budget.rig import components as comp
 from budget.rig.components import build_inputs
 from budget.rig.model import VirtualRig
-from budget.rig.pivot import circle_covariance
+from tests.oracles.closed_forms import circle_covariance
 from tests.paths import TEMPLATES
 from tests.rigdoc import merge_doc
 

@@ -9,10 +9,10 @@ from hypothesis import strategies as st
 from scipy.optimize import least_squares
 
 from budget.errors import BudgetInputError
-from budget.rig.pivot import (
+from budget.rig.pivot import fit_circle
+from tests.oracles.closed_forms import (
     arc_centre_sd,
     circle_covariance,
-    fit_circle,
     pivot_angle_error,
     pivot_angle_error_exact,
     short_arc_centre_sd,
