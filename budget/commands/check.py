@@ -9,12 +9,14 @@ __all__ = ["execute"]
 
 def execute(args: argparse.Namespace) -> int:
     from budget.imaging.locator_model import locator_model
+    from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
     from budget.report.console import fmt, fmt_dof
     from budget.rig.components import build_inputs
     from budget.rig.evaluation import load_evaluation
 
-    ev = load_evaluation(load_rig(args.file))
+    rig = load_rig(args.file)
+    ev = load_evaluation(rig, read_rig_data(rig))
     rig = ev.rig
     inputs, corr = build_inputs(rig, ev.type_a)
     lm = locator_model(rig)

@@ -14,11 +14,13 @@ __all__ = ["execute", "evaluate_rig_file"]
 
 def evaluate_rig_file(args: argparse.Namespace, quiet: bool):
     """Read the rig file (and its measured data), run the budget; return ``(rig, result)``."""
+    from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
     from budget.rig.budget import run_budget
     from budget.rig.evaluation import load_evaluation
 
-    ev = load_evaluation(load_rig(args.file))
+    rig = load_rig(args.file)
+    ev = load_evaluation(rig, read_rig_data(rig))
     prog, cb = progress_bar(not quiet)
     kwargs = dict(rng=make_rng(args.seed), p=args.p, trials=args.trials, input_path=args.file,
                   type_a=ev.type_a, measured_deg=ev.measured_deg)

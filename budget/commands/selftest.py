@@ -16,8 +16,12 @@ def execute(args: argparse.Namespace) -> int:
     from rich.console import Console
     from rich.table import Table
 
+    from budget import __version__
     from budget.reference_cases import load_cases, run_cases
+    from budget.resources import reference_location
 
+    print(f"thetabudget {__version__}; reference cases read from {reference_location()}; "
+          f"Monte Carlo seed {SELFTEST_SEED}")
     rows = run_cases(load_cases(), rng=make_rng(SELFTEST_SEED))
     table = Table(title="thetabudget selftest: published reference cases (ISO/IEC 17025 7.11.2 evidence)")
     for col in ("case", "source", "quantity", "published", "computed", "tolerance", "result"):

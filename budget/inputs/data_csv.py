@@ -13,8 +13,9 @@ from pathlib import Path
 import numpy as np
 
 from budget.errors import BudgetInputError
+from budget.rig.description import RigDescription, point_labels
 
-__all__ = ["COLUMNS", "read_positions_csv"]
+__all__ = ["COLUMNS", "read_positions_csv", "read_rig_data"]
 
 COLUMNS = ("position", "frame", "x_px", "y_px")
 
@@ -56,3 +57,29 @@ def read_positions_csv(path: str | Path) -> dict[str, np.ndarray]:
                 raise BudgetInputError(f"Row {row_no} of '{p}': the 'position' cell is empty.")
             out.setdefault(pid, []).append((vals[0], vals[1]))
     return {k: np.array(v) for k, v in out.items()}
+
+
+def read_rig_data(rig: RigDescription) -> dict[str, np.ndarray] | None:
+    """The measured positions a rig file names in ``[data]``: ``{label: (n_frames, 2)}``, or None.
+
+    Raises
+    ------
+    BudgetInputError
+        A file that cannot be read, a label the rig needs that no file gives, or a position
+        with fewer than 2 frames.
+    """
+    if rig.data is None or rig.data.readings_csv is None:
+        return None
+    data = read_positions_csv(rig.data.readings_csv)
+    if rig.data.pivot_csv:
+        data.update(read_positions_csv(rig.data.pivot_csv))
+    needed = [lab for lab in point_labels(rig) if lab not in data]
+    if needed:
+        raise BudgetInputError(
+            f"The data files lack the position(s) {', '.join(needed)}; the rig needs "
+            f"{', '.join(point_labels(rig))}."
+        )
+    for lab, xy in data.items():
+        if len(xy) < 2:
+            raise BudgetInputError(f"Position '{lab}' has {len(xy)} frame; Type A needs at least 2.")
+    return data

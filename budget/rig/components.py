@@ -13,8 +13,8 @@ import math
 
 from budget.imaging.locator_model import locator_model
 from budget.propagation import Arcsine, InputQuantity, Normal, Rectangular, StudentT
-from budget.rig.description import RigDescription
-from budget.rig.geometry import nominal_image_points, point_labels
+from budget.rig.description import RigDescription, point_labels
+from budget.rig.geometry import nominal_image_points
 from budget.rig.source import READBACK, SOURCE, source_inputs
 
 __all__ = ["GROUPS", "DESCRIPTIONS", "build_inputs"]

@@ -12,7 +12,7 @@ from budget.imaging import optics
 
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
-    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription",
+    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "point_labels",
 ]
 
 
@@ -200,3 +200,13 @@ class RigDescription:
             return tuple(k * v for v in self.sweep.set_points_v)
         assert self.positions is not None
         return self.positions.angles_deg
+
+
+def point_labels(rig: RigDescription) -> tuple[str, ...]:
+    """Labels of every located point: the zero image, the readings, then pivot points."""
+    labels = ["Z", *(f"P{i + 1}" for i in range(len(rig.nominal_angles_deg)))]
+    if rig.pivot.method == "arc":
+        labels += [f"C{i + 1}" for i in range(rig.pivot.arc_points)]
+    elif rig.pivot.method == "mark":
+        labels.append("M")
+    return tuple(labels)

@@ -1,8 +1,8 @@
 """Evaluation mode: measured target positions give Type A scatter and the estimates.
 
-The CSV has one row per frame: ``position,frame,x_px,y_px``. Position ids are the
-rig's point labels: ``Z`` the zero image, ``P1…Pn`` the readings, ``C1…Cm`` the
-pivot-arc points (in ``pivot_csv`` or the same file), ``M`` a pivot mark.
+The positions come from :func:`budget.inputs.data_csv.read_rig_data`, keyed by the rig's point
+labels: ``Z`` the zero image, ``P1…Pn`` the readings, ``C1…Cm`` the pivot-arc points, ``M`` a
+pivot mark. Nothing here reads a file.
 """
 
 from __future__ import annotations
@@ -13,31 +13,12 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from budget.errors import BudgetInputError
-from budget.inputs.data_csv import read_positions_csv
-from budget.rig.description import Positions, RigDescription, Sweep
-from budget.rig.geometry import point_labels, reading_angles_deg
+from budget.rig.description import Positions, RigDescription, Sweep, point_labels
+from budget.rig.geometry import reading_angles_deg
 
 __all__ = ["type_a_from_data", "load_evaluation", "Evaluation", "measured_angles_deg"]
 
-def _load(rig: RigDescription) -> dict[str, np.ndarray] | None:
-    if rig.data is None or rig.data.readings_csv is None:
-        return None
-    data = read_positions_csv(rig.data.readings_csv)
-    if rig.data.pivot_csv:
-        data.update(read_positions_csv(rig.data.pivot_csv))
-    needed = [lab for lab in point_labels(rig) if lab not in data]
-    if needed:
-        raise BudgetInputError(
-            f"The data files lack the position(s) {', '.join(needed)}; the rig needs "
-            f"{', '.join(point_labels(rig))}."
-        )
-    for lab, xy in data.items():
-        if len(xy) < 2:
-            raise BudgetInputError(f"Position '{lab}' has {len(xy)} frame; Type A needs at least 2.")
-    return data
-
-
-def type_a_from_data(rig: RigDescription) -> dict[str, tuple[float, float, int]] | None:
+def type_a_from_data(data: dict[str, np.ndarray] | None) -> dict[str, tuple[float, float, int]] | None:
     """Per point: (s_x/√n, s_y/√n, n) from the repeated frames (JCGM 100 4.2.3), or None.
 
     Notes
@@ -45,7 +26,6 @@ def type_a_from_data(rig: RigDescription) -> dict[str, tuple[float, float, int]]
     The mean of n frames has standard uncertainty s/√n with n − 1 degrees of
     freedom; Monte Carlo samples the scaled and shifted t distribution (JCGM 101 6.4.9).
     """
-    data = _load(rig)
     if data is None:
         return None
     out = {}
@@ -70,18 +50,18 @@ class Evaluation:
     measured_deg: tuple[float, ...] | None
 
 
-def load_evaluation(rig: RigDescription) -> Evaluation:
+def load_evaluation(rig: RigDescription, data: dict[str, np.ndarray] | None) -> Evaluation:
     """Apply the rig's measured data, if any (design mode passes the rig through unchanged).
 
     Positions mode: the reading angles become those measured from the mean positions,
     so the budget is evaluated where the pointer really was. Sweep mode: the set
     points stay, the nominal gain becomes the measured OLS slope, and the measured
-    angles go to the consistency check of the fit.
+    angles go to the consistency check of the fit. ``data`` is what
+    :func:`budget.inputs.data_csv.read_rig_data` read for this rig (None in design mode).
     """
-    data = _load(rig)
     if data is None:
         return Evaluation(rig, None, None)
-    type_a = type_a_from_data(rig)
+    type_a = type_a_from_data(data)
     angles = tuple(float(a) for a in measured_angles_deg(rig, data))
     if rig.sweep is not None:
         x = np.array(rig.sweep.set_points_v)

@@ -17,7 +17,7 @@ import numpy as np
 from budget.rig.description import RigDescription
 from budget.rig.pivot import fit_circle
 
-__all__ = ["rotate_tilt", "project", "dial_angles_deg", "point_labels", "tilt_vector", "image_points",
+__all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points",
            "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg"]
 
 
@@ -76,16 +76,6 @@ def nominal_image_points(rig: RigDescription) -> tuple[np.ndarray, np.ndarray]:
     """Image coordinates (px from the principal point) of every located point, no errors."""
     x, y = image_points(rig, {}, 1, dial_angles_deg(rig))
     return x[0], y[0]
-
-
-def point_labels(rig: RigDescription) -> tuple[str, ...]:
-    """Labels of every located point: the zero image, the readings, then pivot points."""
-    labels = ["Z", *(f"P{i + 1}" for i in range(len(rig.nominal_angles_deg)))]
-    if rig.pivot.method == "arc":
-        labels += [f"C{i + 1}" for i in range(rig.pivot.arc_points)]
-    elif rig.pivot.method == "mark":
-        labels.append("M")
-    return tuple(labels)
 
 
 def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:

@@ -15,8 +15,8 @@ from __future__ import annotations
 import numpy as np
 
 from budget.fit import ols_batch
-from budget.rig.description import RigDescription
-from budget.rig.geometry import dial_angles_deg, image_points, point_labels, reading_angles_deg
+from budget.rig.description import RigDescription, point_labels
+from budget.rig.geometry import dial_angles_deg, image_points, reading_angles_deg
 
 __all__ = ["VirtualRig"]
 

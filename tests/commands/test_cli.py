@@ -15,7 +15,8 @@ from budget import __version__
 from budget.cli import main
 from budget.commands.new import STARTERS
 from budget.inputs.rig_file import load_rig
-from budget.rig.geometry import nominal_image_points, point_labels
+from budget.rig.description import point_labels
+from budget.rig.geometry import nominal_image_points
 from tests.paths import TEMPLATES as TEMPLATE_DIR
 
 RUN = ("--trials", "20000", "--seed", "1")

@@ -10,6 +10,7 @@ import pytest
 
 from budget.commands.new import STARTERS as TEMPLATE_NAMES
 from budget.errors import BudgetInputError
+from budget.inputs.data_csv import read_rig_data
 from budget.inputs.rig_file import load_rig, parse_rig
 from budget.rig.evaluation import load_evaluation
 from tests.paths import TEMPLATES
@@ -24,6 +25,10 @@ BASE = {
     "positions": {"angles_deg": [30.0, 90.0]},
 }
 SWEEP = {"set_points_v": [1.0, 2.0, 3.0], "nominal_gain_deg_per_v": 10.0}
+
+
+def _evaluate(rig):
+    return load_evaluation(rig, read_rig_data(rig))
 
 
 def make_doc(over: dict | None = None) -> dict:
@@ -190,7 +195,7 @@ def _csv_rig(tmp_path: Path, text: str):
 def _csv_error(tmp_path: Path, text: str) -> str:
     rig = _csv_rig(tmp_path, text)
     with pytest.raises(BudgetInputError) as info:
-        load_evaluation(rig)
+        _evaluate(rig)
     msg = str(info.value)
     assert "\n" not in msg
     return msg
@@ -204,7 +209,7 @@ def _good_rows() -> list[str]:
 
 
 def test_csv_good_file_is_read(tmp_path):
-    ev = load_evaluation(_csv_rig(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(_good_rows()) + "\n"))
+    ev = _evaluate(_csv_rig(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(_good_rows()) + "\n"))
     assert ev.type_a is not None and set(ev.type_a) == {"Z", "P1", "P2", "M"}
 
 

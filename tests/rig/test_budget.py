@@ -16,13 +16,15 @@ import pytest
 from scipy import stats
 from uncertainties import covariance_matrix, ufloat, umath
 
+from budget.inputs.data_csv import read_rig_data
 from budget.inputs.rig_file import parse_rig
 from budget.propagation import StudentT, linear
 from budget.rig import components as comp
 from budget.rig.budget import run_budget
 from budget.rig.components import build_inputs
+from budget.rig.description import point_labels
 from budget.rig.evaluation import load_evaluation
-from budget.rig.geometry import nominal_image_points, point_labels
+from budget.rig.geometry import nominal_image_points
 from budget.rig.model import VirtualRig
 from tests.rigdoc import merge_doc
 
@@ -37,6 +39,10 @@ BASE = {
     "pivot": {"method": "mark", "mark_offset_bound_mm": 0.05},
     "positions": {"angles_deg": [25.0, 110.0, 250.0]},
 }
+
+
+def _evaluate(rig):
+    return load_evaluation(rig, read_rig_data(rig))
 
 
 def make_doc(over: dict | None = None) -> dict:
@@ -211,7 +217,7 @@ def evaluation(tmp_path_factory):
         w.writerow(["position", "frame", "x_px", "y_px"])
         w.writerows(rows)
     rig = parse_rig(doc, base=folder)
-    ev = load_evaluation(rig)
+    ev = _evaluate(rig)
     return rows, ev
 
 

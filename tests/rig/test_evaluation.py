@@ -13,6 +13,7 @@ import tomllib
 import numpy as np
 import pytest
 
+from budget.inputs.data_csv import read_rig_data
 from budget.inputs.rig_file import parse_rig
 from budget.rig.budget import run_budget
 from budget.rig.evaluation import load_evaluation
@@ -21,6 +22,10 @@ from tests.paths import TEMPLATES
 
 TEMPLATE = TEMPLATES / "moving_pointer.toml"
 RATE, EXPOSURE_MS = 120.0, 2.0
+
+
+def _evaluate(rig):
+    return load_evaluation(rig, read_rig_data(rig))
 
 
 def _doc() -> dict:
@@ -44,7 +49,7 @@ def evaluated(tmp_path_factory):
         rows += [f"{lab},{f + 1},{xi + rng.normal(0, 0.02):.6f},{yi + rng.normal(0, 0.02):.6f}" for f in range(6)]
     (folder / "readings.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     doc["data"] = {"readings_csv": "readings.csv"}
-    ev = load_evaluation(parse_rig(doc, base=folder))
+    ev = _evaluate(parse_rig(doc, base=folder))
     res = run_budget(ev.rig, rng=np.random.default_rng(1), trials=20_000, type_a=ev.type_a,
                      measured_deg=ev.measured_deg)
     return ev, res
