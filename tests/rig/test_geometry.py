@@ -322,3 +322,28 @@ def test_radial_distortion_moves_angles_with_pivot_off_axis():
                     "positions": {"angles_deg": [17.0, 123.0, 250.0]}})
     out = VirtualRig(rig)(k1=np.array([0.3]))
     assert abs(out["P2"][0] - 123.0) > 1e-3
+
+
+def test_the_rigs_projection_is_the_oracles_matrix_pinhole():
+    """The one projection of the budgets equals an independent matrix-form pinhole projection.
+
+    [derived] tests/oracles/projection.py projects P_c = R P + t with the dial's Z axis pointing
+    away from the camera; the rig's z points towards it. With F = diag(1, 1, −1) the two frames
+    are related by p_rig = F P, so a rotation by β about an in-plane axis a in the rig's frame is
+    F R F = a rotation by −β about a in the oracle's (a reflection reverses orientation). Targets
+    at a height, a pivot off the optical axis and random tilts must then give the same pixels.
+    """
+    from budget.rig.geometry import project
+    from tests.oracles.projection import project_points, tilt_rotation
+
+    rng = np.random.default_rng(20261202)
+    t, n = 50, 7
+    x, y = rng.normal(scale=40.0, size=(2, t, n))
+    h = rng.uniform(0.0, 3.0, size=(t, n))
+    beta, phi = rng.uniform(0.0, 0.3, t), rng.uniform(0.0, 2 * np.pi, t)
+    ox, oy, dist, f = 5.0, -3.0, 400.0, 5000.0
+    xr, yr, zr = rotate_tilt(x, y, h, (beta * np.cos(phi))[:, None], (beta * np.sin(phi))[:, None])
+    u, v = project(xr + ox, yr + oy, zr, focal_px=f, distance_mm=dist)
+    uo, vo = project_points(x, y, -h, f_px=np.full(t, f), cx=np.zeros(t), cy=np.zeros(t),
+                            R_cam=tilt_rotation(-beta, phi), t_cam=np.tile([ox, oy, dist], (t, 1)))
+    assert np.max(np.abs(u - uo)) < 1e-9 and np.max(np.abs(v - vo)) < 1e-9
