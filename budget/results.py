@@ -97,6 +97,7 @@ class RunResult:
     rig_raw: dict
     locator_notes: tuple[str, ...]
     joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
+    assumptions: tuple = ()  # rig.description.Assumption: values the tool supplied, with reasons
     mode: str = "design"  # "design": outputs are what the rig would read; "evaluation": true values
 
     def component_descriptions(self) -> dict[str, str]:

@@ -29,6 +29,10 @@ def execute(args: argparse.Namespace) -> int:
         d = q.distribution
         print(f"  {name:<22} {q.group or name:<22} {q.evaluation:<4} {d.describe():<36} "
               f"{fmt(d.u):>7} {q.unit:<3} {fmt_dof(d.dof):>4}  {q.source}")
+    if rig.assumptions:
+        print("assumptions (values the tool supplied because the file left them out):")
+        for a in rig.assumptions:
+            print(f"  {a.field} = {a.value!r}: {a.reason}")
     for note in lm.notes:
         print(f"! {note}")
     return 0

@@ -7,6 +7,7 @@ one (a likely typo). Nothing is repaired silently.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from pathlib import Path
 
@@ -25,9 +26,15 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "pixels_x": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
         "pixels_y": Field("int", "an integer in [16, 100000]", lambda v: 16 <= v <= 100_000, True),
         "pitch_um": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100, True),
-        "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32),
-        "read_noise_e": number("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),
-        "full_well_e": number("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
+        "bit_depth": Field("int", "an integer in [1, 32]", lambda v: 1 <= v <= 32,
+                           assumed="a 12-bit ADC is common in machine-vision cameras (common practice); "
+                                   "give the datasheet value"),
+        "read_noise_e": number("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4,
+                               assumed="typical of a machine-vision CMOS sensor (common practice, value from "
+                                       "memory); give the datasheet value"),
+        "full_well_e": number("a number in (0, 1e8]", lambda v: 0 < v <= 1e8,
+                              assumed="typical of a 3-5 um pixel (common practice, value from memory); it sets "
+                                      "the ADC step and saturation; give the datasheet value"),
         "shutter": choice("global", "rolling"),
         "row_time_us": non_negative(),
         "frame_rate_hz": positive(),
@@ -38,7 +45,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "focal_length_mm": number("a number in [1, 2000]", lambda v: 1 <= v <= 2000, True),
         "f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "distortion": choice("corrected", "uncorrected"),
-        "residual_rms_px": number("a number in (0, 100]", lambda v: 0 < v <= 100),
+        "residual_rms_px": number("a number in (0, 100]", lambda v: 0 < v <= 100,
+                                  assumed="what a careful calibration reaches (common practice, value from "
+                                          "memory); give your calibration's RMS reprojection error"),
         "residual_correlation_px": number("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
         "distortion_edge_pct": number("a number in [0, 20]", lambda v: 0 <= v <= 20),
         "wavelength_nm": number("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
@@ -64,8 +73,11 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "shape": choice("spot", "disk"),
         "sigma_px": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
         "diameter_mm": number("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
-        "signal_e": number("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12),
-        "background_e": number("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9),
+        "signal_e": number("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12,
+                           assumed="a well-exposed target (assumption); the signal sets the centroid "
+                                   "noise: measure it from a frame"),
+        "background_e": number("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9,
+                               assumed="a dark surround (assumption); measure it beside the target"),
         "source": _SOURCE,
     },
     "locator": {
@@ -147,6 +159,7 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
             "or [sweep] (set points and a nominal gain)."
         )
     built: dict[str, object] = {}
+    assumed: list[d.Assumption] = []
     for section, fields in SCHEMA.items():
         raw = doc.get(section)
         if raw is None:
@@ -165,23 +178,33 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
             if spec.required and key not in values:
                 raise BudgetInputError(f"The '{key}' field of [{section}] is missing; it must be {spec.allowed}.")
         built[section] = _CLASSES[section](**values)
+        assumed += _assumed(section, fields, values)
     for section in ("target", "locator", "pivot", "frames", "motion"):
         if built[section] is None:
             built[section] = _CLASSES[section]()
+            assumed += _assumed(section, SCHEMA[section], {})
     title = doc.get("title", "untitled rig")
     if not isinstance(title, str):
         raise field_error("title", "a text", title)
     if built["sweep"] is not None and built["source"] is None:
         built["source"] = d.VoltageSource()
+        assumed += _assumed("source", SCHEMA["source"], {})
     if built["data"] is not None and base is not None:
         data = built["data"]
         built["data"] = d.Data(
             readings_csv=str(base / data.readings_csv) if data.readings_csv else None,
             pivot_csv=str(base / data.pivot_csv) if data.pivot_csv else None,
         )
-    rig = d.RigDescription(title=title, raw=doc, **built)  # type: ignore[arg-type]
+    rig = d.RigDescription(title=title, raw=doc, assumptions=tuple(assumed), **built)  # type: ignore[arg-type]
     _cross_checks(rig)
     return rig
+
+
+def _assumed(section: str, fields: dict[str, Field], given: dict) -> list[d.Assumption]:
+    """The defaults used in one section that change a budget, each with the reason it is fair."""
+    defaults = {f.name: f.default for f in dataclasses.fields(_CLASSES[section])}
+    return [d.Assumption(f"{section}.{key}", defaults[key], spec.assumed)
+            for key, spec in fields.items() if spec.assumed and key not in given]
 
 
 def _cross_checks(rig: d.RigDescription) -> None:

@@ -27,11 +27,14 @@ class Field:
     allowed: str
     ok: Callable[[object], bool] = lambda v: True
     required: bool = False
+    assumed: str = ""
+    """Why the default is a fair value when the file leaves the field out; a field with this text
+    is listed as an assumption (field, value, reason) in every report whenever its default is used."""
 
 
-def number(allowed: str, ok: Callable[[float], bool], required: bool = False) -> Field:
+def number(allowed: str, ok: Callable[[float], bool], required: bool = False, assumed: str = "") -> Field:
     """A real number with the check ``ok`` and the words ``allowed`` for the message."""
-    return Field("float", allowed, ok, required)
+    return Field("float", allowed, ok, required, assumed)
 
 
 def positive(required: bool = False) -> Field:

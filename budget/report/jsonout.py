@@ -64,6 +64,7 @@ def run_to_dict(result: RunResult) -> dict:
         "p": result.p,
         "standards": ["JCGM 100:2008", "JCGM 101:2008"],
         "angles": angles,
+        "assumptions": [{"field": a.field, "value": a.value, "reason": a.reason} for a in result.assumptions],
         "warnings": list(result.warnings),
     }
     if result.gain is not None and result.gain_summary is not None:

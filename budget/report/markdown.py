@@ -113,6 +113,10 @@ def render_markdown(result: RunResult) -> str:
     for ob in result.outputs:
         lines.append(output_markdown(ob))
     lines += _sweep(result)
+    if result.assumptions:
+        lines += ["## Assumptions", "", "Values the tool supplied because the input file left them out:", ""]
+        lines += [f"- `{md_text(a.field)}` = {md_text(repr(a.value))}: {md_text(a.reason)}" for a in result.assumptions]
+        lines += [""]
     described = result.component_descriptions()
     if described:
         lines += ["## What the components are", ""]

@@ -69,6 +69,7 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
     number(ws, r, 2, result.p, FMT["p"])
     r += 2
     r = _sweep_rows(ws, r, result)
+    r = _assumptions(ws, r, result)
     r = _components(ws, r, result)
     _warnings(ws, r, result)
     ws.freeze_panes = "B4"
@@ -117,6 +118,17 @@ def _sweep_rows(ws, r: int, result: RunResult) -> int:
         else:
             number(ws, r, 2, value, fmt)
     return r + 2
+
+
+def _assumptions(ws, r: int, result: RunResult) -> int:
+    """Values the tool supplied, one row each (field, value, reason); returns the next free row."""
+    if not result.assumptions:
+        return r
+    title(ws, r, "Assumptions (values the tool supplied because the input file left them out)", 2)
+    for i, a in enumerate(result.assumptions, start=1):
+        text(ws, r + i, 1, f"{a.field} = {a.value!r}")
+        text(ws, r + i, 2, a.reason).alignment = WRAP
+    return r + len(result.assumptions) + 2
 
 
 def _components(ws, r: int, result: RunResult) -> int:

@@ -237,7 +237,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
-        locator_notes=notes, joint=mc.joint,
+        locator_notes=notes, joint=mc.joint, assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
     )
 

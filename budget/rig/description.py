@@ -12,7 +12,7 @@ from budget.imaging import optics
 
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
-    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "point_labels",
+    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "Assumption", "point_labels",
 ]
 
 
@@ -156,6 +156,15 @@ class Data:
 
 
 @dataclass(frozen=True)
+class Assumption:
+    """A value the tool supplied because the file left the field out, and why it is fair."""
+
+    field: str  # "section.key", as in the rig file
+    value: object
+    reason: str
+
+
+@dataclass(frozen=True)
 class RigDescription:
     """A whole rig: one instance per input file."""
 
@@ -173,6 +182,7 @@ class RigDescription:
     sweep: Sweep | None
     data: Data | None = None
     raw: dict = field(default_factory=dict, compare=False, repr=False)
+    assumptions: tuple[Assumption, ...] = ()
 
     # ---- derived optics (pinhole with a thin lens focused at the working distance)
     @property
