@@ -284,7 +284,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     s_piv = g2[:, geo.pivot].sum(axis=1)[:, None]
     inv_r2 = 1.0 / r_px**2
     beta = math.radians(sc["tilt_bound_deg"])
-    ox, oy = sc["pivot_offset_x_mm"], sc["pivot_offset_y_mm"]
+    ox, oy = sc["pivot_offset_x_mm"], -sc["pivot_offset_y_mm"]  # the scene's y offset is down the image; here y is up
     dtilt = (geo.tilt_r[:, :, None] * (sc["pointer_radius_mm"] / dist)
              + (geo.tilt_ox[:, :, None] * ox + geo.tilt_oy[:, :, None] * oy) / dist)  # (O, 2, C)
     var_skew = beta**2 / 3.0 * np.sum(dtilt**2, axis=1)

@@ -59,6 +59,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "pivot_offset_x_mm": number("a finite number", math.isfinite),
         "pivot_offset_y_mm": number("a finite number", math.isfinite),
         "zero_direction_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "travel": Field("str", "one of 'clockwise', 'counterclockwise'", lambda v: v in ("clockwise", "counterclockwise"),
+                        assumed="readings counted counterclockwise as seen on the displayed image (the sense of "
+                                "angles in mathematics); a pointer that turns clockwise on the image needs "
+                                "travel = \"clockwise\""),
         "target_height_mm": non_negative(),
         "target_height_u_mm": non_negative(),
         "tilt_bound_deg": number("a number in (0, 90)", lambda v: 0 < v < 90),
@@ -265,9 +269,10 @@ def _cross_checks(rig: d.RigDescription) -> None:
     pitch_mm = cam.pitch_um * 1e-3
     m = rig.magnification
     cx = g.pivot_offset_x_mm * m / pitch_mm
-    cy = g.pivot_offset_y_mm * m / pitch_mm
+    cy = -g.pivot_offset_y_mm * m / pitch_mm  # up from the centre: the offset's y is down the image
     r = rig.radius_px + 3 * spot_sigma_px(rig) + 1
     half_w, half_h = cam.pixels_x / 2, cam.pixels_y / 2
+    sense = 1.0 if g.travel == "counterclockwise" else -1.0  # readings on the displayed image
     points = [("", a) for a in (0.0, *angles)]
     if rig.pivot.method == "arc":  # the pivot-arc points are located too
         p = rig.pivot
@@ -275,12 +280,13 @@ def _cross_checks(rig: d.RigDescription) -> None:
         step = 2 * p.arc_half_angle_deg / (p.arc_points - 1)
         points += [(" (pivot arc)", mid - p.arc_half_angle_deg + i * step) for i in range(p.arc_points)]
     for what, a in points:
-        t = math.radians(g.zero_direction_deg + a)
+        t = math.radians(g.zero_direction_deg + sense * a)
         x, y = cx + r * math.cos(t), cy + r * math.sin(t)
         if abs(x) > half_w or abs(y) > half_h:
             raise BudgetInputError(
                 f"The pointer leaves the sensor's field of view at {a:g}°{what}: the target would be imaged at "
-                f"({x:.0f}, {y:.0f}) px from the sensor centre, outside ±({half_w:.0f}, {half_h:.0f}) px. "
+                f"x = {half_w - 0.5 + x:.0f}, y = {half_h - 0.5 - y:.0f} px (image coordinates: x right, y down, "
+                f"from the top-left pixel), outside the {cam.pixels_x} x {cam.pixels_y} px image. "
                 "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
                 + (" and the [pivot] arc." if what else ".")
             )

@@ -55,6 +55,7 @@ class Geometry:
     pivot_offset_x_mm: float = 0.0
     pivot_offset_y_mm: float = 0.0
     zero_direction_deg: float = 90.0
+    travel: str = "counterclockwise"
     target_height_mm: float = 0.0
     target_height_u_mm: float = 0.0
     tilt_bound_deg: float | None = None

@@ -16,7 +16,7 @@ import numpy as np
 
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
-from budget.rig.geometry import dial_angles_deg, image_points, reading_angles_deg
+from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg
 
 __all__ = ["VirtualRig"]
 
@@ -101,10 +101,11 @@ class VirtualRig:
                                     reading_deg=true_deg if self.rig.sweep is not None else None)
         img_x, img_y = img_x.copy(), img_y.copy()
         if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
-            r = np.radians(kw["roll_deg"])
-            x0, y0 = img_x[:, 0].copy(), img_y[:, 0].copy()
-            img_x[:, 0] = np.cos(r) * x0 - np.sin(r) * y0
-            img_y[:, 0] = np.sin(r) * x0 + np.cos(r) * y0
+            r = np.radians(kw["roll_deg"])  # counterclockwise on the displayed image, about the principal point
+            cx, cy = principal_point(self.rig)
+            x0, y0 = img_x[:, 0] - cx, cy - img_y[:, 0]
+            img_x[:, 0] = cx + np.cos(r) * x0 - np.sin(r) * y0
+            img_y[:, 0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
         self._locator_errors(kw, img_x, img_y)
         angle = reading_angles_deg(self.rig, img_x, img_y)
         angle = angle + self._timing_deg(kw, t, img_y[:, 1:1 + self.n_read])
@@ -123,8 +124,8 @@ class VirtualRig:
         cam = self.rig.camera
         delay = np.full((t, self.n_read), self.stamp_offset_s)
         if cam.shutter == "rolling":
-            rows = 0.5 * cam.pixels_y - img_y  # rows counted from the top of the sensor
-            delay = delay + rows * cam.row_time_us * 1e-6
+            # the row index is the image y (row 0 at the top, read first, at the timestamp)
+            delay = delay + img_y * cam.row_time_us * 1e-6
         for i in range(self.n_read):
             key = f"jitter_ms_P{i + 1}"
             if key in kw:
