@@ -22,8 +22,7 @@ def evaluate_rig_file(args: argparse.Namespace, quiet: bool):
     rig = load_rig(args.file)
     ev = load_evaluation(rig, read_rig_data(rig))
     prog, cb = progress_bar(not quiet)
-    kwargs = dict(rng=make_rng(args.seed), p=args.p, trials=args.trials, input_path=args.file,
-                  type_a=ev.type_a, measured_deg=ev.measured_deg)
+    kwargs = dict(rng=make_rng(args.seed), p=args.p, trials=args.trials, input_path=args.file, evaluation=ev)
     if prog is not None:
         with prog:
             return ev.rig, run_budget(ev.rig, progress=cb, **kwargs)

@@ -59,7 +59,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "pivot_offset_x_mm": number("a finite number", math.isfinite),
         "pivot_offset_y_mm": number("a finite number", math.isfinite),
         "zero_direction_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
-        "travel": Field("str", "one of 'clockwise', 'counterclockwise'", lambda v: v in ("clockwise", "counterclockwise"),
+        "travel": Field("str", "one of 'clockwise', 'counterclockwise'",
+                        lambda v: v in ("clockwise", "counterclockwise"),
                         assumed="readings counted counterclockwise as seen on the displayed image (the sense of "
                                 "angles in mathematics); a pointer that turns clockwise on the image needs "
                                 "travel = \"clockwise\""),
@@ -135,6 +136,18 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "data": {
         "readings_csv": Field("str", "a path to a CSV file"),
         "pivot_csv": Field("str", "a path to a CSV file"),
+        "angle_tolerance_deg": number("a number in (0, 90]", lambda v: 0 < v <= 90,
+                                      assumed="a measured reading farther than this from its nominal is refused as "
+                                              "an input error (wrong travel, label or zero image), not taken on "
+                                              "another branch; 10° allows a gain a few % off its nominal over a "
+                                              "full scale (common practice); give your own"),
+    },
+    "reference": {
+        "angles_deg": Field("floats", "a list of reference angles in (-360, 360), one per reading",
+                            lambda v: all(-360 < a < 360 for a in v), True),
+        "U_deg": Field("floats", "a list of expanded uncertainties > 0, one per reading or one for all",
+                       lambda v: all(a > 0 for a in v), True),
+        "source": _SOURCE,
     },
 }
 
@@ -142,6 +155,7 @@ _CLASSES = {
     "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
     "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
     "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
+    "reference": d.Reference,
 }
 _REQUIRED_SECTIONS = ("camera", "lens", "geometry")
 _TOP_KEYS = ("title",)
@@ -195,7 +209,8 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
         assumed += _assumed("source", SCHEMA["source"], {})
     if built["data"] is not None and base is not None:
         data = built["data"]
-        built["data"] = d.Data(
+        built["data"] = dataclasses.replace(
+            data,
             readings_csv=str(base / data.readings_csv) if data.readings_csv else None,
             pivot_csv=str(base / data.pivot_csv) if data.pivot_csv else None,
         )
@@ -252,6 +267,14 @@ def _cross_checks(rig: d.RigDescription) -> None:
     if cam.shutter == "rolling" and cam.row_time_us <= 0:
         raise field_error("row_time_us", "a number > 0 for a rolling shutter", cam.row_time_us, "[camera]")
     angles = rig.nominal_angles_deg
+    ref = rig.reference
+    if ref is not None:
+        if len(ref.angles_deg) != len(angles):
+            raise field_error("angles_deg", f"a list of {len(angles)} reference angles, one per reading",
+                              list(ref.angles_deg), "[reference]")
+        if len(ref.U_deg) not in (1, len(angles)):
+            raise field_error("U_deg", f"a list of 1 or {len(angles)} expanded uncertainties", list(ref.U_deg),
+                              "[reference]")
     distinct = {round(a % 360.0, 9) % 360.0 for a in (0.0, *angles)}
     if rig.pivot.method == "readings" and (len(angles) < 2 or len(distinct) < 3):
         raise BudgetInputError(

@@ -35,7 +35,8 @@ from budget.propagation.validation import Validation, validate
 
 __all__ = [
     "Arcsine", "CurvilinearTrapezoid", "Distribution", "Normal", "Rectangular", "StudentT",
-    "Trapezoidal", "Triangular", "MultivariateT", "JointComponent", "InputQuantity", "linear", "monte_carlo", "validate",
+    "Trapezoidal", "Triangular", "MultivariateT", "JointComponent",
+    "InputQuantity", "linear", "monte_carlo", "validate",
     "LinearResult", "MultiLinearResult", "Row", "GroupRow", "MonteCarloResult",
     "MultiMonteCarloResult", "Validation", "coverage_factor", "coverage_intervals",
     "numerical_tolerance", "round_pair", "statement", "interval_statement",

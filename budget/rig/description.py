@@ -12,7 +12,8 @@ from budget.imaging import optics
 
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
-    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "Assumption", "point_labels",
+    "VoltageSource", "Positions", "Sweep", "Data", "Reference", "MeasuredData", "RigDescription", "Assumption",
+    "point_labels",
 ]
 
 
@@ -152,8 +153,35 @@ class Sweep:
 
 @dataclass(frozen=True)
 class Data:
+    """Where the measured positions are (``[data]``) and how far a reading may be from its nominal."""
+
     readings_csv: str | None = None
     pivot_csv: str | None = None
+    angle_tolerance_deg: float = 10.0
+
+
+@dataclass(frozen=True)
+class Reference:
+    """Reference angles of the readings (a rotary table, a calibrated dial) with their expanded uncertainty."""
+
+    angles_deg: tuple[float, ...]
+    U_deg: tuple[float, ...]
+    source: str = "assumed"
+
+
+@dataclass(frozen=True, eq=False)
+class MeasuredData:
+    """Located positions read from the data files, in image coordinates (x right, y down, px).
+
+    ``points`` maps a point label to its frames' positions in acquisition order, shape (n, 2);
+    ``images`` gives each frame's image file as recorded ("" when the data file names none);
+    ``files`` lists every file the data rest on as (path, SHA-256, kind, note), kind "data" or
+    "image"; the note says when an image was not found and its recorded SHA-256 is shown.
+    """
+
+    points: dict
+    images: dict
+    files: tuple[tuple[str, str, str, str], ...]
 
 
 @dataclass(frozen=True)
@@ -182,6 +210,7 @@ class RigDescription:
     positions: Positions | None
     sweep: Sweep | None
     data: Data | None = None
+    reference: Reference | None = None
     raw: dict = field(default_factory=dict, compare=False, repr=False)
     assumptions: tuple[Assumption, ...] = ()
 

@@ -16,6 +16,7 @@ import numpy as np
 
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
+from budget.rig.evaluation import as_point_scatter
 from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg
 
 __all__ = ["VirtualRig"]
@@ -29,9 +30,14 @@ class VirtualRig:
     sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
     """
 
-    def __init__(self, rig: RigDescription) -> None:
+    def __init__(self, rig: RigDescription, type_a: dict | None = None) -> None:
         self.rig = rig
         self.labels = point_labels(rig)
+        # input name -> (column, unit vector in the image) of the frames' principal axes and drifts
+        self.directions: dict[str, tuple[int, float, float]] = {}
+        for lab, pt in (type_a or {}).items():
+            for name, (ux, uy) in as_point_scatter(lab, pt).directions().items():
+                self.directions[name] = (self.labels.index(lab), ux, uy)
         self.n_read = len(rig.nominal_angles_deg)
         self.nominal_deg = np.array(rig.nominal_angles_deg)
         self.dial_deg = dial_angles_deg(rig)
@@ -91,6 +97,23 @@ class VirtualRig:
                     key = f"{kind}_{ax}_{lab}"
                     if key in kw:
                         arr[:, j] += kw[key]
+        for key, (j, ux, uy) in self.directions.items():
+            if key in kw:
+                img_x[:, j] += kw[key] * ux
+                img_y[:, j] += kw[key] * uy
+        axial = ("noise_major_", "noise_minor_", "drift_")
+        unknown = [k for k in kw if k.startswith(axial) and k not in self.directions]
+        if unknown:  # an error along an axis the model was not told: never drop it silently
+            raise ValueError(f"VirtualRig was built without the Type A data of {unknown}; pass type_a")
+
+    def _misfit_deg(self, kw: dict, t: int) -> np.ndarray:
+        """Per-point discrepancies of the straight line (``misfit_Pj``, deg): they enter the fit only."""
+        out = np.zeros((t, self.n_read))
+        for i in range(self.n_read):
+            key = f"misfit_P{i + 1}"
+            if key in kw:
+                out[:, i] = kw[key]
+        return out
 
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
@@ -112,7 +135,7 @@ class VirtualRig:
         out = {f"P{i + 1}": angle[:, i] for i in range(self.n_read)}
         if self.rig.sweep is not None:
             x = self._fit_volts(kw, t, self._actual_volts(kw, t))
-            slope, intercept = ols_batch(x, angle)
+            slope, intercept = ols_batch(x, angle + self._misfit_deg(kw, t))
             out["gain"] = slope
             out["intercept"] = intercept
         return out

@@ -202,9 +202,12 @@ def _csv_error(tmp_path: Path, text: str) -> str:
 
 
 def _good_rows() -> list[str]:
+    """Four frames per point in image coordinates (y down) about a mark at (0, 0): the zero image up
+    (zero direction 90°), readings 30° and 90° counterclockwise on the displayed image."""
     rows = []
-    for lab, (x, y) in {"Z": (0.0, 400.0), "P1": (-200.0, 346.4), "P2": (-400.0, 0.0), "M": (0.0, 0.0)}.items():
-        rows += [f"{lab},1,{x + 0.01},{y}", f"{lab},2,{x - 0.01},{y + 0.02}", f"{lab},3,{x},{y - 0.01}"]
+    for lab, (x, y) in {"Z": (0.0, -400.0), "P1": (-200.0, -346.4), "P2": (-400.0, 0.0), "M": (0.0, 0.0)}.items():
+        rows += [f"{lab},1,{x + 0.01},{y}", f"{lab},2,{x - 0.01},{y + 0.02}", f"{lab},3,{x},{y - 0.01}",
+                 f"{lab},4,{x + 0.005},{y - 0.012}"]
     return rows
 
 
