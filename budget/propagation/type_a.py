@@ -44,7 +44,8 @@ class SeriesTypeA:
     dof : float
         ν = n_eff − 1 (n − 1 without autocorrelation).
     lag1 : tuple of float
-        Lag-1 autocorrelation of each axis (bias-corrected), of the detrended series if it drifts.
+        Sample lag-1 autocorrelation r1 of each axis, of the detrended series if it drifts (n_eff
+        uses its bias-corrected value).
     lag1_p : tuple of float
         One-sided p-value of each lag-1 autocorrelation against white noise.
     autocorrelated : bool
@@ -108,8 +109,8 @@ def effective_n_ar1(n: int, rho: float) -> float:
     return n * (n - gamma) / (gamma * (n - 1))
 
 
-def _lag1(e: np.ndarray) -> tuple[float, float]:
-    """Bias-corrected lag-1 autocorrelation of a centred series and its one-sided p-value.
+def _lag1(e: np.ndarray) -> tuple[float, float, float]:
+    """Lag-1 autocorrelation r1 of a centred series, its bias-corrected ρ̂ and the one-sided p-value.
 
     Notes
     -----
@@ -121,11 +122,11 @@ def _lag1(e: np.ndarray) -> tuple[float, float]:
     n = e.size
     den = float(np.sum(e * e))
     if den == 0.0:
-        return 0.0, 1.0
+        return 0.0, 0.0, 1.0
     r1 = float(np.sum(e[:-1] * e[1:])) / den
     z = (r1 + 1.0 / n) * math.sqrt(n)
     rho = (n * r1 + 1.0) / (n - 3) if n > 3 else r1
-    return rho, float(stats.norm.sf(z))
+    return r1, rho, float(stats.norm.sf(z))
 
 
 def _slope(v: np.ndarray) -> tuple[float, float, np.ndarray]:
@@ -171,7 +172,7 @@ def type_a_series(values, *, alpha: float = ALPHA) -> SeriesTypeA:
     if not np.all(np.isfinite(x)):
         raise field_error("values", "finite numbers", "non-finite values", "type_a_series")
     level = alpha / dim
-    slopes, slope_p, rhos, rho_p, resid = [], [], [], [], []
+    slopes, slope_p, r1s, rhos, rho_p, resid = [], [], [], [], [], []
     for j in range(dim):
         b, p, res = _slope(x[:, j])
         slopes.append(b)
@@ -180,7 +181,8 @@ def type_a_series(values, *, alpha: float = ALPHA) -> SeriesTypeA:
     drifting = min(slope_p) < level
     for j in range(dim):
         e = resid[j] if drifting else x[:, j] - x[:, j].mean()
-        rho, p = _lag1(e)
+        r1, rho, p = _lag1(e)
+        r1s.append(r1)
         rhos.append(rho)
         rho_p.append(p)
     autocorrelated = min(rho_p) < level
@@ -191,7 +193,7 @@ def type_a_series(values, *, alpha: float = ALPHA) -> SeriesTypeA:
     return SeriesTypeA(
         n=n, mean=tuple(float(v) for v in x.mean(axis=0)),
         scatter=tuple(tuple(float(v) for v in row) for row in scatter),
-        n_eff=n_eff, dof=n_eff - 1.0, lag1=tuple(rhos), lag1_p=tuple(rho_p), autocorrelated=autocorrelated,
+        n_eff=n_eff, dof=n_eff - 1.0, lag1=tuple(r1s), lag1_p=tuple(rho_p), autocorrelated=autocorrelated,
         slope=tuple(slopes), slope_p=tuple(slope_p), drifting=drifting,
     )
 

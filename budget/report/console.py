@@ -104,8 +104,14 @@ def _data_section(con: Console, result: RunResult) -> None:
         return
     con.print()
     con.print("Measured data files:")
+    images = [f for f in d.files if f.kind == "image"]
     for f in d.files:
-        con.print(f"  {f.kind:<5} {f.path}  sha256 {f.sha256}" + (f" ({f.note})" if f.note else ""))
+        if f.kind != "image" or len(images) <= 4:
+            con.print(f"  {f.kind:<5} {f.path}  sha256 {f.sha256}" + (f" ({f.note})" if f.note else ""))
+    if len(images) > 4:
+        missing = sum(1 for f in images if f.note)
+        con.print(f"  {len(images)} image files named in the data file, each with its SHA-256 (listed in the JSON, "
+                  "Markdown and workbook)" + (f"; {missing} not found, their recorded SHA-256 kept" if missing else ""))
     con.print(data_table(result))
     con.print(f"  {d.scatter_check}")
 

@@ -250,7 +250,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
                               set_points_v=tuple(rig.sweep.set_points_v), lack_of_fit=lof,
                               measured_deg=tuple(measured_deg) if measured_deg is not None else None)
     notes = locator_model(rig).notes
-    warns = _rig_warnings(rig, notes)
+    warns = _rig_warnings(rig, notes, evaluated=type_a is not None)
     if lof is not None and lof.significant:
         warns.insert(0, lof.verdict)
     for ob in angles:
@@ -285,7 +285,7 @@ class TrueValueModel:
 
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
-        return {k: self.located[k] + self.nominal[k] - v for k, v in out.items()}
+        return {k: self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v for k, v in out.items()}
 
 
 def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, float]:
@@ -312,10 +312,10 @@ def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...]) -> list[str]:
-    """What the physics says about this rig, whatever the numbers."""
+def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...], evaluated: bool = False) -> list[str]:
+    """What the physics says about this rig, whatever the numbers (``per_reading`` only in design mode)."""
     out = list(locator_notes)
-    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid"):
+    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid") and not evaluated:
         what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
         out.append(
             f"Averaging {rig.frames.per_reading} frames divides the centroid noise by "

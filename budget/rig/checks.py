@@ -104,15 +104,19 @@ def lack_of_fit(rig: RigDescription, u_own: list[float], measured: tuple[float, 
 
 
 def misfit_inputs(rig: RigDescription, lof: LackOfFit) -> dict[str, InputQuantity]:
-    """The discrepancy s_d of a rejected line as one input per reading (``misfit_Pj``, deg).
+    """The discrepancy s_d of a rejected line as one input per reading (``misfit_Pj``, deg) and one
+    for a new point (``misfit_new``: the line's discrepancy where a prediction is made).
 
     Notes
     -----
     All of them come from one estimate of s_d with ν = n − 2, so they are the components of one
     :class:`~budget.propagation.MultivariateT` with scale s_d²·I (counted once in ν_eff); with
     ν <= 2 that t has no variance and they are normal instead (their ν then left infinite).
+    The virtual rig adds ``misfit_Pj`` to the fitted angles only (not to the angles themselves)
+    and returns ``misfit_new`` as the output ``line_discrepancy``, which predictions add to
+    every Monte Carlo trial.
     """
-    n = len(rig.sweep.set_points_v)
+    n = len(rig.sweep.set_points_v) + 1
     src = (f"sweep's χ² = {lof.chi2:.4g} with ν = {lof.dof} (p = {lof.p_value:.2g}); "
            f"Paule–Mandel s_d = {lof.misfit_deg:.3g}°")
     if lof.dof > 2:
@@ -122,7 +126,8 @@ def misfit_inputs(rig: RigDescription, lof: LackOfFit) -> dict[str, InputQuantit
     else:
         dists = tuple(Normal(0.0, lof.misfit_deg) for _ in range(n))
         src += "; ν <= 2, carried as normal"
-    return {f"misfit_P{j + 1}": InputQuantity(d, "°", MISFIT, src, evaluation="A") for j, d in enumerate(dists)}
+    names = [f"misfit_P{j + 1}" for j in range(n - 1)] + ["misfit_new"]
+    return {name: InputQuantity(d, "°", MISFIT, src, evaluation="A") for name, d in zip(names, dists, strict=True)}
 
 
 def reference_check(rig: RigDescription, ob: OutputBudget, index: int) -> ReferenceCheck | None:

@@ -138,6 +138,8 @@ class VirtualRig:
             slope, intercept = ols_batch(x, angle + self._misfit_deg(kw, t))
             out["gain"] = slope
             out["intercept"] = intercept
+            if "misfit_new" in kw:  # a rejected line's discrepancy at a new point, for predictions
+                out["line_discrepancy"] = kw["misfit_new"].copy()
         return out
 
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:

@@ -237,6 +237,26 @@ def test_csv_nan_cell_names_the_row(tmp_path, cell):
     assert "Row 4" in msg and "'y_px'" in msg
 
 
+def test_csv_unknown_position_and_repeated_frame(tmp_path):
+    msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(_good_rows() + ["P7,1,0,0"]) + "\n")
+    assert "P7" in msg and "does not have" in msg
+    rows = _good_rows()
+    rows[5] = rows[4]  # P1 frame 1 twice
+    msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(rows) + "\n")
+    assert "P1" in msg and "frame 1 twice" in msg
+
+
+def test_csv_frames_are_taken_in_frame_order(tmp_path):
+    """The drift and autocorrelation checks need acquisition order: rows are sorted by 'frame'."""
+    from budget.inputs.data_csv import read_positions_csv
+
+    rows = _good_rows()
+    (tmp_path / "pos.csv").write_text("position,frame,x_px,y_px\n" + "\n".join(reversed(rows)) + "\n",
+                                      encoding="utf-8")
+    pts, _ = read_positions_csv(tmp_path / "pos.csv")
+    assert pts["Z"][0, 0] == pytest.approx(0.01) and pts["Z"][3, 1] == pytest.approx(-400.012)
+
+
 def test_csv_missing_position(tmp_path):
     rows = [r for r in _good_rows() if not r.startswith("M,")]
     msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(rows) + "\n")
