@@ -127,9 +127,10 @@ def _add_camera_commands(sub) -> None:
     fr.add_argument("--position", nargs="+", action="append", metavar=("LABEL", "IMAGE"),
                     help="a position's label (Z, P1, ... as in the rig) and its frames in acquisition order; repeat")
     fr.add_argument("--roi", help="x,y,w,h in pixels for every position (default: find each position's target)")
-    fr.add_argument("--window", type=int, default=9,
+    fr.add_argument("--window", type=int, default=None,
                     help="locator window, odd px, centred on the target found (default 9: give your rig's "
-                         "[locator] window_px)")
+                         "[locator] window_px); with --roi, a window around the brightest pixel in it "
+                         "(default: the whole ROI)")
     fr.add_argument("--method", choices=("com", "gauss", "threshold"), default="com")
     fr.add_argument("--out", type=Path, help="the CSV to write (one row per frame)")
     fr.add_argument("--force", action="store_true")

@@ -10,7 +10,10 @@ from budget.commands.common import dumps
 from budget.errors import BudgetInputError, field_error
 from budget.report.safe_write import atomic_write, check_targets
 
-__all__ = ["execute", "parse_roi"]
+__all__ = ["execute", "parse_roi", "DEFAULT_WINDOW_PX"]
+
+DEFAULT_WINDOW_PX = 9
+"""Window of ``frames`` without --roi and --window: the default of ``[locator] window_px``."""
 
 
 def parse_roi(text: str) -> tuple[int, int, int, int]:
@@ -45,12 +48,13 @@ def execute(args: argparse.Namespace) -> int:
     from budget.inputs.data_csv import sha256_of
 
     roi = parse_roi(args.roi) if args.roi is not None else None
-    if args.window < 3 or args.window % 2 == 0:
+    window = args.window if args.window is not None else (None if roi else DEFAULT_WINDOW_PX)
+    if window is not None and (window < 3 or window % 2 == 0):
         raise field_error("--window", "an odd number of pixels >= 3 (your rig's [locator] window_px)", args.window)
     positions = _positions(args.position)
     if args.out is not None:
         check_targets([args.out], args.force)
-    sets = locate_positions(positions, roi=roi, method=args.method, window_px=args.window)
+    sets = locate_positions(positions, roi=roi, method=args.method, window_px=window)
     if args.out is not None:
         hashes = {p: sha256_of(p) for ps in sets for p in ps.result.paths}
         text = frames_csv_text(sets, hashes, args.out.parent)
@@ -62,9 +66,13 @@ def execute(args: argparse.Namespace) -> int:
             d = {k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in d.items()}
             docs.append({"position": ps.label, **d})
         print(dumps({"positions": docs, "csv": str(args.out) if args.out else None,
-                     "window_px": args.window if roi is None else None, "roi": list(roi) if roi else None}))
+                     "window_px": window, "roi": list(roi) if roi else None}))
         return 0
-    where = f"ROI {roi}" if roi else f"target found in each position, window {args.window} px"
+    if roi:
+        where = f"ROI {roi}" + (f", window {window} px around the brightest pixel" if window else " as the window")
+    else:
+        where = f"target found in each position, window {window} px" + \
+            (" (the default: give your rig's [locator] window_px)" if args.window is None else "")
     print(f"locator '{args.method}', {where}; image coordinates: x right, y down, px from the centre of the "
           "top-left pixel")
     for ps in sets:

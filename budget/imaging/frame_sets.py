@@ -31,7 +31,7 @@ class PositionFrames:
 
 def locate_positions(positions: Sequence[tuple[str, Sequence[str | os.PathLike]]], *,
                      roi: tuple[int, int, int, int] | None = None, method: str = "com",
-                     window_px: int = 9) -> tuple[PositionFrames, ...]:
+                     window_px: int | None = 9) -> tuple[PositionFrames, ...]:
     """Locate the target in every position's frames.
 
     Parameters
@@ -43,8 +43,9 @@ def locate_positions(positions: Sequence[tuple[str, Sequence[str | os.PathLike]]
         (:func:`budget.imaging.frames.find_target_roi`) and centres a ``window_px`` window on it.
     method : {"com", "gauss", "threshold"}
         The locator (:func:`budget.imaging.frames.locate_frames`).
-    window_px : int
-        Side of the locator window, odd (with ``roi``: the window around the brightest pixel).
+    window_px : int, optional
+        Side of the locator window, odd; required without ``roi``. With ``roi``: a window around
+        the brightest pixel inside it, or None for the whole ROI.
 
     Raises
     ------
