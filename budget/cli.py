@@ -81,7 +81,8 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--trials", type=_positive_int, default=None,
                      help="fixed Monte Carlo trials (default: adaptive, JCGM 101 7.9)")
     run.add_argument("--seed", type=_seed, default=None, help="seed of the random generator")
-    run.add_argument("--p", type=_probability, default=0.95, help="coverage probability (default 0.95)")
+    run.add_argument("--p", type=_probability, default=None,
+                     help="coverage probability (default: the [goal] p, else 0.95)")
     run.add_argument("--json", action="store_true", help="write only JSON to stdout")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     _add_output_options(run)
@@ -102,7 +103,7 @@ def build_parser() -> argparse.ArgumentParser:
     grp.add_argument("--volts", type=_finite, help="commanded voltage")
     pred.add_argument("--trials", type=_positive_int, default=None)
     pred.add_argument("--seed", type=_seed, default=None)
-    pred.add_argument("--p", type=_probability, default=0.95)
+    pred.add_argument("--p", type=_probability, default=None)
     pred.add_argument("--json", action="store_true")
     _add_camera_commands(sub)
     return ap
