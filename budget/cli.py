@@ -105,6 +105,13 @@ def build_parser() -> argparse.ArgumentParser:
     pred.add_argument("--seed", type=_seed, default=None)
     pred.add_argument("--p", type=_probability, default=None)
     pred.add_argument("--json", action="store_true")
+    adv = sub.add_parser("advise", help="what to change in a rig, and by how much, to meet its [goal]")
+    adv.add_argument("file", type=Path)
+    adv.add_argument("--seed", type=_seed, default=None, help="seed of every full run (recorded)")
+    adv.add_argument("--trials", type=_positive_int, default=None,
+                     help="fixed Monte Carlo trials of the full runs (default: adaptive, as run)")
+    adv.add_argument("--costs", type=Path, help='TOML file of "section.key" = cost of each change')
+    adv.add_argument("--json", action="store_true", help="write only JSON to stdout")
     _add_camera_commands(sub)
     return ap
 
@@ -145,7 +152,7 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
 
 _MODULES = {
     "run": "run", "check": "check", "new": "new", "selftest": "selftest", "predict": "predict",
-    "choose": "choose", "verify-locator": "verify", "frames": "frames",
+    "choose": "choose", "verify-locator": "verify", "frames": "frames", "advise": "advise",
 }
 """Sub-command name -> module of :mod:`budget.commands` that carries it out."""
 

@@ -14,14 +14,30 @@ from dataclasses import replace
 
 import numpy as np
 
+from budget.errors import BudgetInputError
 from budget.results import Decision, GoalVerdict, OutputBudget, RunResult
 from budget.rig.description import RigDescription
 
-__all__ = ["claim_U", "goal_verdicts", "decide", "decisions", "rule_words", "with_verdicts", "BASIS"]
+__all__ = ["run_p", "claim_U", "goal_verdicts", "decide", "decisions", "rule_words", "with_verdicts", "BASIS"]
 
 BASIS = ("the larger distance from the reference value (nominal, or measured) to the ends of the result's "
          "coverage interval: the linear method's y ± U when it is validated, else the Monte Carlo "
          "probabilistically symmetric interval")
+
+
+def run_p(given: float | None, rig: RigDescription) -> float:
+    """The coverage probability of a run: the one given, else the ``[goal]`` p, else 0.95.
+
+    Raises
+    ------
+    BudgetInputError
+        When both are given and differ: a target is judged at its own coverage probability.
+    """
+    goal_p = rig.goal.p if rig.goal is not None else None
+    if given is not None and goal_p is not None and abs(given - goal_p) > 1e-12:
+        raise BudgetInputError(f"--p {given:g} differs from the 'p' field of [goal] ({goal_p:g}); a target is "
+                               "judged at its own coverage probability: give one of them, or the same value.")
+    return given if given is not None else (goal_p if goal_p is not None else 0.95)
 
 
 def _interval(ob: OutputBudget) -> tuple[float, float]:

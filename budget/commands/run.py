@@ -12,22 +12,13 @@ from budget.report.safe_write import check_targets
 __all__ = ["execute", "evaluate_rig_file"]
 
 
-def coverage_probability(given: float | None, rig) -> float:
-    """The run's p: ``--p``, else the ``[goal]`` p, else 0.95; the two must agree when both are given."""
-    goal_p = rig.goal.p if rig.goal is not None else None
-    if given is not None and goal_p is not None and abs(given - goal_p) > 1e-12:
-        raise BudgetInputError(f"--p {given:g} differs from the 'p' field of [goal] ({goal_p:g}); a target is "
-                               "judged at its own coverage probability: give one of them, or the same value.")
-    return given if given is not None else (goal_p if goal_p is not None else 0.95)
-
-
 def evaluate_rig_file(args: argparse.Namespace, quiet: bool, claim: bool = False):
     """Read the rig file (and its measured data), run the budget; return ``(rig, result)``.
 
     The result carries the file's goal verdicts and conformity decisions, and with ``claim`` its
     range claim (which runs the midpoints).
     """
-    from budget.advice.targets import with_verdicts
+    from budget.advice.targets import run_p, with_verdicts
     from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
     from budget.rig.budget import run_budget
@@ -37,7 +28,7 @@ def evaluate_rig_file(args: argparse.Namespace, quiet: bool, claim: bool = False
     ev = load_evaluation(rig, read_rig_data(rig))
     prog, cb = progress_bar(not quiet)
     rng = make_rng(args.seed)
-    kwargs = dict(rng=rng, p=coverage_probability(args.p, rig), trials=args.trials, input_path=args.file,
+    kwargs = dict(rng=rng, p=run_p(args.p, rig), trials=args.trials, input_path=args.file,
                   type_a=ev.type_a, measured_deg=ev.measured_deg)
     if prog is not None:
         with prog:
