@@ -52,21 +52,22 @@ def test_claim_U_is_the_linear_U_for_a_validated_unbiased_result():
 
 
 def test_gain_goal_in_percent_and_json_block(tmp_path, capsys):
-    doc = _doc("gain_sweep.toml")
-    text = (TEMPLATES / "gain_sweep.toml").read_text(encoding="utf-8")
+    from budget.inputs.toml_text import dumps_toml
+
+    doc = merge_doc(_doc("gain_sweep.toml"), {"goal": {"gain_U_pct": 0.5, "angle_U_deg": 0.2}})
     path = tmp_path / "sweep.toml"
-    path.write_text(text + "\n[goal]\ngain_U_pct = 0.5\nangle_U_deg = 0.2\nsource = \"demo\"\n", encoding="utf-8")
+    path.write_text(dumps_toml(doc), encoding="utf-8")
     assert main(["run", str(path), "--seed", "2", "--trials", "20000", "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     g = out["gain"]["goal"]
-    assert set(g) >= {"U_target", "meets", "margin_pct"} and g["U_target"] == 0.5
+    assert set(g) >= {"U_target", "meets", "margin_pct"} and g["U_target"] == 0.5 and g["unit"] == "%"
+    assert g["U"] == pytest.approx(100 * max(abs(x - 10.0) for x in out["gain"]["monte_carlo"]["interval"]) / 10.0)
     assert out["angles"][0]["goal"]["U_target"] == 0.2
-    assert doc["sweep"]["nominal_gain_deg_per_v"] == 10.0
 
 
 @pytest.mark.parametrize(("over", "message"), [
     ({"goal": {"gain_U_pct": 1.0}}, "has no [sweep]"),
-    ({"goal": {"source": "x"}}, "[goal] needs"),
+    ({"goal": {"angle_U_deg": None}}, "[goal] needs"),
     ({"conformity": {"rule": "guarded"}}, "[conformity] needs"),
     ({"conformity": {"angle_tolerance_deg": 0.2}}, "'rule' field of [conformity] is missing"),
     ({"conformity": {"rule": "lenient", "angle_tolerance_deg": 0.2}}, "'rule' field of [conformity] must be"),
@@ -79,9 +80,10 @@ def test_bad_target_sections_are_one_line(over, message):
 
 
 def test_p_of_the_goal_and_of_the_command_must_agree(tmp_path, capsys):
+    from budget.inputs.toml_text import dumps_toml
+
     path = tmp_path / "g.toml"
-    path.write_text((TEMPLATES / "gauge_static.toml").read_text(encoding="utf-8")
-                    + "\n[goal]\nangle_U_deg = 0.1\np = 0.99\n", encoding="utf-8")
+    path.write_text(dumps_toml(merge_doc(_doc("gauge_static.toml"), {"goal": {"p": 0.99}})), encoding="utf-8")
     assert main(["run", str(path), "--p", "0.95", "--trials", "20000"]) == 2
     assert "differs from the 'p' field of [goal]" in capsys.readouterr().err
 
