@@ -120,6 +120,12 @@ def _add_camera_commands(sub) -> None:
     """Choosing a camera, checking the locator model, and reading real frames."""
     cho = sub.add_parser("choose", help="rank candidate cameras and lenses for a rig before buying")
     cho.add_argument("file", type=Path)
+    cho.add_argument("--all", action="store_true", help="show every candidate, not only the best 25")
+    cho.add_argument("--verify", action="store_true",
+                     help="run the top pick through the rig model (both methods), as `run` would")
+    cho.add_argument("--seed", type=_seed, default=None, help="seed of the --verify run")
+    cho.add_argument("--trials", type=_positive_int, default=None, help="fixed trials of the --verify run")
+    cho.add_argument("--rig-out", type=Path, help="write the top pick's rig file (for `thetabudget run`)")
     cho.add_argument("--json", action="store_true")
     cho.add_argument("--xlsx", type=Path)
     cho.add_argument("--plots", type=Path)

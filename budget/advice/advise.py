@@ -22,11 +22,9 @@ from budget.advice.targets import goal_verdicts
 from budget.errors import BudgetInputError
 from budget.inputs.data_csv import read_rig_data
 from budget.inputs.rig_file import parse_rig
-from budget.propagation import linear
 from budget.rig.budget import run_budget
-from budget.rig.components import build_inputs
+from budget.rig.claim import linear_claims
 from budget.rig.evaluation import load_evaluation
-from budget.rig.model import VirtualRig
 
 __all__ = ["Outcome", "Change", "Advice", "advise", "apply_change"]
 
@@ -115,19 +113,11 @@ class _Rig:
             spec, ev = self._read(doc)
         except BudgetInputError:
             return None
-        rig = ev.rig
-        inputs, corr = build_inputs(rig, ev.type_a)
-        lin = linear(VirtualRig(rig), inputs, p=self.p, correlation=corr or None)
-        nominal = dict(zip((f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))), rig.nominal_angles_deg,
-                           strict=True))
-        if rig.sweep is not None:
-            nominal["gain"] = rig.sweep.nominal_gain_deg_per_v
+        claims = linear_claims(ev.rig, p=self.p, type_a=ev.type_a)
         targets = self.targets(spec)
-        U = {}
-        for name in targets:
-            r = lin[name]
-            u = r.U + abs(r.estimate - nominal[name])
-            U[name] = u * (100.0 / abs(nominal[name]) if name == "gain" and spec.goal.gain_U_pct else 1.0)
+        pct = spec.goal.gain_U_pct is not None and spec.sweep is not None
+        U = {k: claims[k] * (100.0 / abs(ev.rig.sweep.nominal_gain_deg_per_v) if k == "gain" and pct else 1.0)
+             for k in targets}
         return self._outcome(U, targets, "linear")
 
     def full(self, doc: dict) -> Outcome:

@@ -13,9 +13,9 @@ from decimal import ROUND_CEILING, Decimal
 
 import numpy as np
 
-from budget.advice.targets import claim_U
 from budget.results import RangeClaim, RunResult
 from budget.rig.budget import run_budget
+from budget.rig.claim import claim_U
 from budget.rig.description import Positions, RigDescription, Sweep
 
 __all__ = ["linear_envelope", "round_up", "table_value", "claim_for_range", "midpoint_rig"]

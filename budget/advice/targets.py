@@ -1,6 +1,6 @@
 """Verdicts against a target and conformity decisions, from a finished run.
 
-The expanded uncertainty that a target is compared with (:func:`claim_U`) is the one a user can
+The expanded uncertainty that a target is compared with (:func:`budget.rig.claim.claim_U`) is the one a user can
 claim about the reference value (the nominal in design mode, the measured value in evaluation
 mode): the larger distance from it to the ends of the result's coverage interval. It equals the
 linear method's U when the estimate sits on the reference, and it keeps any offset that the
@@ -16,9 +16,10 @@ import numpy as np
 
 from budget.errors import BudgetInputError
 from budget.results import Decision, GoalVerdict, OutputBudget, RunResult
+from budget.rig.claim import claim_U
 from budget.rig.description import RigDescription
 
-__all__ = ["run_p", "claim_U", "goal_verdicts", "decide", "decisions", "rule_words", "with_verdicts", "BASIS"]
+__all__ = ["run_p", "goal_verdicts", "decide", "decisions", "rule_words", "with_verdicts", "BASIS"]
 
 BASIS = ("the larger distance from the reference value (nominal, or measured) to the ends of the result's "
          "coverage interval: the linear method's y ± U when it is validated, else the Monte Carlo "
@@ -40,28 +41,8 @@ def run_p(given: float | None, rig: RigDescription) -> float:
     return given if given is not None else (goal_p if goal_p is not None else 0.95)
 
 
-def _interval(ob: OutputBudget) -> tuple[float, float]:
-    if ob.method == "linear":
-        return ob.linear.estimate - ob.linear.U, ob.linear.estimate + ob.linear.U
-    return ob.monte_carlo.interval
-
-
 def _estimate(ob: OutputBudget) -> float:
     return ob.linear.estimate if ob.method == "linear" else ob.monte_carlo.estimate
-
-
-def claim_U(ob: OutputBudget) -> float:
-    """Expanded uncertainty claimable about the reference value, in the output's unit.
-
-    Notes
-    -----
-    U_claim = max(|y_low − r|, |y_high − r|) with [y_low, y_high] the result's coverage interval at p
-    (JCGM 100 6.2.1 for y ± U; JCGM 101 7.7 for the probabilistically symmetric interval) and r the
-    reference value. The interval r ± U_claim contains the result's interval, so its coverage
-    probability is at least p [derived].
-    """
-    lo, hi = _interval(ob)
-    return float(max(abs(lo - ob.nominal), abs(hi - ob.nominal)))
 
 
 def _verdict(ob: OutputBudget, target: float, unit: str, scale: float, p: float) -> GoalVerdict:

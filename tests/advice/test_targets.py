@@ -11,11 +11,12 @@ from scipy.optimize import linprog
 from scipy.stats import norm
 
 from budget.advice.range_claim import claim_for_range, linear_envelope, round_up
-from budget.advice.targets import claim_U, decide, with_verdicts
+from budget.advice.targets import decide, with_verdicts
 from budget.cli import main
 from budget.errors import BudgetInputError
 from budget.inputs.rig_file import parse_rig
 from budget.rig.budget import run_budget
+from budget.rig.claim import claim_U
 from tests.paths import TEMPLATES
 from tests.rigdoc import merge_doc
 
