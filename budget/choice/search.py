@@ -18,7 +18,7 @@ from budget.inputs.choose_file import ChooseSpec
 
 __all__ = ["Settings", "search", "REFINE"]
 
-REFINE = 6
+REFINE = 4
 """Extra distances tried between the grid neighbours of each candidate's best grid point."""
 
 
@@ -54,7 +54,7 @@ def search(spec: ChooseSpec, cand: Candidates, geo: PointGradients) -> tuple[Can
     n = cand.pitch_um.size
     lo, hi = distance_bounds(spec, cand)
     ratio = np.where(hi > lo, hi / lo, 1.0)
-    steps = spec.search.get("distance_steps", 16)
+    steps = spec.search.get("distance_steps", 12)
     fnums = spec.search.get("f_numbers") or (None,)
     exps = spec.search.get("exposures_ms") or (None,)
     best = np.full(n, -np.inf)

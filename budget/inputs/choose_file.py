@@ -183,7 +183,7 @@ _DEFAULTS = {
                "source": "assumed"},
     "goal": {"p": 0.95, "source": "assumed"},
     "candidates": {"auto_f_number": 8.0, "source": "assumed"},
-    "search": {"distance_steps": 16, "source": "assumed"},
+    "search": {"distance_steps": 12, "source": "assumed"},
     "pixel_model": {"read_noise_e": 2.5, "full_well_e_per_um2": 900.0, "bit_depth": 12, "f_number": 8.0,
                     "pixels_min": 100, "pixels_max": 8000, "source": "assumed"},
 }

@@ -6,7 +6,6 @@ Nothing here computes an uncertainty; it formats what :mod:`budget.choice.model`
 from __future__ import annotations
 
 import math
-import os
 from pathlib import Path
 
 from budget.choice.model import COMPONENTS
@@ -113,38 +112,43 @@ def _top_lines(ch: Choice, row: dict, confirmation) -> list[str]:
     return lines
 
 
+def _plain_table(cols: list[str], body: list[list[str]], left: set[str]) -> list[str]:
+    """A plain text table (user text printed verbatim; only the rows given are formatted)."""
+    widths = [max(len(c), *(len(r[j]) for r in body)) if body else len(c) for j, c in enumerate(cols)]
+
+    def line(cells):
+        return "  ".join(c.ljust(w) if cols[j] in left else c.rjust(w)
+                         for j, (c, w) in enumerate(zip(cells, widths, strict=True))).rstrip()
+
+    return [line(cols), "  ".join("-" * w for w in widths), *(line(r) for r in body)]
+
+
 def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirmation=None) -> str:
     """The ranking as a text table (rich), the top pick with its margin, and the continuous model's answer.
 
     Only the first ``top`` rows are built (None: every one); the title says how many are not shown.
+    ``width`` is kept for callers: the plain table is as wide as its cells.
     """
-    from rich.console import Console
-    from rich.table import Table
-
     spec, p = ch.spec, ch.pred
     gain = p.u_gain_pct is not None
     rows = choice_rows(ch, top)
     hidden = len(ch.order) - len(rows)
     more = f": best {len(rows)} shown, {hidden} not shown (--all shows every one)" if hidden else ", all shown"
-    table = Table(title=f"{spec.title}: {len(ch.order)} camera × lens candidates, best first{more}")
     cols = ["#", "camera", "lens", "price", "D mm", "f/N", "t ms", "mm/px", "R px", "σ px", "U angle °"] + \
         (["U gain %"] if gain else []) + ["U at shortest D", "margin %", "meets", "limited by"]
-    for col in cols:
-        table.add_column(col, justify="left" if col in ("camera", "lens", "limited by", "meets") else "right")
+    body = []
     for row in rows:
         at_short = row.get("U_gain_pct_at_shortest") if gain and "gain_U_pct" in spec.goal else \
             row.get("U_angle_deg_at_shortest")
-        cells = [str(row["rank"]), row["camera"], row["lens"], f"{row['price']:g}",
-                 f"{row['working_distance_mm']:.0f}", f"{row['f_number']:g}", f"{row['exposure_ms']:.3g}",
-                 f"{row['mm_per_px']:.4f}", f"{row['radius_px']:.0f}", f"{row['sigma_px']:.2f}",
-                 f"{row['U_angle_deg']:.3g}"] + ([f"{row['U_gain_pct']:.3g}"] if gain else []) + \
-            ["—" if at_short is None else f"{at_short:.3g}", f"{row['margin_pct']:+.1f}",
-             "yes" if row["meets"] else "no", row["limiting"]]
-        table.add_row(*cells)
-    # markup off: square brackets in a title or a camera name are the user's text, not style tags
-    con = Console(width=width, record=True, file=open(os.devnull, "w"), markup=False)  # noqa: SIM115
-    con.print(table)
-    lines = [con.export_text()]
+        body.append([str(row["rank"]), row["camera"], row["lens"], f"{row['price']:g}",
+                     f"{row['working_distance_mm']:.0f}", f"{row['f_number']:g}", f"{row['exposure_ms']:.3g}",
+                     f"{row['mm_per_px']:.4f}", f"{row['radius_px']:.0f}", f"{row['sigma_px']:.2f}",
+                     f"{row['U_angle_deg']:.3g}"] + ([f"{row['U_gain_pct']:.3g}"] if gain else []) +
+                    ["—" if at_short is None else f"{at_short:.3g}", f"{row['margin_pct']:+.1f}",
+                     "yes" if row["meets"] else "no", row["limiting"]])
+    left = {"camera", "lens", "meets", "limited by"}
+    lines = [f"{spec.title}: {len(ch.order)} camera × lens candidates, best first{more}", "",
+             *_plain_table(cols, body, left), ""]
     goal = ", ".join(f"{k} = {v:g}" for k, v in spec.goal.items() if k in ("angle_U_deg", "gain_U_pct", "p"))
     short = "" if ch.shortest is None else f" ({int(ch.shortest.meets.sum())} at their shortest distance)"
     lines.append(f"goal: {goal} (k = {p.k:.3f}); {int(p.meets.sum())} of {len(ch.order)} candidates meet it at "
