@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from budget import __version__
-from budget.commands.new import STARTERS
+from budget.commands.new import KINDS
 from budget.errors import BudgetComputationError, BudgetInputError
 
 __all__ = ["main", "build_parser"]
@@ -91,7 +91,7 @@ def build_parser() -> argparse.ArgumentParser:
     chk.add_argument("file", type=Path)
 
     new = sub.add_parser("new", help="write a commented starter rig file")
-    new.add_argument("kind", choices=sorted(STARTERS))
+    new.add_argument("kind", choices=sorted(KINDS))
     new.add_argument("path", type=Path)
 
     sub.add_parser("selftest", help="run the published reference cases through the engine")

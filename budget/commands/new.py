@@ -7,15 +7,16 @@ from pathlib import Path
 
 from budget.errors import BudgetInputError
 
-__all__ = ["execute", "STARTERS"]
+__all__ = ["execute", "STARTERS", "KINDS"]
 
 STARTERS = {
     "gauge": "gauge_static.toml",
     "sweep": "gain_sweep.toml",
     "moving": "moving_pointer.toml",
-    "choose": "choose_cameras.toml",
 }
-"""Kinds of starter file and the template each one copies."""
+"""Kinds of starter rig file and the template each one copies."""
+KINDS = {**STARTERS, "choose": "choose_cameras.toml"}
+"""Every kind ``new`` writes: the rig starters and the choose starter."""
 COMPANIONS = {"choose": ("cameras.csv",)}
 """Files a starter needs beside it (written into the same folder, never replacing one)."""
 
@@ -24,7 +25,7 @@ def execute(args: argparse.Namespace) -> int:
     from budget.resources import template_text
 
     dest: Path = args.path
-    files = [(dest, STARTERS[args.kind])] + [(dest.parent / name, name) for name in COMPANIONS.get(args.kind, ())]
+    files = [(dest, KINDS[args.kind])] + [(dest.parent / name, name) for name in COMPANIONS.get(args.kind, ())]
     for path, _ in files:
         if path.exists():
             raise BudgetInputError(f"The output file '{path}' exists; new never replaces a file.")
