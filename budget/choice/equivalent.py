@@ -8,7 +8,6 @@ back gives an equal description (no value is supplied by default).
 from __future__ import annotations
 
 import dataclasses
-import math
 
 from budget.choice.model import Candidates, Prediction
 from budget.inputs.choose_file import ChooseSpec
@@ -53,8 +52,7 @@ def equivalent_rig(spec: ChooseSpec, choice_cand: Candidates, pred: Prediction, 
                       pivot_offset_x_mm=sc["pivot_offset_x_mm"], pivot_offset_y_mm=sc["pivot_offset_y_mm"],
                       zero_direction_deg=sc["zero_direction_deg"], tilt_bound_deg=tilt, source=sc["source"])
     if tg["shape"] == "disk":
-        blur = math.sqrt(float(p.sigma_diffraction_px[i]) ** 2)
-        target = d.Target(shape="disk", diameter_mm=tg["diameter_mm"], sigma_px=blur,
+        target = d.Target(shape="disk", diameter_mm=tg["diameter_mm"], sigma_px=float(p.sigma_diffraction_px[i]),
                           signal_e=float(p.signal_e[i]), background_e=float(p.background_e[i]), source=tg["source"])
     else:
         target = d.Target(shape="spot", sigma_px=float(p.sigma_px[i]), signal_e=float(p.signal_e[i]),

@@ -148,3 +148,17 @@ def test_range_claim_covers_every_angle_and_midpoint(form):
     assert len(mids) == 3 and len(claim.points) == 7
     assert all(env >= u for _, u, env, _ in claim.points)
     assert claim.low_deg == 30 and claim.high_deg == 210 and "p = 95 %" in claim.statement
+
+
+def test_targets_reach_the_workbook_and_the_markdown():
+    from budget.report.markdown import render_markdown
+    from budget.report.workbook import build_workbook
+
+    doc = merge_doc(_doc("gauge_static.toml"), {"conformity": {"rule": "simple", "angle_tolerance_deg": 0.3}})
+    _, res = _run(doc)
+    ws = build_workbook(res)["Summary"]
+    cells = [str(c.value) for row in ws.iter_rows() for c in row if c.value is not None]
+    assert any(c.startswith("target: angle P4") and "MISSES" in c for c in cells)
+    assert any("simple acceptance" in c for c in cells) and any(c.startswith("conformity: ") for c in cells)
+    md = render_markdown(res)
+    assert "## Targets, decisions and the claim for the range" in md and "simple acceptance" in md
