@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from budget.advice.levers import Lever, levers
+from budget.advice.levers import Lever, levers, nice_values
 from budget.advice.targets import goal_verdicts
 from budget.errors import BudgetInputError
 from budget.inputs.data_csv import read_rig_data
@@ -200,6 +200,33 @@ def _settle(rig: _Rig, lv: Lever, meeting: list[int], full: Callable[[int], Outc
     return i, out, (lv.current, rig.full(rig.doc))
 
 
+def _refine(rig: _Rig, doc: dict, lv: Lever, to: object, out: Outcome, smaller: tuple):
+    """Between a meeting value and the next smaller one tried, the least two-digit value that meets.
+
+    For a numeric lever tried on a coarse grid (a working distance, a focal length); full runs, bisection
+    over the two-significant-digit values between (assumes U monotonic between the two).
+    """
+    below, o_below = smaller
+    if not all(isinstance(v, int | float) and not isinstance(v, bool) for v in (to, below)):
+        return to, out, smaller
+    between = [v for v in nice_values(below, to) if v != to]
+    lo, hi = -1, len(between)  # between[lo] does not meet (or is ``below``); ``to`` at hi meets
+    runs: dict[int, Outcome | None] = {}
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        try:
+            runs[mid] = rig.full(apply_change(doc, lv.field, between[mid], lv.also))
+        except BudgetInputError:
+            runs[mid] = None
+        if runs[mid] is not None and runs[mid].meets:
+            hi = mid
+        else:
+            lo = mid
+    best = (to, out) if hi == len(between) else (between[hi], runs[hi])
+    nxt = smaller if lo == -1 else (between[lo], runs[lo])
+    return best[0], best[1], nxt
+
+
 def advise(doc: dict, *, base: Path | None, p: float, rng: Callable[[], np.random.Generator],
            trials: int | None = None, costs: dict[str, float] | None = None, seed: object = None) -> Advice:
     """Every change of the rig, ranked by the U after it; the least change that meets, verified.
@@ -247,7 +274,10 @@ def advise(doc: dict, *, base: Path | None, p: float, rng: Callable[[], np.rando
         i, out, smaller = _settle(rig, lv, meeting, full)
         if out is None:
             continue
-        changes.append(Change(lv, lv.values[i], out, True, smaller if out.meets else None))
+        to = lv.values[i]
+        if out.meets and not lv.monotonic and smaller is not None:
+            to, out, smaller = _refine(rig, doc, lv, to, out, smaller)
+        changes.append(Change(lv, to, out, True, smaller if out.meets else None))
     changes.sort(key=lambda c: (not c.outcome.meets, c.outcome.ratio))
     settled = []
     others = 0
