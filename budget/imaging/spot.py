@@ -32,9 +32,9 @@ import math
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.special import erf
 
 from budget.errors import field_error
+from budget.imaging.special import erf
 
 __all__ = [
     "INTEGER_HALF_WIDTH_PX",

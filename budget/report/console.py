@@ -144,6 +144,12 @@ def render_run(result: RunResult, width: int = 170) -> str:
                   f"95th percentile {s.nonlinearity_p95_pct:.2g} %")
         if s.lack_of_fit is not None:
             con.print(s.lack_of_fit.verdict)
+    from budget.report.targets import target_lines
+
+    if lines := target_lines(result):
+        con.print()
+        for line in lines:
+            con.print(line)
     if result.assumptions:
         con.print()
         con.print("Assumptions (values the tool supplied because the file left them out):")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+from budget.report.targets import claim_dict, decision_dict, decision_for, goal_dict, goal_for
 from budget.results import OutputBudget, RunResult, finite_or_none
 
 __all__ = ["run_to_dict", "run_to_json", "output_to_dict"]
@@ -81,6 +82,7 @@ def run_to_dict(result: RunResult) -> dict:
             c["u_deg"] = c.pop("u")
             c["monte_carlo_u_deg"] = c.pop("monte_carlo_u")
         d["reference"] = _reference(ob)
+        _targets(d, result, ob.name)
         angles.append(d)
     files = [{"path": f.path, "sha256": f.sha256, "kind": f.kind, "note": f.note}
              for f in (result.data.files if result.data is not None else ())]
@@ -117,8 +119,21 @@ def run_to_dict(result: RunResult) -> dict:
             "critical_95": lof.critical, "misfit_deg": lof.misfit_deg, "method": lof.method or None,
             "verdict": lof.verdict}
         block["measured_deg"] = list(s.measured_deg) if s.measured_deg is not None else None
+        _targets(block, result, "gain")
         doc["gain"] = block
+    if result.decisions:
+        doc["decision_rule"] = result.decision_rule
+    if result.range_claim is not None:
+        doc["range_claim"] = claim_dict(result)
     return doc
+
+
+def _targets(block: dict, result: RunResult, name: str) -> None:
+    """The output's goal verdict and conformity decision, where the file gives them."""
+    if (g := goal_for(result, name)) is not None:
+        block["goal"] = goal_dict(g)
+    if (d := decision_for(result, name)) is not None:
+        block["decision"] = decision_dict(d)
 
 
 def _seed(seed: object) -> object:
