@@ -20,7 +20,7 @@ from budget.errors import BudgetInputError
 from budget.imaging.locator_model import locator_model
 from budget.propagation.type_a import ALPHA, MIN_OBSERVATIONS, SeriesTypeA, type_a_series, variance_ratio_interval
 from budget.results import DataFile, MeasuredDataSummary, MeasuredPoint
-from budget.rig.description import MeasuredData, Positions, RigDescription, Sweep, point_labels
+from budget.rig.description import Data, MeasuredData, Positions, RigDescription, Sweep, point_labels
 from budget.rig.geometry import reading_angles_deg
 
 __all__ = ["PointScatter", "as_point_scatter", "load_evaluation", "Evaluation", "measured_angles_deg"]
@@ -228,8 +228,12 @@ def load_evaluation(rig: RigDescription, data: MeasuredData | None) -> Evaluatio
     return Evaluation(new, type_a, angles, summary, tuple(warns))
 
 
+def _tolerance_deg(rig: RigDescription) -> float:
+    return (rig.data or Data()).angle_tolerance_deg
+
+
 def _check_nominal(rig: RigDescription, angles: tuple[float, ...]) -> None:
-    tol = rig.data.angle_tolerance_deg if rig.data is not None else 10.0
+    tol = _tolerance_deg(rig)
     for i, (m, nom) in enumerate(zip(angles, rig.nominal_angles_deg, strict=True)):
         if abs(m - nom) > tol:
             raise BudgetInputError(
@@ -256,7 +260,7 @@ def _summary(rig, data: MeasuredData, series: dict[str, SeriesTypeA], check: dic
     return MeasuredDataSummary(
         files=files, points=tuple(points), scatter_check=text, scatter_ratio=check.get("pooled"),
         scatter_dof=check.get("dof"), scatter_interval=check.get("interval"),
-        angle_tolerance_deg=rig.data.angle_tolerance_deg if rig.data is not None else 10.0,
+        angle_tolerance_deg=_tolerance_deg(rig),
     )
 
 
