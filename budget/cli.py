@@ -2,32 +2,76 @@
 
 Only :func:`main` turns exceptions into exit codes: 0 success, 1 a failed
 selftest, 2 bad input or an input the computation cannot handle (one line on stderr naming
-the field; nothing written).
+the field; nothing written), argument errors included. A caught signal (SIGINT, SIGTERM, SIGHUP)
+becomes an exception, so that the one writer removes its temporary files; the exit status is then
+128 + the signal's number, as a shell reports it.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import math
+import os
+import signal
 import sys
-from collections.abc import Sequence
+import warnings
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 from budget import __version__
 from budget.commands.new import KINDS
-from budget.errors import BudgetComputationError, BudgetInputError
+from budget.errors import BudgetComputationError, BudgetInputError, BudgetWarning
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "MAX_TRIALS", "MAX_RENDERS"]
+
+MAX_TRIALS = 10_000_000
+"""Most Monte Carlo trials a command takes (``--trials``): the adaptive procedure's own cap (JCGM 101 7.9,
+:data:`budget.propagation.montecarlo.MAX_TRIALS`); the engine also caps trials × outputs by memory."""
+MAX_RENDERS = 100_000
+"""Most synthetic images ``verify-locator --renders`` draws."""
+MAX_FRAMES = 1000
+"""Most frames per position ``render --frames`` draws."""
+
+last_warnings: list[str] = []
+"""The library warnings (numpy, matplotlib, ...) the last :func:`main` call kept off stderr (for tests)."""
 
 
-def _positive_int(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
-    if v <= 0:
-        raise argparse.ArgumentTypeError(f"must be > 0, got {v}")
-    return v
+class _Parser(argparse.ArgumentParser):
+    """argparse with one line per error (no usage block): ``thetabudget run: error: ... (see --help)``."""
+
+    def error(self, message: str):
+        text = " ".join(str(message).split())
+        self.exit(2, f"{self.prog}: error: {text} (see '{self.prog} --help')\n")
+
+
+class _Stopped(BaseException):
+    """A caught signal: unwinds the stack so that temporary files are removed on the way."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _at_most(limit: int):
+    """A whole number in [1, limit]; the limit is in the message."""
+
+    def parse(text: str) -> int:
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a whole number in [1, {limit:,}], got {text[:40]!r}") from None
+        if not 1 <= v <= limit:
+            got = v if v < 1e15 else text[:40]
+            raise argparse.ArgumentTypeError(f"must be a whole number in [1, {limit:,}], got {got}")
+        return v
+
+    return parse
+
+
+_trials = _at_most(MAX_TRIALS)
+_renders = _at_most(MAX_RENDERS)
+_frames = _at_most(MAX_FRAMES)
 
 
 def _seed(text: str) -> int:
@@ -69,7 +113,7 @@ def _probability(text: str) -> float:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every sub-command."""
-    ap = argparse.ArgumentParser(
+    ap = _Parser(
         prog="thetabudget",
         description="Uncertainty budgets (JCGM 100 / JCGM 101) for camera-based pointer angles and gains.",
     )
@@ -78,7 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     run = sub.add_parser("run", help="full budget of a rig file by both methods")
     run.add_argument("file", type=Path)
-    run.add_argument("--trials", type=_positive_int, default=None,
+    run.add_argument("--trials", type=_trials, default=None,
                      help="fixed Monte Carlo trials (default: adaptive, JCGM 101 7.9)")
     run.add_argument("--seed", type=_seed, default=None, help="seed of the random generator")
     run.add_argument("--p", type=_probability, default=None,
@@ -101,14 +145,14 @@ def build_parser() -> argparse.ArgumentParser:
     grp = pred.add_mutually_exclusive_group(required=True)
     grp.add_argument("--angle", type=_angle, help="wanted angle in degrees")
     grp.add_argument("--volts", type=_finite, help="commanded voltage")
-    pred.add_argument("--trials", type=_positive_int, default=None)
+    pred.add_argument("--trials", type=_trials, default=None)
     pred.add_argument("--seed", type=_seed, default=None)
     pred.add_argument("--p", type=_probability, default=None)
     pred.add_argument("--json", action="store_true")
     adv = sub.add_parser("advise", help="what to change in a rig, and by how much, to meet its [goal]")
     adv.add_argument("file", type=Path)
     adv.add_argument("--seed", type=_seed, default=None, help="seed of every full run (recorded)")
-    adv.add_argument("--trials", type=_positive_int, default=None,
+    adv.add_argument("--trials", type=_trials, default=None,
                      help="fixed Monte Carlo trials of the full runs (default: adaptive, as run)")
     adv.add_argument("--costs", type=Path, help='TOML file of "section.key" = cost of each change')
     adv.add_argument("--json", action="store_true", help="write only JSON to stdout")
@@ -124,7 +168,7 @@ def _add_camera_commands(sub) -> None:
     cho.add_argument("--verify", action="store_true",
                      help="run the top pick through the rig model (both methods), as `run` would")
     cho.add_argument("--seed", type=_seed, default=None, help="seed of the --verify run")
-    cho.add_argument("--trials", type=_positive_int, default=None, help="fixed trials of the --verify run")
+    cho.add_argument("--trials", type=_trials, default=None, help="fixed trials of the --verify run")
     cho.add_argument("--rig-out", type=Path, help="write the top pick's rig file (for `thetabudget run`)")
     cho.add_argument("--json", action="store_true")
     cho.add_argument("--xlsx", type=Path)
@@ -133,7 +177,7 @@ def _add_camera_commands(sub) -> None:
 
     ver = sub.add_parser("verify-locator", help="render synthetic target images and test the locator model")
     ver.add_argument("file", type=Path)
-    ver.add_argument("--renders", type=_positive_int, default=2000)
+    ver.add_argument("--renders", type=_renders, default=2000)
     ver.add_argument("--seed", type=_seed, default=None)
     ver.add_argument("--json", action="store_true")
 
@@ -153,7 +197,7 @@ def _add_camera_commands(sub) -> None:
     ren = sub.add_parser("render", help="write synthetic frames of a rig for its zero image and positions")
     ren.add_argument("file", type=Path)
     ren.add_argument("outdir", type=Path)
-    ren.add_argument("--frames", type=_positive_int, default=None,
+    ren.add_argument("--frames", type=_frames, default=None,
                      help="frames per position (default: [frames] per_reading, at least 4)")
     ren.add_argument("--seed", type=_seed, default=None)
 
@@ -176,25 +220,90 @@ _MODULES = {
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point; returns the exit status."""
+    with contextlib.suppress(AttributeError, ValueError):  # a path or text the terminal cannot show
+        sys.stdout.reconfigure(errors="backslashreplace")
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse already printed its message
-        return int(exc.code or 0)
+    except SystemExit as exc:  # argparse already printed its message (one line) or the help
+        return exc.code if isinstance(exc.code, int) else 2
     import importlib
 
     module = importlib.import_module(f"budget.commands.{_MODULES[args.command]}")  # heavy imports only now
     try:
-        return int(module.execute(args))
-    except BudgetInputError as exc:
-        print(f"thetabudget: error: {exc}", file=sys.stderr)
-        return 2
-    except BudgetComputationError as exc:  # the input made the computation impossible
-        print(f"thetabudget: error: {exc}", file=sys.stderr)
-        return 2
-    except BrokenPipeError:  # output piped into a reader that stopped early (e.g. head)
-        sys.stderr.close()
-        return 0
+        with _signals_raise(), _library_warnings_kept():
+            return int(module.execute(args))
+    except (BudgetInputError, BudgetComputationError) as exc:  # bad input, or input the computation cannot handle
+        return _fail(str(exc))
+    except RecursionError:
+        return _fail("an input is nested too deeply to read.")
+    except MemoryError:
+        return _fail("not enough memory for this input; give fewer trials, frames or candidates.")
+    except OSError as exc:  # a file that vanished or cannot be read midway
+        if isinstance(exc, BrokenPipeError):  # output piped into a reader that stopped early (e.g. head)
+            with contextlib.suppress(OSError):
+                sys.stderr.close()
+            return 0
+        where = f" '{exc.filename}'" if exc.filename else ""
+        return _fail(f"a file{where} could not be read or written ({exc.strerror or exc}).")
+    except _Stopped as exc:
+        return _fail(f"stopped by {signal.Signals(exc.signum).name}; unfinished files were removed.",
+                     128 + exc.signum)
+    except KeyboardInterrupt:
+        return _fail("interrupted; unfinished files were removed.", 128 + signal.SIGINT)
+    except Exception as exc:  # a defect of the tool: one line, the details with THETABUDGET_DEBUG=1
+        if os.environ.get("THETABUDGET_DEBUG"):
+            raise
+        return _fail(f"internal error ({type(exc).__name__}: {' '.join(str(exc).split())[:300]}); "
+                     "please report it with the input file (THETABUDGET_DEBUG=1 shows the details).")
+    finally:
+        from budget.commands.common import remove_pending
+
+        remove_pending()  # temporary files a signal left behind (the writer removes its own on the way out)
+
+
+def _fail(message: str, code: int = 2) -> int:
+    print(f"thetabudget: error: {' '.join(message.splitlines())}", file=sys.stderr)
+    return code
+
+
+@contextlib.contextmanager
+def _signals_raise() -> Iterator[None]:
+    """Turn SIGTERM and SIGHUP into an exception (SIGINT already is one) while a command runs."""
+    def stop(signum, frame):
+        for sig in (signal.SIGTERM, signal.SIGHUP, signal.SIGINT):  # a second signal must not cut the clean-up
+            signal.signal(sig, signal.SIG_IGN)
+        raise _Stopped(signum)
+
+    saved = {}
+    try:
+        for sig in (signal.SIGTERM, signal.SIGHUP):
+            saved[sig] = signal.signal(sig, stop)
+    except ValueError:  # not the main thread: signals stay as they are
+        pass
+    try:
+        yield
+    finally:
+        for sig, old in saved.items():
+            signal.signal(sig, old)
+
+
+@contextlib.contextmanager
+def _library_warnings_kept() -> Iterator[None]:
+    """Keep numpy's and other libraries' warnings off stderr (THETABUDGET_DEBUG=1 shows them); a warning of
+    the tool's own that no report collected is one line on stderr."""
+    if os.environ.get("THETABUDGET_DEBUG"):
+        yield
+        return
+    last_warnings.clear()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        yield
+    for w in caught:
+        if issubclass(w.category, BudgetWarning):
+            print(f"thetabudget: warning: {' '.join(str(w.message).split())}", file=sys.stderr)
+        else:
+            last_warnings.append(f"{w.category.__name__}: {w.message}")
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 from budget.commands.common import dumps, make_rng, seed_of
 from budget.errors import BudgetInputError
@@ -19,17 +20,13 @@ def execute(args: argparse.Namespace) -> int:
     from budget.choice.rank import choose
     from budget.inputs.choose_file import load_choose
     from budget.report.choice import SHOWN, choice_to_dict, render_choice, write_choice_plot, write_choice_xlsx
+    from budget.report.safe_write import FileSet
 
-    targets = [p for p in (args.xlsx, args.rig_out) if p is not None]
-    if args.plots is not None:
-        if args.plots.exists() and not args.plots.is_dir():
-            raise BudgetInputError(f"The --plots path '{args.plots}' exists and is not a folder.")
-        if not args.plots.parent.is_dir():
-            raise BudgetInputError(f"The folder of the --plots path '{args.plots}' does not exist.")
-        if args.plots.is_dir():
-            targets.append(args.plots / PLOT_NAME)
-    check_targets(targets, args.force)
-    result = choose(load_choose(args.file))
+    plot = args.plots / PLOT_NAME if args.plots is not None else None
+    _check_outputs(args, plot, [args.file])  # the paths alone, before the inputs are read
+    spec = load_choose(args.file)
+    _check_outputs(args, plot, [args.file, Path(spec.cameras.path)])
+    result = choose(spec)
     confirmation = seed = None
     if args.verify:
         from budget.choice.confirm import confirm_top
@@ -39,28 +36,42 @@ def execute(args: argparse.Namespace) -> int:
         confirmation = confirm_top(result, rng=rng, trials=args.trials)
     limit = None if args.all else SHOWN
     if args.json:
-        print(dumps(choice_to_dict(result, str(args.file), limit, confirmation, seed)))
+        text = dumps(choice_to_dict(result, str(args.file), limit, confirmation, seed)) + "\n"
     else:
-        sys.stdout.write(render_choice(result, limit, confirmation=confirmation))
+        text = render_choice(result, limit, confirmation=confirmation)
     written = []
-    if args.rig_out is not None:
-        written.append(_write_rig(result, args.rig_out, args.force, args.file))
-    if args.xlsx is not None:
-        written.append(write_choice_xlsx(result, args.xlsx, force=args.force))
-    if args.plots is not None:
-        args.plots.mkdir(exist_ok=True)
-        written.append(write_choice_plot(result, args.plots / PLOT_NAME, force=args.force))
+    with FileSet(args.force) as files:  # every file or none, before anything is printed
+        if args.rig_out is not None:
+            files.add(args.rig_out, _rig_writer(result, args.file))
+        if args.xlsx is not None:
+            files.add(args.xlsx, lambda tmp: write_choice_xlsx(result, tmp))
+        if plot is not None:
+            files.make_folder(args.plots)
+            files.add(plot, lambda tmp: write_choice_plot(result, tmp))
+        written = files.commit()
+    sys.stdout.write(text)
     if not args.json:
         for p in written:
             print(f"wrote {p}")
     return 0
 
 
-def _write_rig(result, path, force: bool, source):
+def _check_outputs(args: argparse.Namespace, plot: Path | None, inputs: list[Path]) -> None:
+    """Every output path (and the --plots folder), refused before any work; never an input."""
+    targets = [p for p in (args.xlsx, args.rig_out) if p is not None]
+    if args.plots is not None:
+        if args.plots.is_symlink() and not args.plots.exists():
+            raise BudgetInputError(f"The --plots path '{args.plots}' is a symbolic link to a missing folder.")
+        if args.plots.exists() and not args.plots.is_dir():
+            raise BudgetInputError(f"The --plots path '{args.plots}' exists and is not a folder.")
+        targets.append(plot if args.plots.is_dir() else args.plots)
+    check_targets(targets, args.force, inputs=inputs)
+
+
+def _rig_writer(result, source):
     """The top pick's equivalent rig file: ``thetabudget run`` on it gives the rig model's budget."""
     from budget.choice.equivalent import equivalent_rig, rig_to_doc
     from budget.inputs.toml_text import dumps_toml
-    from budget.report.safe_write import atomic_write
 
     i = int(result.order[0])
     text = dumps_toml(rig_to_doc(equivalent_rig(result.spec, result.cand, result.pred, i)),
@@ -72,4 +83,4 @@ def _write_rig(result, path, force: bool, source):
         with open(tmp, "w", encoding="utf-8") as fh:
             fh.write(text)
 
-    return atomic_write(path, write, force=force)
+    return write

@@ -9,10 +9,13 @@ from __future__ import annotations
 
 import json
 import sys
+from pathlib import Path
 
 import numpy as np
 
-__all__ = ["make_rng", "seed_of", "progress_bar", "dumps"]
+from budget.report.safe_write import remove_pending
+
+__all__ = ["make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending"]
 
 
 def make_rng(seed: int | None) -> np.random.Generator:
@@ -41,3 +44,18 @@ def progress_bar(enabled: bool):
 def dumps(obj: dict) -> str:
     """Strict JSON text (no NaN or Infinity), UTF-8 kept readable."""
     return json.dumps(obj, indent=2, allow_nan=False, ensure_ascii=False)
+
+
+def rig_inputs(path: Path, rig=None, data=None) -> list[Path]:
+    """Every file a command on a rig file reads: the rig file, the data files its ``[data]`` names and
+    the images they name (relative to the data file's folder). None of them is ever an output."""
+    out = [Path(path)]
+    if rig is not None and rig.data is not None:
+        out += [Path(p) for p in (rig.data.readings_csv, rig.data.pivot_csv) if p]
+    folder = Path(path).parent
+    for name, _, kind, _ in (data.files if data is not None else ()):
+        if kind == "data":
+            folder = Path(name).parent
+        elif kind == "image":
+            out.append(Path(name) if Path(name).is_absolute() else folder / name)
+    return out

@@ -49,16 +49,20 @@ def execute(args: argparse.Namespace) -> int:
 
     roi = parse_roi(args.roi) if args.roi is not None else None
     window = args.window if args.window is not None else (None if roi else DEFAULT_WINDOW_PX)
-    if window is not None and (window < 3 or window % 2 == 0):
-        raise field_error("--window", "an odd number of pixels >= 3 (your rig's [locator] window_px)", args.window)
-    positions = _positions(args.position)
-    if args.out is not None:
+    if window is not None and (window < 3 or window > 255 or window % 2 == 0):
+        raise field_error("--window", "an odd number of pixels in [3, 255] (your rig's [locator] window_px)",
+                          args.window)
+    if args.out is not None:  # the path alone, before the frames are looked at
         check_targets([args.out], args.force)
+    positions = _positions(args.position)
+    images = [Path(p) for _, files in positions for p in files]
+    if args.out is not None:
+        check_targets([args.out], args.force, inputs=images)
     sets = locate_positions(positions, roi=roi, method=args.method, window_px=window)
     if args.out is not None:
         hashes = {p: sha256_of(p) for ps in sets for p in ps.result.paths}
         text = frames_csv_text(sets, hashes, args.out.parent)
-        atomic_write(args.out, lambda tmp: tmp.write_text(text, encoding="utf-8"), force=args.force)
+        atomic_write(args.out, lambda tmp: tmp.write_text(text, encoding="utf-8"), force=args.force, inputs=images)
     if args.json:
         docs = []
         for ps in sets:

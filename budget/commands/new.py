@@ -23,17 +23,20 @@ COMPANIONS = {"choose": ("cameras.csv",)}
 
 
 def execute(args: argparse.Namespace) -> int:
+    from budget.report.safe_write import FileSet, check_targets
     from budget.resources import template_text
 
     dest: Path = args.path
     files = [(dest, KINDS[args.kind])] + [(dest.parent / name, name) for name in COMPANIONS.get(args.kind, ())]
     for path, _ in files:
-        if path.exists():
+        if path.is_file():
             raise BudgetInputError(f"The output file '{path}' exists; new never replaces a file.")
-    if not dest.parent.exists():
-        raise BudgetInputError(f"The folder '{dest.parent}' does not exist.")
-    for path, name in files:
-        with open(path, "x", encoding="utf-8") as fh:
-            fh.write(template_text(name))
+    check_targets([path for path, _ in files], force=False)
+    with FileSet(force=False) as out:  # the starter and its companions, all or none
+        for path, name in files:
+            text = template_text(name)
+            out.add(path, lambda tmp, text=text: tmp.write_text(text, encoding="utf-8"))
+        written = out.commit()
+    for path in written:
         print(f"wrote {path} ({args.kind} starter; edit every value marked with its unit)")
     return 0

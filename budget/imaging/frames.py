@@ -28,10 +28,24 @@ _METHODS = ("com", "gauss", "threshold")
 DETECTION_MARGIN_SD = 5.0
 
 
+MAX_IMAGE_PIXELS = 80_000_000
+"""Largest frame read (width × height), checked from the file's header before its pixels are decoded."""
+MAX_STACK_PIXELS = 1_000_000_000
+"""Most pixels of one position's frames held at once (2 GB of 16-bit frames)."""
+
+
+def _check_pixels(path: Path, shape) -> None:
+    n = math.prod(int(v) for v in shape)
+    if n > MAX_IMAGE_PIXELS:
+        raise field_error("path", f"an image of at most {MAX_IMAGE_PIXELS:,} pixels", f"{path} ({n:,} pixels)",
+                          "read_frame")
+
+
 def _read_png(path: Path) -> np.ndarray:
     from PIL import Image
 
     with Image.open(path) as im:
+        _check_pixels(path, im.size)
         mode = im.mode
         if mode in ("L", "I;16", "I;16B", "I;16L", "I"):
             arr = np.array(im)
@@ -47,9 +61,14 @@ def _read_png(path: Path) -> np.ndarray:
 
 
 def _read_tiff(path: Path) -> np.ndarray:
+    import logging
+
     import tifffile
 
-    arr = tifffile.imread(path)
+    logging.getLogger("tifffile").setLevel(logging.CRITICAL)  # its notes on odd files are not the user's business
+    with tifffile.TiffFile(path) as tif:
+        _check_pixels(path, tif.series[0].shape)
+        arr = tif.asarray()
     if arr.ndim != 2:
         raise field_error("path", "a single-page grayscale TIFF (2-D); colour or multi-page "
                           "files are not converted", f"{path} (array shape {arr.shape})",
@@ -284,6 +303,9 @@ def locate_frames(paths: Sequence[str | os.PathLike],
     frames = []
     for p in paths:
         frame = read_frame(p)
+        if frame.size * len(paths) > MAX_STACK_PIXELS:
+            raise field_error("paths", f"frames of at most {MAX_STACK_PIXELS:,} pixels in all", f"{len(paths)} "
+                              f"frames of {frame.size:,} pixels", where)
         if frames and (frame.shape != frames[0].shape or frame.dtype != frames[0].dtype):
             raise field_error("path", f"a frame like the first ({_kind(frames[0])}): frames of mixed size or bit "
                               "depth are not one camera setting", f"{p} ({_kind(frame)})", where)

@@ -22,6 +22,9 @@ from budget.rig.description import RigDescription
 
 __all__ = ["LocatorCheck", "verify_locator", "RATIO_TOLERANCE"]
 
+MAX_RENDERED_PIXELS = 100_000_000
+"""Most pixels rendered at once (renders × image size): 0.8 GB per copy of the images."""
+
 RATIO_TOLERANCE = 1.2
 """Model formulas are first-order (com_variance is derived for a pixel-centred spot): a figure
 within this factor of the model is accepted even beyond 3 Monte Carlo standard errors."""
@@ -104,6 +107,10 @@ def verify_locator(rig: RigDescription, *, renders: int, rng: np.random.Generato
     win = loc.window_px if loc.method != "integer" else 3
     size = int(max(win, 2 * math.ceil(5 * s_rend) + 1)) + 6
     size += 1 - size % 2
+    if renders * size * size > MAX_RENDERED_PIXELS:
+        raise field_error("renders", f"at most {MAX_RENDERED_PIXELS // (size * size):,} for this rig's {size} x {size} "
+                          f"px images (renders × pixels <= {MAX_RENDERED_PIXELS:,}, the memory they take)", renders,
+                          "verify-locator")
     c0 = (size - 1) / 2.0
     centres = c0 + rng.uniform(low=-0.5, high=0.5, size=(renders, 2))
     img = render_target(shape=(size, size), centre_xy=centres, sigma_px=s_rend, signal_e=t.signal_e,

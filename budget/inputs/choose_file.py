@@ -4,30 +4,38 @@ TOML with one table per concept, units in the key names and a ``source`` note in
 section (it reaches every report). Validation mirrors :mod:`budget.inputs.rig_file`: an unknown key
 suggests the nearest valid one, and every problem raises :class:`BudgetInputError` in one
 line naming the field, its section, the allowed range and the value received. The camera
-list is a CSV file (columns :data:`CAMERA_COLUMNS`); lenses are a list of tables or ``"auto"``.
+list is a CSV file (columns :data:`CAMERA_COLUMNS`, read by :mod:`budget.inputs.cameras_csv`); lenses are
+a list of tables or ``"auto"``.
 """
 
 from __future__ import annotations
 
-import csv
-import io
 import math
 from dataclasses import dataclass
 from dataclasses import field as dataclass_field
 from pathlib import Path
 
-import numpy as np
-
 from budget.errors import BudgetInputError, field_error
-from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
+from budget.inputs.cameras_csv import CAMERA_COLUMNS, MAX_CAMERAS, CameraTable, read_cameras_csv
+from budget.inputs.schema import (
+    MAX_LIST,
+    Field,
+    choice,
+    coerce,
+    non_negative,
+    number,
+    positive,
+    read_toml,
+    suggest,
+)
 
 __all__ = ["CAMERA_COLUMNS", "ChooseSpec", "CameraTable", "LensList", "SCHEMA", "load_choose", "parse_choose",
-           "read_cameras_csv"]
+           "read_cameras_csv", "MAX_CAMERAS", "MAX_CANDIDATES", "MAX_EVALUATIONS"]
 
-CAMERA_COLUMNS = ("name", "pixels_x", "pixels_y", "pitch_um", "bit_depth", "read_noise_e", "full_well_e",
-                  "max_frame_rate_hz", "shutter", "price")
-
-
+MAX_CANDIDATES = 100_000
+"""Most camera × lens candidates one choose file may ask for."""
+MAX_EVALUATIONS = 20_000_000
+"""Most candidate × setting evaluations of the search (candidates × f-numbers × exposures × distances)."""
 _SOURCE = Field("str", "a text note (datasheet, drawing, measured, assumed)")
 _ANGLES = Field("floats", "a list of angles in (-360, 360)", lambda v: all(-360 < a < 360 for a in v))
 
@@ -123,23 +131,6 @@ _TOP = ("title",)
 
 
 @dataclass(frozen=True)
-class CameraTable:
-    """Candidate cameras, one entry per CSV row (arrays of equal length)."""
-
-    name: tuple[str, ...]
-    pixels_x: np.ndarray
-    pixels_y: np.ndarray
-    pitch_um: np.ndarray
-    bit_depth: np.ndarray
-    read_noise_e: np.ndarray
-    full_well_e: np.ndarray
-    max_frame_rate_hz: np.ndarray
-    rolling: np.ndarray  # bool
-    price: np.ndarray
-    path: str = ""
-
-
-@dataclass(frozen=True)
 class LensList:
     """Fixed lenses (focal length, f-number), or automatic focal length at ``auto_f_number``."""
 
@@ -215,6 +206,9 @@ def _lenses(cand: dict) -> LensList:
         return LensList(True, (), (), cand["auto_f_number"])
     if not isinstance(value, list) or not value:
         raise field_error("lenses", allowed, value, "[candidates]")
+    if len(value) > MAX_LIST:
+        raise field_error("lenses", f"{allowed} (at most {MAX_LIST} lenses)", f"a list of {len(value)} lenses",
+                          "[candidates]")
     f, n = [], []
     for i, item in enumerate(value):
         if not isinstance(item, dict) or set(item) - {"focal_length_mm", "f_number"} or "focal_length_mm" not in item:
@@ -226,80 +220,6 @@ def _lenses(cand: dict) -> LensList:
         f.append(fl)
         n.append(fn)
     return LensList(False, tuple(f), tuple(n), cand["auto_f_number"])
-
-
-_CSV_CHECKS = {
-    "pixels_x": ("an integer in [16, 100000]", lambda v: v == int(v) and 16 <= v <= 100_000),
-    "pixels_y": ("an integer in [16, 100000]", lambda v: v == int(v) and 16 <= v <= 100_000),
-    "pitch_um": ("a number in (0, 100]", lambda v: 0 < v <= 100),
-    "bit_depth": ("an integer in [1, 32]", lambda v: v == int(v) and 1 <= v <= 32),
-    "read_noise_e": ("a number >= 0 and <= 10000", lambda v: 0 <= v <= 1e4),  # the rig file's limits
-    "full_well_e": ("a number in (0, 1e8]", lambda v: 0 < v <= 1e8),
-    "max_frame_rate_hz": ("a number > 0", lambda v: v > 0),
-    "price": ("a number >= 0", lambda v: v >= 0),
-}
-
-
-def read_cameras_csv(path: str | Path) -> CameraTable:
-    """Read the candidate cameras.
-
-    Parameters
-    ----------
-    path : str or Path
-        CSV with the header :data:`CAMERA_COLUMNS` (any order, extra columns refused).
-
-    Returns
-    -------
-    CameraTable
-
-    Raises
-    ------
-    BudgetInputError
-        A missing file or column, or a bad cell (naming the row, the column and the value).
-    """
-    p = Path(path)
-    try:
-        text = p.read_bytes().decode("utf-8-sig")  # spreadsheets save "CSV UTF-8" with a byte-order mark
-    except OSError as exc:
-        raise BudgetInputError(f"The cameras file '{p}' cannot be read: {exc.strerror}.") from None
-    except UnicodeDecodeError as exc:
-        raise BudgetInputError(f"The cameras file '{p}' is not UTF-8 text (byte {exc.start}); "
-                               "save it as UTF-8.") from None
-    cols: dict[str, list] = {c: [] for c in CAMERA_COLUMNS}
-    with io.StringIO(text, newline="") as fh:
-        reader = csv.DictReader(line for line in fh if not line.lstrip().startswith("#"))
-        header = reader.fieldnames or []
-        missing = [c for c in CAMERA_COLUMNS if c not in header]
-        extra = [c for c in header if c not in CAMERA_COLUMNS]
-        if missing or extra:
-            what = f"lacks {', '.join(missing)}" if missing else f"has unknown column(s) {', '.join(extra)}"
-            raise BudgetInputError(f"The cameras file '{p}' {what}; its columns must be {', '.join(CAMERA_COLUMNS)}.")
-        for row_no, row in enumerate(reader, start=2):
-            name = (row["name"] or "").strip()
-            if not name:
-                raise BudgetInputError(f"Row {row_no} of '{p}': the 'name' cell is empty.")
-            cols["name"].append(name)
-            shutter = (row["shutter"] or "").strip()
-            if shutter not in ("global", "rolling"):
-                raise BudgetInputError(f"Row {row_no} of '{p}': the 'shutter' cell must be 'global' or 'rolling'. "
-                                       f"Got {shutter!r} instead.")
-            cols["shutter"].append(shutter == "rolling")
-            for col, (allowed, ok) in _CSV_CHECKS.items():
-                try:
-                    v = float(row[col])
-                except (TypeError, ValueError):
-                    v = math.nan
-                if not math.isfinite(v) or not ok(v):
-                    raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell must be {allowed}. "
-                                           f"Got {row[col]!r} instead.")
-                cols[col].append(v)
-    if not cols["name"]:
-        raise BudgetInputError(f"The cameras file '{p}' has no camera rows.")
-    if len(set(cols["name"])) != len(cols["name"]):
-        dup = next(n for n in cols["name"] if cols["name"].count(n) > 1)
-        raise BudgetInputError(f"The cameras file '{p}' lists the camera name {dup!r} twice; names must be unique.")
-    arr = {c: np.array(cols[c], dtype=float) for c in _CSV_CHECKS}
-    return CameraTable(name=tuple(cols["name"]), rolling=np.array(cols["shutter"], dtype=bool), path=str(p), **arr)
 
 
 def parse_choose(doc: dict, base: Path | None = None) -> ChooseSpec:
@@ -319,10 +239,27 @@ def parse_choose(doc: dict, base: Path | None = None) -> ChooseSpec:
     csv_path = Path(cand["cameras_csv"])
     if base is not None and not csv_path.is_absolute():
         csv_path = base / csv_path
+    lenses = _lenses(cand)
+    cameras = read_cameras_csv(csv_path)
+    _check_size(len(cameras.name), lenses, sec["search"])
     return ChooseSpec(title=title, scene=sec["scene"], target=sec["target"], light=sec["light"],
                       locator=sec["locator"], pivot=sec["pivot"], measurement=sec["measurement"],
                       motion=sec["motion"], goal=sec["goal"], pixel_model=sec["pixel_model"],
-                      cameras=read_cameras_csv(csv_path), lenses=_lenses(cand), raw=doc, search=sec["search"])
+                      cameras=cameras, lenses=lenses, raw=doc, search=sec["search"])
+
+
+def _check_size(n_cameras: int, lenses: LensList, search: dict) -> None:
+    """Refuse, before the search allocates, more candidates or evaluations than the limits."""
+    n = n_cameras * (1 if lenses.auto else len(lenses.focal_length_mm))
+    if n > MAX_CANDIDATES:
+        raise BudgetInputError(f"The choose file asks for {n:,} camera × lens candidates; at most "
+                               f"{MAX_CANDIDATES:,} are searched: give fewer cameras or lenses.")
+    settings = (len(search.get("f_numbers") or (1,)) * len(search.get("exposures_ms") or (1,))
+                * (search.get("distance_steps", 12) + 4))
+    if n * settings > MAX_EVALUATIONS:
+        raise BudgetInputError(f"The search would evaluate {n:,} candidates at {settings:,} settings each; at most "
+                               f"{MAX_EVALUATIONS:,} evaluations are made: give fewer f_numbers, exposures_ms or "
+                               "distance_steps in [search], or fewer candidates.")
 
 
 def _cross_checks(sec: dict) -> None:

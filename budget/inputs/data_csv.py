@@ -11,18 +11,24 @@ from __future__ import annotations
 
 import csv
 import hashlib
+import io
 import math
 from pathlib import Path
 
 import numpy as np
 
 from budget.errors import BudgetInputError
+from budget.inputs.schema import CONTROL_CHARACTERS, TEXT_RULE
 from budget.rig.description import MeasuredData, RigDescription, point_labels
 
 __all__ = ["COLUMNS", "OPTIONAL_COLUMNS", "read_positions_csv", "read_rig_data", "sha256_of"]
 
 COLUMNS = ("position", "frame", "x_px", "y_px")
 OPTIONAL_COLUMNS = ("image", "sha256")
+MAX_DATA_BYTES = 200_000_000
+"""Largest data file read."""
+MAX_DATA_ROWS = 1_000_000
+"""Most rows (frames) a data file may hold."""
 
 
 def sha256_of(path: str | Path) -> str:
@@ -38,7 +44,8 @@ def _number(row: dict, col: str, row_no: int, p: Path) -> float:
     try:
         v = float(row[col])
     except (TypeError, ValueError):
-        raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell must be a number. Got {row[col]!r}.") from None
+        raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell must be a number. "
+                               f"Got {str(row[col])[:80]!r}.") from None
     if not math.isfinite(v):
         raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell is {v}; it must be finite.")
     return v
@@ -54,36 +61,67 @@ def read_positions_csv(path: str | Path) -> tuple[dict[str, np.ndarray], dict[st
         not a whole number or appears twice for one position.
     """
     p = Path(path)
-    try:
-        fh = open(p, newline="", encoding="utf-8-sig")
-    except OSError as exc:
-        raise BudgetInputError(f"The data file '{p}' cannot be read: {exc.strerror}.") from None
     rows: dict[str, list[tuple[float, float, float, str, str]]] = {}
-    with fh:
+    with io.StringIO(_read_text(p), newline="") as fh:
         reader = csv.DictReader(fh)
-        missing = [c for c in COLUMNS if c not in (reader.fieldnames or [])]
+        try:
+            missing = [c for c in COLUMNS if c not in (reader.fieldnames or [])]
+        except csv.Error as exc:
+            raise BudgetInputError(f"The data file '{p}' is not a readable CSV file: {exc}.") from None
         if missing:
             raise BudgetInputError(f"The data file '{p}' lacks the column(s) {', '.join(missing)}; "
                                    f"it must have {', '.join(COLUMNS)}.")
-        for row_no, row in enumerate(reader, start=2):
-            pid = (row["position"] or "").strip()
-            if not pid:
-                raise BudgetInputError(f"Row {row_no} of '{p}': the 'position' cell is empty.")
-            frame = _number(row, "frame", row_no, p)
-            if not frame.is_integer():
-                raise BudgetInputError(f"Row {row_no} of '{p}': the 'frame' cell must be a whole number. "
-                                       f"Got {row['frame']!r}.")
-            x, y = _number(row, "x_px", row_no, p), _number(row, "y_px", row_no, p)
-            if any(f == frame for f, *_ in rows.get(pid, [])):
-                raise BudgetInputError(f"Row {row_no} of '{p}': position '{pid}' has frame {frame:g} twice.")
-            rows.setdefault(pid, []).append((frame, x, y, (row.get("image") or "").strip(),
-                                             (row.get("sha256") or "").strip().lower()))
+        try:
+            _read_rows(reader, p, rows)
+        except csv.Error as exc:
+            raise BudgetInputError(f"The data file '{p}' is not a readable CSV file (row {reader.line_num}: "
+                                   f"{exc}).") from None
     points, images = {}, {}
     for pid, r in rows.items():
         r.sort(key=lambda t: t[0])
         points[pid] = np.array([(x, y) for _, x, y, _, _ in r])
         images[pid] = tuple((img, sha) for *_, img, sha in r)
     return points, images
+
+
+def _read_text(p: Path) -> str:
+    """The data file's text: UTF-8 (a byte-order mark is skipped), at most :data:`MAX_DATA_BYTES`."""
+    try:
+        size = p.stat().st_size
+        if size > MAX_DATA_BYTES:
+            raise BudgetInputError(f"The data file '{p}' has {size:,} bytes; at most {MAX_DATA_BYTES:,} are read.")
+        return p.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise BudgetInputError(f"The data file '{p}' is not UTF-8 text (byte {exc.start}); save it as UTF-8.") from None
+    except (OSError, ValueError) as exc:
+        why = getattr(exc, "strerror", None) or exc
+        raise BudgetInputError(f"The data file '{p}' cannot be read: {why}.") from None
+
+
+def _read_rows(reader, p: Path, rows: dict) -> None:
+    frames_seen: dict[str, set[float]] = {}
+    for row_no, row in enumerate(reader, start=2):
+        if row_no - 1 > MAX_DATA_ROWS:
+            raise BudgetInputError(f"The data file '{p}' has more than {MAX_DATA_ROWS:,} rows; at most that many "
+                                   "frames are read.")
+        pid = (row["position"] or "").strip()
+        if not pid:
+            raise BudgetInputError(f"Row {row_no} of '{p}': the 'position' cell is empty.")
+        image = (row.get("image") or "").strip()
+        for col, text in (("position", pid), ("image", image)):
+            if CONTROL_CHARACTERS.search(text):
+                raise BudgetInputError(f"Row {row_no} of '{p}': the '{col}' cell must be {TEXT_RULE}. "
+                                       f"Got {text[:80]!r}.")
+        frame = _number(row, "frame", row_no, p)
+        if not frame.is_integer():
+            raise BudgetInputError(f"Row {row_no} of '{p}': the 'frame' cell must be a whole number. "
+                                   f"Got {row['frame']!r}.")
+        x, y = _number(row, "x_px", row_no, p), _number(row, "y_px", row_no, p)
+        seen = frames_seen.setdefault(pid, set())
+        if frame in seen:
+            raise BudgetInputError(f"Row {row_no} of '{p}': position '{pid}' has frame {frame:g} twice.")
+        seen.add(frame)
+        rows.setdefault(pid, []).append((frame, x, y, image, (row.get("sha256") or "").strip().lower()))
 
 
 def _image_files(csv_path: Path, images: dict[str, tuple[tuple[str, str], ...]]) -> list[tuple[str, str, str, str]]:

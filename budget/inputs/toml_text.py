@@ -11,6 +11,7 @@ import json
 import math
 
 from budget.errors import BudgetInputError
+from budget.inputs.schema import CONTROL_CHARACTERS
 
 __all__ = ["dumps_toml"]
 
@@ -33,7 +34,7 @@ def _value(v: object) -> str:
 
 def dumps_toml(doc: dict, header: str = "") -> str:
     """TOML text of ``doc``; ``header`` lines become comments at the top."""
-    lines = [f"# {line}".rstrip() for line in header.splitlines()]
+    lines = [f"# {CONTROL_CHARACTERS.sub(chr(0xFFFD), line)}".rstrip() for line in header.splitlines()]
     for key, value in doc.items():
         if not isinstance(value, dict):
             lines.append(f"{key} = {_value(value)}")

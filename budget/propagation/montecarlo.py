@@ -34,6 +34,14 @@ CHUNK_VALUES = 2_000_000
 """Input values drawn per model call (chunk size × number of inputs)."""
 MAX_TRIALS = 10_000_000
 """Upper bound of the adaptive procedure; reaching it is reported as a warning."""
+MAX_VALUES = 100_000_000
+"""Most output values kept (trials × outputs, 0.8 GB per copy): more is refused before it is drawn."""
+
+
+def _check_size(trials: int, outputs: int) -> None:
+    if trials * outputs > MAX_VALUES:
+        raise field_error("trials", f"at most {MAX_VALUES // outputs:,} for a model with {outputs} outputs "
+                          f"(trials × outputs <= {MAX_VALUES:,}, the memory the results take)", trials)
 
 
 @dataclass(frozen=True)
@@ -159,6 +167,7 @@ def _run(model: Model, sampler: _Sampler, rng: np.random.Generator, trials: int,
     while done < trials:
         n = min(chunk, trials - done)
         out = evaluate(model, sampler.draw(rng, n), n)
+        _check_size(trials, len(out))
         for k, v in out.items():
             parts.setdefault(k, []).append(v)
         done += n
@@ -239,6 +248,7 @@ def monte_carlo(
         while h * seq < max_trials and not converged:
             n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
             out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
+            max_trials = min(max_trials, max(seq, MAX_VALUES // len(out) // seq * seq))
             for k, v in out.items():
                 parts.setdefault(k, []).append(v)
                 for s in range(n_seq):

@@ -10,7 +10,7 @@ from pathlib import Path
 
 from budget.choice.model import COMPONENTS
 from budget.choice.rank import Choice
-from budget.report.safe_write import atomic_write
+from budget.report.safe_write import clean_text, set_text
 
 __all__ = ["choice_rows", "choice_to_dict", "render_choice", "write_choice_plot", "write_choice_xlsx", "SHOWN"]
 
@@ -173,24 +173,32 @@ def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirm
     return "\n".join(lines) + "\n"
 
 
-def write_choice_xlsx(ch: Choice, path: Path, *, force: bool = False) -> Path:
-    """One sheet 'choice' with every candidate, best first (through the one atomic writer)."""
+def write_choice_xlsx(ch: Choice, path: Path) -> None:
+    """One sheet 'choice' with every candidate, best first, saved to ``path`` (the caller's temporary file:
+    :class:`budget.report.safe_write.FileSet`). Text from the input is inert (:func:`set_text`)."""
     from openpyxl import Workbook
 
     rows = choice_rows(ch)
     wb = Workbook()
     ws = wb.active
     ws.title = "choice"
-    ws.append([ch.spec.title])
     keys = [k for k in rows[0] if k != "angle_components_deg"] + [f"u {c} (°)" for c in COMPONENTS]
-    ws.append(keys)
+    table = [[ch.spec.title], keys]
     for r in rows:
-        ws.append([r[k] for k in keys[:-len(COMPONENTS)]] + [r["angle_components_deg"][c] for c in COMPONENTS])
-    return atomic_write(Path(path), lambda tmp: wb.save(tmp), force=force)
+        table.append([r[k] for k in keys[:-len(COMPONENTS)]] + [r["angle_components_deg"][c] for c in COMPONENTS])
+    for i, values in enumerate(table, start=1):
+        for j, v in enumerate(values, start=1):
+            if isinstance(v, str):
+                set_text(ws.cell(row=i, column=j), v)
+            elif v is not None:
+                ws.cell(row=i, column=j, value=v)
+    wb.properties.title = clean_text(f"Camera choice: {ch.spec.title}", 255)
+    wb.save(path)
 
 
-def write_choice_plot(ch: Choice, path: Path, *, force: bool = False) -> Path:
-    """PNG of U against pixels across the field: the continuous model and the candidates."""
+def write_choice_plot(ch: Choice, path: Path) -> None:
+    """PNG of U against pixels across the field (the continuous model and the candidates), saved to ``path``
+    (the caller's temporary file). The title is the input's text, drawn as it is (no mathtext)."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -201,19 +209,19 @@ def write_choice_plot(ch: Choice, path: Path, *, force: bool = False) -> Path:
     u = p.U_angle_deg if is_angle else p.U_gain_pct
     goal = spec.goal["angle_U_deg"] if is_angle else spec.goal["gain_U_pct"]
     fig, ax = plt.subplots(figsize=(7, 4.5))
-    if ch.curve is not None:
-        ax.plot(ch.curve[0], ch.curve[1], "-", color="0.3", label="continuous sensor model")
-    ax.scatter(p.px_across_field[p.meets], u[p.meets], marker="o", label="candidate, meets")
-    ax.scatter(p.px_across_field[~p.meets], u[~p.meets], marker="x", label="candidate, does not meet")
-    ax.axhline(goal, linestyle="--", color="k", linewidth=1, label="goal")
-    ax.set_xscale("log")
-    ax.set_yscale("log")
-    ax.set_xlabel("pixels across the field")
-    ax.set_ylabel("U angle (°)" if is_angle else "U gain (%)")
-    ax.set_title(spec.title, fontsize=9)
-    ax.legend(fontsize=8)
-    fig.tight_layout()
     try:
-        return atomic_write(Path(path), lambda tmp: fig.savefig(tmp, format="png", dpi=120), force=force)
+        if ch.curve is not None:
+            ax.plot(ch.curve[0], ch.curve[1], "-", color="0.3", label="continuous sensor model")
+        ax.scatter(p.px_across_field[p.meets], u[p.meets], marker="o", label="candidate, meets")
+        ax.scatter(p.px_across_field[~p.meets], u[~p.meets], marker="x", label="candidate, does not meet")
+        ax.axhline(goal, linestyle="--", color="k", linewidth=1, label="goal")
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.set_xlabel("pixels across the field")
+        ax.set_ylabel("U angle (°)" if is_angle else "U gain (%)")
+        ax.set_title(clean_text(spec.title, 200), fontsize=9, parse_math=False)
+        ax.legend(fontsize=8)
+        fig.tight_layout()
+        fig.savefig(path, format="png", dpi=120, metadata={"Software": "thetabudget (matplotlib)"})
     finally:
         plt.close(fig)

@@ -4,7 +4,8 @@ Numbers are written with Python's shortest round-trip representation (``repr``),
 reading them back gives the engine's floats exactly; an infinite ν is ``inf`` and a
 missing value an empty cell. Every row carries the run's p, seed and input SHA-256, so a row
 copied elsewhere can still be traced to its run. Text from the user is made inert for spreadsheets
-(:func:`budget.report.safe_write.csv_text`). In evaluation mode ``data_sha256`` names each data file
+(:func:`budget.report.safe_write.csv_text`), and a cell holding a line break is quoted (rows end in CR LF,
+RFC 4180). In evaluation mode ``data_sha256`` names each data file
 with its SHA-256 (the data file in turn records every frame's image and SHA-256). The file is UTF-8 with a
 byte-order mark,
 which spreadsheets need to show °, ν and √ correctly.
@@ -12,10 +13,9 @@ which spreadsheets need to show °, ν and √ correctly.
 
 from __future__ import annotations
 
-import csv
 import io
 
-from budget.report.safe_write import csv_text
+from budget.report.safe_write import csv_text, csv_writer
 from budget.results import RunResult
 
 __all__ = ["render_csv", "CSV_COLUMNS", "ENCODING"]
@@ -37,7 +37,7 @@ def _n(x: float | int | None) -> str:
 def render_csv(result: RunResult) -> str:
     """The CSV text (write it with :data:`ENCODING`)."""
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv_writer(buf)  # CR LF rows: a line break inside a cell is quoted
     w.writerow(CSV_COLUMNS)
     data = "; ".join(f"{f.path} {f.sha256}" for f in (result.data.files if result.data is not None else ())
                      if f.kind == "data")

@@ -1,20 +1,21 @@
 """Report files of a run: workbook, Markdown, CSV and PNG plots.
 
 Every destination is checked before anything is written (an existing file needs ``force``;
-the error names it and ``--force``), and each file is written through a temporary file in
-its own folder and moved into place (:mod:`budget.report.safe_write`).
+the error names it and ``--force``; an input is never written), and the files are written through
+temporary files in their own folders and moved into place together, or not at all
+(:mod:`budget.report.safe_write`).
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from budget.errors import BudgetInputError
-from budget.report.safe_write import atomic_write, check_targets
+from budget.report.safe_write import FileSet, check_targets
 from budget.results import RunResult
 
-__all__ = ["write_reports"]
+__all__ = ["check_reports", "write_reports"]
 
 
 def _text_writer(render: Callable[[], str], encoding: str = "utf-8") -> Callable[[Path], None]:
@@ -25,10 +26,30 @@ def _text_writer(render: Callable[[], str], encoding: str = "utf-8") -> Callable
     return write
 
 
+def check_reports(*, xlsx: str | Path | None = None, md: str | Path | None = None, csv: str | Path | None = None,
+                  plots: str | Path | None = None, plot_files: Sequence[str] = (), force: bool = False,
+                  inputs: Sequence[Path] = ()) -> None:
+    """Refuse, before any work, every report path that cannot be written (see :func:`check_targets`).
+
+    ``plot_files`` are the names the run will draw into ``plots`` (:func:`budget.report.plots.plot_names`);
+    a ``plots`` folder still to be made holds no file to replace, but its own path must be usable.
+    """
+    files = [Path(p) for p in (xlsx, md, csv) if p is not None]
+    if plots is not None:
+        folder = Path(plots)
+        if folder.is_symlink() and not folder.exists():
+            raise BudgetInputError(f"The --plots path '{folder}' is a symbolic link to a missing folder.")
+        if folder.exists() and not folder.is_dir():
+            raise BudgetInputError(f"The --plots path '{folder}' exists and is not a folder.")
+        # the files it will hold, or (a folder still to be made) the place where it is made
+        files += [folder / name for name in plot_files] if folder.is_dir() else [folder]
+    check_targets(files, force, inputs=inputs)
+
+
 def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str | Path | None = None,
                   csv: str | Path | None = None, plots: str | Path | None = None,
-                  force: bool = False) -> list[Path]:
-    """Write the requested report files.
+                  force: bool = False, inputs: Sequence[Path] = ()) -> list[Path]:
+    """Write the requested report files: all of them, or (on any error or signal) none.
 
     Parameters
     ----------
@@ -36,9 +57,11 @@ def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str 
     xlsx, md, csv : path, optional
         The workbook, the Markdown tables, the budget rows as CSV.
     plots : path, optional
-        A folder for the PNG plots (made if missing).
+        A folder for the PNG plots (made if missing; its parent must exist).
     force : bool
         Replace existing files.
+    inputs : sequence of Path
+        The run's input files (rig file, data files, images): never written, even with ``force``.
 
     Returns
     -------
@@ -48,8 +71,9 @@ def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str 
     Raises
     ------
     BudgetInputError
-        An existing file without ``force``, a missing folder, or a ``plots`` path that is a
-        file; raised before any file is written.
+        An existing file without ``force``, a missing folder, a ``plots`` path that is a file, two
+        outputs on one path, an output that is an input (raised before any file is written), or a
+        file that cannot be written (a full disk; nothing is then left written).
     """
     plan: list[tuple[Path, Callable[[Path], None]]] = []
     if xlsx is not None:
@@ -70,25 +94,14 @@ def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str 
     pictures: list[tuple[Path, Callable[[Path], None]]] = []
     folder = Path(plots) if plots is not None else None
     if folder is not None:
-        if folder.exists() and not folder.is_dir():
-            raise BudgetInputError(f"The --plots path '{folder}' exists and is not a folder.")
         from budget.report.plots import plot_plan
 
         pictures = [(folder / name, draw) for name, draw in plot_plan(result)]
-    targets = [p for p, _ in plan + pictures]
-    if len(set(map(_key, targets))) != len(targets):
-        raise BudgetInputError("Two report outputs name the same file; give each its own path.")
-    check_targets([p for p, _ in plan], force)
-    if folder is not None and folder.is_dir():  # a folder still to be made holds no file to replace
-        check_targets([p for p, _ in pictures], force)
-    if folder is not None:
-        folder.mkdir(parents=True, exist_ok=True)
-    plan += pictures
-    written = []
-    for path, write in plan:
-        written.append(atomic_write(path, write, force=force))
-    return written
-
-
-def _key(p: Path) -> Path:
-    return p.resolve() if p.parent.exists() else p.absolute()
+    check_reports(xlsx=xlsx, md=md, csv=csv, plots=plots, plot_files=[p.name for p, _ in pictures], force=force,
+                  inputs=inputs)
+    with FileSet(force) as files:
+        if folder is not None:
+            files.make_folder(folder)
+        for path, write in plan + pictures:
+            files.add(path, write)
+        return files.commit()

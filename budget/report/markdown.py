@@ -7,10 +7,13 @@ for infinite degrees of freedom (``null`` in the JSON) and — for "not applicab
 
 from __future__ import annotations
 
+import re
+
 from budget.report.console import fmt
+from budget.report.safe_write import clean_text
 from budget.results import OutputBudget, RunResult
 
-__all__ = ["render_markdown", "output_markdown", "num", "md_text"]
+__all__ = ["render_markdown", "output_markdown", "num", "md_text", "md_code"]
 
 STANDARDS = "JCGM 100:2008 (GUM) and JCGM 101:2008 (GUM Supplement 1, Monte Carlo)"
 COMPONENT_HEADER = ("component", "Type", "distribution", "u(x_i)", "c_i", "contribution [{u}]",
@@ -22,10 +25,26 @@ def num(x: float | int | None) -> str:
     return fmt(x, 6)
 
 
+_MD_ESCAPES = str.maketrans({"\\": "\\\\", "|": "\\|", "`": "\\`", "<": "&lt;", ">": "&gt;", "\r": " ", "\n": " "})
+_MD_LINKS = re.compile(r"\](?=[(\[:])|!(?=\[)")
+"""A closing bracket that would make a link or a reference, and the mark of an image."""
+_MD_START = re.compile(r"^(\d{1,9})([.)])(?=\s|$)|^([-+*#])(?=[\s#]|$)")
+"""A list marker or a heading at the start of a line."""
+
+
 def md_text(s: str) -> str:
-    """A user's text for a table cell or a line: no table breaks, no raw HTML."""
-    return (s.replace("\\", "\\\\").replace("|", "\\|").replace("<", "&lt;").replace(">", "&gt;")
-            .replace("\r", " ").replace("\n", " "))
+    """A user's text for a table cell or a line, inert: no table breaks, no raw HTML, no links or images,
+    no code spans, no list or heading of its own (CommonMark backslash escapes), no control characters."""
+    text = _MD_LINKS.sub(lambda m: "\\" + m[0], clean_text(s).translate(_MD_ESCAPES))
+    return _MD_START.sub(lambda m: f"{m[1]}\\{m[2]}" if m[1] else "\\" + m[3], text)
+
+
+def md_code(s: str) -> str:
+    """A user's text (a file name) as an inline code span that no character of it can close."""
+    text = " ".join(clean_text(s).split("\n")).replace("\r", " ").replace("|", "\\|")
+    fence = "`" * (max((len(r) for r in re.findall("`+", text)), default=0) + 1)
+    pad = " " if text.startswith("`") or text.endswith("`") else ""
+    return f"{fence}{pad}{text}{pad}{fence}"
 
 
 def _row(cells) -> str:
@@ -120,14 +139,14 @@ def _data(result: RunResult) -> list[str]:
         return []
     out = ["## Measured data", "", "Files the data rest on (the data file lists every frame's image and SHA-256):", "",
            _row(["kind", "file", "SHA-256", "note"]), "|---|---|---|---|"]
-    out += [_row([f.kind, f"`{md_text(f.path)}`", f"`{f.sha256}`", md_text(f.note)]) for f in d.files]
+    out += [_row([f.kind, md_code(f.path), f"`{f.sha256}`", md_text(f.note)]) for f in d.files]
     out += ["", "Located points in image coordinates (x right, y down, px from the centre of the top-left pixel); "
             "s is the frames' standard deviation, n_eff the effective number of independent frames, s²/σ² the "
             "scatter against the locator model's noise per frame:", "",
             _row(["point", "n", "n_eff", "mean x [px]", "mean y [px]", "s_x [px]", "s_y [px]", "r_xy", "drift [px]",
                   "lag-1 r", "s²/σ²", "frames"]), "|---|--:|--:|--:|--:|--:|--:|--:|--:|--:|--:|---|"]
     for m in d.points:
-        frames = ", ".join(f"`{md_text(i)}`" for i in m.images if i) or "—"
+        frames = ", ".join(md_code(i) for i in m.images if i) or "—"
         out.append(_row([m.label, num(m.n), num(m.n_eff), num(m.mean_x_px), num(m.mean_y_px), num(m.sd_x_px),
                          num(m.sd_y_px), num(m.r_xy), num(m.drift_px) + (" (significant)" if m.drifting else ""),
                          num(m.lag1) + (" (significant)" if m.autocorrelated else ""), num(m.scatter_ratio), frames]))
@@ -140,8 +159,8 @@ def render_markdown(result: RunResult) -> str:
     lines = [
         f"# Uncertainty budget: {md_text(result.title)}", "",
         f"- Tool: thetabudget {md_text(result.tool_version)}",
-        f"- Input file: `{md_text(result.input_path)}`, SHA-256 `{result.input_sha256}`",
-        *(f"- Data file: `{md_text(f.path)}`, SHA-256 `{f.sha256}`" for f in
+        f"- Input file: {md_code(result.input_path)}, SHA-256 `{result.input_sha256}`",
+        *(f"- Data file: {md_code(f.path)}, SHA-256 `{f.sha256}`" for f in
           (result.data.files if result.data is not None else ()) if f.kind == "data"),
         f"- Seed: {md_text(str(result.seed))}; coverage probability p = {num(result.p)}; run {result.created}",
         f"- Standards followed: {STANDARDS}",
@@ -161,7 +180,7 @@ def render_markdown(result: RunResult) -> str:
                   *(f"- {md_text(t.strip())}" for t in targets), ""]
     if result.assumptions:
         lines += ["## Assumptions", "", "Values the tool supplied because the input file left them out:", ""]
-        lines += [f"- `{md_text(a.field)}` = {md_text(repr(a.value))}: {md_text(a.reason)}" for a in result.assumptions]
+        lines += [f"- {md_code(a.field)} = {md_text(repr(a.value))}: {md_text(a.reason)}" for a in result.assumptions]
         lines += [""]
     described = result.component_descriptions()
     if described:

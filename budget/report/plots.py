@@ -28,6 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from budget.report.binning import histogram
+from budget.report.safe_write import clean_text
 from budget.results import OutputBudget, RunResult
 
 __all__ = ["plot_plan", "mc_histogram", "pareto", "sweep_residuals", "expanded_uncertainty"]
@@ -54,7 +55,7 @@ def provenance(result: RunResult) -> str:
 def _save(fig, path: Path, stamp: str = "") -> None:
     meta = {"Software": "thetabudget (matplotlib)"}
     if stamp:
-        meta["Source"] = stamp  # a PNG text chunk: the figure can be traced to its run
+        meta["Source"] = clean_text(stamp)  # a PNG text chunk: the figure can be traced to its run
     fig.savefig(path, format="png", metadata=meta)
 
 

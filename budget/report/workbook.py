@@ -22,6 +22,7 @@ from pathlib import Path
 
 from openpyxl import Workbook
 
+from budget.report.safe_write import clean_text
 from budget.report.workbook_budget import write_formula_sheets
 from budget.report.workbook_cells import fit_row_heights, print_setup
 from budget.report.workbook_charts import write_monte_carlo_sheet
@@ -45,7 +46,7 @@ def build_workbook(result: RunResult) -> Workbook:
     for ws in wb.worksheets:
         fit_row_heights(ws)
         print_setup(ws, None if ws.title == "Summary" else "1:1")
-    wb.properties.title = f"Uncertainty budget: {result.title}"[:255]
+    wb.properties.title = clean_text(f"Uncertainty budget: {result.title}", 255)  # no control characters
     wb.properties.creator = f"thetabudget {result.tool_version}"
     return wb
 

@@ -68,7 +68,7 @@ def test_a_failed_move_leaves_the_old_file(gauge, written, tmp_path, monkeypatch
         raise OSError("no space left on device")
 
     monkeypatch.setattr(safe_write.os, "replace", broken_replace)
-    with pytest.raises(OSError, match="no space"):
+    with pytest.raises(BudgetInputError, match="could not be written.*no space"):
         write_reports(gauge, md=written["md"], force=True)
     assert _snapshot(tmp_path) == before
 
