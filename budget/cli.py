@@ -230,6 +230,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     import importlib
 
     module = importlib.import_module(f"budget.commands.{_MODULES[args.command]}")  # heavy imports only now
+    with _unraisable_kept():
+        return _execute(module, args)
+
+
+def _execute(module, args: argparse.Namespace) -> int:
     try:
         with _signals_raise(), _library_warnings_kept():
             return int(module.execute(args))
@@ -262,6 +267,24 @@ def main(argv: Sequence[str] | None = None) -> int:
         remove_pending()  # temporary files a signal left behind (the writer removes its own on the way out)
 
 
+@contextlib.contextmanager
+def _unraisable_kept() -> Iterator[None]:
+    """Errors a library raises while its objects are collected (a half-written workbook's XML stream on
+    a full disk) are kept off stderr: the command's own one line says what failed."""
+    import gc
+
+    if os.environ.get("THETABUDGET_DEBUG"):
+        yield
+        return
+    saved = sys.unraisablehook
+    sys.unraisablehook = lambda u: last_warnings.append(f"ignored {type(u.exc_value).__name__}: {u.exc_value}")
+    try:
+        yield
+    finally:
+        gc.collect()
+        sys.unraisablehook = saved
+
+
 def _fail(message: str, code: int = 2) -> int:
     print(f"thetabudget: error: {' '.join(message.splitlines())}", file=sys.stderr)
     return code
@@ -277,6 +300,7 @@ def _signals_raise() -> Iterator[None]:
 
     saved = {}
     try:
+        saved[signal.SIGINT] = signal.getsignal(signal.SIGINT)  # put back after the clean-up ignored it
         for sig in (signal.SIGTERM, signal.SIGHUP):
             saved[sig] = signal.signal(sig, stop)
     except ValueError:  # not the main thread: signals stay as they are
@@ -285,7 +309,8 @@ def _signals_raise() -> Iterator[None]:
         yield
     finally:
         for sig, old in saved.items():
-            signal.signal(sig, old)
+            if old is not None:
+                signal.signal(sig, old)
 
 
 @contextlib.contextmanager
