@@ -111,9 +111,9 @@ class _Rig:
         """Linear method of the virtual rig (first order), or None if the file is not valid."""
         try:
             spec, ev = self._read(doc)
-        except BudgetInputError:
+            claims = linear_claims(ev.rig, p=self.p, type_a=ev.type_a)
+        except BudgetInputError:  # not valid, or a rig the model cannot evaluate
             return None
-        claims = linear_claims(ev.rig, p=self.p, type_a=ev.type_a)
         targets = self.targets(spec)
         pct = spec.goal.gain_U_pct is not None and spec.sweep is not None
         U = {k: claims[k] * (100.0 / abs(ev.rig.sweep.nominal_gain_deg_per_v) if k == "gain" and pct else 1.0)

@@ -76,16 +76,17 @@ def read_cameras_csv(path: str | Path) -> CameraTable:
     """
     p = Path(path)
     try:
-        if p.stat().st_size > MAX_INPUT_BYTES:
-            raise BudgetInputError(f"The cameras file '{p}' has {p.stat().st_size:,} bytes; at most "
-                                   f"{MAX_INPUT_BYTES:,} are read.")
-        text = p.read_bytes().decode("utf-8-sig")  # spreadsheets save "CSV UTF-8" with a byte-order mark
+        size = p.stat().st_size
+        data = p.read_bytes() if size <= MAX_INPUT_BYTES else b""
+        text = data.decode("utf-8-sig")  # spreadsheets save "CSV UTF-8" with a byte-order mark
+    except UnicodeDecodeError as exc:
+        raise BudgetInputError(f"The cameras file '{p}' is not UTF-8 text (byte {exc.start}); "
+                               "save it as UTF-8.") from None
     except (OSError, ValueError) as exc:
-        if isinstance(exc, UnicodeDecodeError):
-            raise BudgetInputError(f"The cameras file '{p}' is not UTF-8 text (byte {exc.start}); "
-                                   "save it as UTF-8.") from None
         why = getattr(exc, "strerror", None) or exc
         raise BudgetInputError(f"The cameras file '{p}' cannot be read: {why}.") from None
+    if size > MAX_INPUT_BYTES:
+        raise BudgetInputError(f"The cameras file '{p}' has {size:,} bytes; at most {MAX_INPUT_BYTES:,} are read.")
     try:
         return _camera_table(text, p)
     except csv.Error as exc:

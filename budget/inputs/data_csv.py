@@ -88,14 +88,16 @@ def _read_text(p: Path) -> str:
     """The data file's text: UTF-8 (a byte-order mark is skipped), at most :data:`MAX_DATA_BYTES`."""
     try:
         size = p.stat().st_size
-        if size > MAX_DATA_BYTES:
-            raise BudgetInputError(f"The data file '{p}' has {size:,} bytes; at most {MAX_DATA_BYTES:,} are read.")
-        return p.read_bytes().decode("utf-8-sig")
+        data = p.read_bytes() if size <= MAX_DATA_BYTES else b""
+        text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise BudgetInputError(f"The data file '{p}' is not UTF-8 text (byte {exc.start}); save it as UTF-8.") from None
     except (OSError, ValueError) as exc:
         why = getattr(exc, "strerror", None) or exc
         raise BudgetInputError(f"The data file '{p}' cannot be read: {why}.") from None
+    if size > MAX_DATA_BYTES:
+        raise BudgetInputError(f"The data file '{p}' has {size:,} bytes; at most {MAX_DATA_BYTES:,} are read.")
+    return text
 
 
 def _read_rows(reader, p: Path, rows: dict) -> None:

@@ -128,10 +128,11 @@ def read_toml(path: str | Path, what: str = "input file") -> dict:
     with control characters, is one BudgetInputError line. A byte-order mark is not text."""
     p = Path(path)
     try:
-        if p.stat().st_size > MAX_INPUT_BYTES:
-            raise BudgetInputError(f"The {what} '{p}' has {p.stat().st_size:,} bytes; at most {MAX_INPUT_BYTES:,} "
-                                   "are read.")
-        text = p.read_bytes().decode("utf-8-sig")  # a byte-order mark (as some editors save) is not text
+        if p.is_dir():
+            raise IsADirectoryError
+        size = p.stat().st_size
+        data = p.read_bytes() if size <= MAX_INPUT_BYTES else b""
+        text = data.decode("utf-8-sig")  # a byte-order mark (as some editors save) is not text
     except FileNotFoundError:
         raise BudgetInputError(f"The {what} '{p}' does not exist.") from None
     except IsADirectoryError:
@@ -140,6 +141,8 @@ def read_toml(path: str | Path, what: str = "input file") -> dict:
         raise BudgetInputError(f"The {what} '{p}' is not UTF-8 text (byte {exc.start}); save it as UTF-8.") from None
     except (OSError, ValueError) as exc:  # ValueError: a NUL in the path
         raise BudgetInputError(f"The {what} '{p}' cannot be read: {getattr(exc, 'strerror', None) or exc}.") from None
+    if size > MAX_INPUT_BYTES:
+        raise BudgetInputError(f"The {what} '{p}' has {size:,} bytes; at most {MAX_INPUT_BYTES:,} are read.")
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

@@ -16,7 +16,16 @@ import numpy as np
 
 from budget.errors import BudgetInputError, field_error
 
-__all__ = ["evaluate", "correlation_matrix", "correlation_from_covariance", "SINGLE"]
+__all__ = ["evaluate", "correlation_matrix", "correlation_from_covariance", "SINGLE", "NonFiniteOutput"]
+
+
+class NonFiniteOutput(BudgetInputError):
+    """The model returned NaN or inf: ``output`` is its name, ``point`` the input values where it first did."""
+
+    def __init__(self, message: str, output: str, point: dict[str, float]) -> None:
+        super().__init__(message)
+        self.output = output
+        self.point = point
 
 SINGLE = "y"
 """Output name used when the model returns one array."""
@@ -49,13 +58,19 @@ def evaluate(model: Model, points: Mapping[str, np.ndarray], n: int) -> dict[str
         bad = ~np.isfinite(arr)
         if bad.any():
             i = int(np.argmax(bad))
-            at = ", ".join(f"{k}={float(np.asarray(v)[i]):.10g}" for k, v in points.items())
-            raise BudgetInputError(
+            point = {k: _value_at(v, i) for k, v in points.items()}
+            at = ", ".join(f"{k}={v:.10g}" for k, v in point.items())
+            raise NonFiniteOutput(
                 f"The model returned {arr[i]} for output {name!r} at {at}; "
-                "it must be finite for every input value."
-            )
+                "it must be finite for every input value.", name, point)
         checked[name] = arr
     return checked
+
+
+def _value_at(v, i: int) -> float:
+    """The input's (first) value in trial ``i``; a scalar is the same in every trial."""
+    a = np.asarray(v, dtype=float)
+    return float(a.ravel()[0] if a.ndim == 0 or a.shape[0] <= i else np.ravel(a[i])[0])
 
 
 def correlation_matrix(

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from budget import __version__
-from budget.errors import collected_warnings
+from budget.errors import BudgetInputError, collected_warnings
 from budget.fit import ols_batch_residuals
 from budget.imaging.locator_model import locator_model
 from budget.propagation import (
@@ -26,6 +26,7 @@ from budget.propagation import (
     statement,
     validate,
 )
+from budget.propagation.model import NonFiniteOutput
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
 from budget.rig import checks
 from budget.rig import components as comp
@@ -187,9 +188,12 @@ def run_budget(
     if evaluation is not None:
         type_a, measured_deg, data, pre = evaluation.type_a, evaluation.measured_deg, evaluation.data, \
             evaluation.warnings
-    with collected_warnings() as raised:
-        result = _run_budget(rig, rng=rng, p=p, trials=trials, input_path=input_path, progress=progress,
-                             type_a=type_a, measured_deg=measured_deg)
+    try:
+        with collected_warnings() as raised:
+            result = _run_budget(rig, rng=rng, p=p, trials=trials, input_path=input_path, progress=progress,
+                                 type_a=type_a, measured_deg=measured_deg)
+    except NonFiniteOutput as exc:  # say which part of the rig, in words, not the engine's input names
+        raise BudgetInputError(_not_finite(rig, exc)) from None
     result = replace(result, data=data, warnings=(*pre, *result.warnings))
     return replace(result, warnings=(*result.warnings, *raised)) if raised else result
 
@@ -286,6 +290,26 @@ class TrueValueModel:
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
         return {k: self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v for k, v in out.items()}
+
+
+def _not_finite(rig: RigDescription, exc: NonFiniteOutput) -> str:
+    """Why the rig model gave NaN or inf for an output, in the rig file's words."""
+    method = rig.pivot.method
+    if method in ("readings", "arc"):
+        span = (2 * rig.pivot.arc_half_angle_deg if method == "arc"
+                else max(0.0, *rig.nominal_angles_deg) - min(0.0, *rig.nominal_angles_deg))
+        sagitta = rig.radius_px * (1 - math.cos(math.radians(min(span, 360.0)) / 2))
+        if sagitta < 1.0:  # the arc bends less than a pixel: its scatter can straighten it
+            where = "[pivot] arc_half_angle_deg" if method == "arc" else "the readings ([positions] or [sweep])"
+            return (f"The pivot cannot be found for '{exc.output}': [pivot] method = '{method}' fits a circle to "
+                    f"points that span only {span:.3g}° of arc (they bow {sagitta:.2g} px from a straight line), so "
+                    f"within their uncertainties they can lie on a line. Widen {where}, or give the pivot as "
+                    "method = 'mark'.")
+    moved = sorted(((abs(v), k) for k, v in exc.point.items() if v != 0), reverse=True)[:3]
+    at = ", ".join(f"{k} = {exc.point[k]:.4g}" for _, k in moved) or "the nominal values"
+    return (f"The rig model gives no finite value of '{exc.output}' for input values within their uncertainties "
+            f"(first at {at}): the rig as described cannot be evaluated there; check [geometry], [camera] and "
+            "[lens] and the size of each uncertainty.")
 
 
 def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, float]:
