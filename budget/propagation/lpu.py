@@ -12,10 +12,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from budget.errors import field_error
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
+from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
@@ -112,11 +112,11 @@ class MultiLinearResult:
 
 
 def coverage_factor(p: float, nu_eff: float) -> float:
-    """k = t_p(ν_eff) (JCGM 100 G.3.4, Table G.2); the normal quantile for ν = ∞."""
-    q = 0.5 * (1.0 + p)
-    if math.isinf(nu_eff):
-        return float(stats.norm.ppf(q))
-    return float(stats.t.ppf(q, nu_eff))
+    """k = t_p(ν_eff) (JCGM 100 G.3.4, Table G.2); the normal quantile for ν = ∞.
+
+    Computed without scipy by :func:`budget.propagation.quantiles.t_quantile`.
+    """
+    return t_quantile(float(p), float(nu_eff))
 
 
 def check_p(p: float) -> float:
