@@ -6,6 +6,10 @@ angle is measured from the dial's x axis. The dial is tilted by the rotation vec
 the working distance with first-order radial distortion (Brown–Conrady k1). Image coordinates
 are px from the principal point. The virtual rig (:mod:`budget.rig.model`) calls these
 functions for every trial; nothing else in the package projects a point.
+
+Arrays of points have the points on the first axis and the trials on the last, shape
+(n_points, T): each point's values are one contiguous row, so a sum over the points is a few
+vector additions and a point's coordinate is a contiguous slice.
 """
 
 from __future__ import annotations
@@ -75,7 +79,7 @@ def dial_angles_deg(rig: RigDescription) -> np.ndarray:
 def nominal_image_points(rig: RigDescription) -> tuple[np.ndarray, np.ndarray]:
     """Image coordinates (px from the principal point) of every located point, no errors."""
     x, y = image_points(rig, {}, 1, dial_angles_deg(rig))
-    return x[0], y[0]
+    return x[:, 0], y[:, 0]
 
 
 def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
@@ -97,47 +101,48 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
                  reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Noise-free image coordinates (px from the principal point) of every located point, each (T, n_points).
+    """Noise-free image coordinates (px from the principal point) of every located point, each (n_points, T).
 
     ``dial_deg`` are the points' nominal dial angles (:func:`dial_angles_deg`); ``reading_deg``
-    (T, n_readings), if given, replaces the readings' angles relative to the zero direction.
-    ``kw`` holds the trial values of the geometric inputs (tilt, target height, mark offset, k1).
+    (n_readings, T), if given, replaces the readings' angles relative to the zero direction.
+    ``kw`` holds the trial values (T,) of the geometric inputs (tilt, target height, mark
+    offset, k1).
     """
     g = rig.geometry
     n_read = len(rig.nominal_angles_deg)
     r_mm = g.pointer_radius_mm
-    h = kw.get("target_height_mm", np.full(t, g.target_height_mm))[:, None]
-    dial = np.broadcast_to(np.radians(dial_deg), (t, dial_deg.size)).copy()
+    h = kw.get("target_height_mm", np.full(t, g.target_height_mm))
+    dial = np.repeat(np.radians(dial_deg)[:, None], t, axis=1)
     if reading_deg is not None:
-        dial[:, 1:1 + n_read] = np.radians(g.zero_direction_deg + reading_deg)
+        dial[1:1 + n_read] = np.radians(g.zero_direction_deg + reading_deg)
     x = r_mm * np.cos(dial)
     y = r_mm * np.sin(dial)
     z = np.broadcast_to(h, dial.shape).copy()
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
-        x[:, -1] = kw.get("mark_offset_x_mm", 0.0)
-        y[:, -1] = kw.get("mark_offset_y_mm", 0.0)
-        z[:, -1] = 0.0
+        x[-1] = kw.get("mark_offset_x_mm", 0.0)
+        y[-1] = kw.get("mark_offset_y_mm", 0.0)
+        z[-1] = 0.0
     wx, wy = tilt_vector(rig, kw, t)
-    xr, yr, zr = rotate_tilt(x, y, z, wx[:, None], wy[:, None])
+    xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
     xr = xr + g.pivot_offset_x_mm
     yr = yr + g.pivot_offset_y_mm
-    k1 = kw["k1"][:, None] if "k1" in kw else 0.0
+    k1 = kw["k1"] if "k1" in kw else 0.0
     return project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
 
 
 def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The pivot as the user finds it from the located points, each (T,).
 
-    Columns of ``img_x``, ``img_y`` (T, n_points) follow :func:`point_labels`. A mark is the
+    Rows of ``img_x``, ``img_y`` (n_points, T) follow :func:`point_labels`. A mark is the
     pivot; otherwise a circle is fitted (:func:`budget.rig.pivot.fit_circle`) to the zero
     image and the readings, or to the pivot-arc points.
     """
     method = rig.pivot.method
     if method == "mark":
-        return img_x[:, -1], img_y[:, -1]
+        return img_x[-1], img_y[-1]
     n_read = len(rig.nominal_angles_deg)
-    cols = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
-    xc, yc, _ = fit_circle(img_x[:, cols], img_y[:, cols])
+    rows = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
+    xc, yc, _ = fit_circle(img_x[rows], img_y[rows], axis=0)
     return xc, yc
 
 
@@ -147,7 +152,9 @@ def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.nda
 
 
 def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
-    """The readings' angles about the estimated pivot relative to the zero image, (T, n) deg.
+    """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
+
+    ``img_x``, ``img_y`` are (n_points, T), rows following :func:`point_labels`.
 
     Notes
     -----
@@ -157,8 +164,7 @@ def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray
     """
     xc, yc = estimate_pivot(rig, img_x, img_y)
     n_read = len(rig.nominal_angles_deg)
-    rx, ry = img_x - xc[:, None], img_y - yc[:, None]
-    x0, y0 = rx[:, :1], ry[:, :1]
-    xs, ys = rx[:, 1:1 + n_read], ry[:, 1:1 + n_read]
+    x0, y0 = img_x[0] - xc, img_y[0] - yc
+    xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc
     angle = np.degrees(np.arctan2(x0 * ys - y0 * xs, x0 * xs + y0 * ys))
-    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg))
+    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg)[:, None])

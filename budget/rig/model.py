@@ -27,6 +27,9 @@ class VirtualRig:
     Called with keyword arrays named like :func:`budget.rig.components.build_inputs`
     (every array of one length T), it returns ``{"P1": angle_deg, …}`` and, for a
     sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
+
+    Inside, arrays over points or readings are (n, T): one contiguous row per point
+    (see :mod:`budget.rig.geometry`).
     """
 
     def __init__(self, rig: RigDescription) -> None:
@@ -42,46 +45,39 @@ class VirtualRig:
         self.stamp_offset_s = 0.5 * cam.exposure_ms * 1e-3 if m.timestamp == "start" else 0.0
 
     # ---- pieces of the chain -------------------------------------------------------
-    def _true_reading_angles(self, kw: dict, t: int) -> np.ndarray:
-        """True pointer angles of the readings relative to the zero image, (T, n) deg."""
-        rig = self.rig
-        if rig.sweep is None:
-            return np.broadcast_to(np.array(rig.nominal_angles_deg), (t, self.n_read))
-        return rig.sweep.nominal_gain_deg_per_v * self._actual_volts(kw, t)
-
     def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
-        """Voltage at the pointer for each set point, (T, n) V."""
+        """Voltage at the pointer for each set point, (n, T) V."""
         rig = self.rig
         s = rig.source
-        v = np.broadcast_to(np.array(rig.sweep.set_points_v), (t, self.n_read)).copy()
+        v = np.repeat(np.array(rig.sweep.set_points_v)[:, None], t, axis=1)
         for name in ("lsb_mv", "inl_mv", "vnoise_mv"):
             for i in range(self.n_read):
                 key = f"{name}_P{i + 1}"
                 if key in kw:
-                    v[:, i] += kw[key] * 1e-3
+                    v[i] += kw[key] * 1e-3
         if "source_gain_pct" in kw:
-            v *= (1.0 + kw["source_gain_pct"] * 1e-2)[:, None]
+            v *= 1.0 + kw["source_gain_pct"] * 1e-2
         if "source_offset_mv" in kw:
-            v += (kw["source_offset_mv"] * 1e-3)[:, None]
+            v += kw["source_offset_mv"] * 1e-3
         if "source_zout_ohm" in kw and s.load_resistance_ohm is not None:
             rl = s.load_resistance_ohm
-            v *= (rl / (rl + kw["source_zout_ohm"]))[:, None]
+            v *= rl / (rl + kw["source_zout_ohm"])
         return v
 
     def _fit_volts(self, kw: dict, t: int, v_actual: np.ndarray) -> np.ndarray:
-        """The x values of the user's fit: commanded set points or the meter's readings."""
+        """The x values of the user's fit: commanded set points (n,) or the meter's readings (n, T)."""
         rig = self.rig
         if rig.source is None or rig.source.readback == "commanded":
             return np.array(rig.sweep.set_points_v)
         x = v_actual.copy()
         if "dmm_gain_pct" in kw:
-            x *= (1.0 + kw["dmm_gain_pct"] * 1e-2)[:, None]
+            x *= 1.0 + kw["dmm_gain_pct"] * 1e-2
         if "dmm_offset_mv" in kw:
-            x += (kw["dmm_offset_mv"] * 1e-3)[:, None]
+            x += kw["dmm_offset_mv"] * 1e-3
         for i in range(self.n_read):
             key = f"dmm_res_mv_P{i + 1}"
             if key in kw:
-                x[:, i] += kw[key] * 1e-3
+                x[i] += kw[key] * 1e-3
         return x
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
@@ -90,28 +86,29 @@ class VirtualRig:
                 for kind in ("quant", "lock", "noise", "resid"):
                     key = f"{kind}_{ax}_{lab}"
                     if key in kw:
-                        arr[:, j] += kw[key]
+                        arr[j] += kw[key]
 
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         t = len(next(iter(kw.values()))) if kw else 1
         kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
-        true_deg = self._true_reading_angles(kw, t)
-        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg,
-                                    reading_deg=true_deg if self.rig.sweep is not None else None)
-        img_x, img_y = img_x.copy(), img_y.copy()
+        sweep = self.rig.sweep
+        volts = self._actual_volts(kw, t) if sweep is not None else None
+        true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
+        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg)
         if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
             r = np.radians(kw["roll_deg"])
-            x0, y0 = img_x[:, 0].copy(), img_y[:, 0].copy()
-            img_x[:, 0] = np.cos(r) * x0 - np.sin(r) * y0
-            img_y[:, 0] = np.sin(r) * x0 + np.cos(r) * y0
+            x0, y0 = img_x[0].copy(), img_y[0].copy()
+            img_x[0] = np.cos(r) * x0 - np.sin(r) * y0
+            img_y[0] = np.sin(r) * x0 + np.cos(r) * y0
         self._locator_errors(kw, img_x, img_y)
         angle = reading_angles_deg(self.rig, img_x, img_y)
-        angle = angle + self._timing_deg(kw, t, img_y[:, 1:1 + self.n_read])
-        out = {f"P{i + 1}": angle[:, i] for i in range(self.n_read)}
-        if self.rig.sweep is not None:
-            x = self._fit_volts(kw, t, self._actual_volts(kw, t))
-            slope, intercept = ols_batch(x, angle)
+        if self.rate != 0.0:
+            angle += self._timing_deg(kw, t, img_y[1:1 + self.n_read])
+        out = {f"P{i + 1}": angle[i] for i in range(self.n_read)}
+        if sweep is not None:
+            x = self._fit_volts(kw, t, volts)
+            slope, intercept = ols_batch(x.T, angle.T)
             out["gain"] = slope
             out["intercept"] = intercept
         return out
@@ -119,14 +116,14 @@ class VirtualRig:
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
         if self.rate == 0.0:
-            return np.zeros((t, self.n_read))
+            return np.zeros((self.n_read, t))
         cam = self.rig.camera
-        delay = np.full((t, self.n_read), self.stamp_offset_s)
+        delay = np.full((self.n_read, t), self.stamp_offset_s)
         if cam.shutter == "rolling":
             rows = 0.5 * cam.pixels_y - img_y  # rows counted from the top of the sensor
             delay = delay + rows * cam.row_time_us * 1e-6
         for i in range(self.n_read):
             key = f"jitter_ms_P{i + 1}"
             if key in kw:
-                delay[:, i] += kw[key] * 1e-3
+                delay[i] += kw[key] * 1e-3
         return self.rate * delay
