@@ -31,18 +31,21 @@ def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy:
     The dial plane tilted by β = |w| about the in-plane axis at azimuth
     atan2(wy, wx). In the orthographic limit a dial angle θ is seen at θ′ with
     tan(θ′ − φ) = cos β·tan(θ − φ) [derived].
+
+    Notes
+    -----
+    R = cos β·I + (sin β/β)[w]× + ((1 − cos β)/β²) w wᵀ; its entries are formed once per
+    rotation (the shape of ``wx``) and applied to every point, e.g. x′ = R00 x + R01 y + R02 z.
     """
-    beta2 = wx * wx + wy * wy
-    beta = np.sqrt(beta2)
+    beta = np.sqrt(wx * wx + wy * wy)
     c = np.cos(beta)
     a = np.sinc(beta / np.pi)  # sin β / β, exact at β = 0
     b = 0.5 * np.sinc(beta / (2 * np.pi)) ** 2  # (1 − cos β)/β²
-    dot = wx * x + wy * y
-    # w × v with w = (wx, wy, 0)
-    cx, cy, cz = wy * z, -wx * z, wx * y - wy * x
-    return (c * x + a * cx + b * wx * dot,
-            c * y + a * cy + b * wy * dot,
-            c * z + a * cz)
+    bxy = b * wx * wy
+    awx, awy = a * wx, a * wy
+    return ((c + b * wx * wx) * x + bxy * y + awy * z,
+            bxy * x + (c + b * wy * wy) * y - awx * z,
+            awx * y - awy * x + c * z)
 
 
 def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
@@ -112,15 +115,18 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     n_read = len(rig.nominal_angles_deg)
     r_mm = g.pointer_radius_mm
     h = kw.get("target_height_mm", np.full(t, g.target_height_mm))
-    dial = np.repeat(np.radians(dial_deg)[:, None], t, axis=1)
-    if reading_deg is not None:
-        dial[1:1 + n_read] = np.radians(g.zero_direction_deg + reading_deg)
-    x = r_mm * np.cos(dial)
-    y = r_mm * np.sin(dial)
-    z = np.broadcast_to(h, dial.shape).copy()
+    dial = np.radians(dial_deg)[:, None]
+    x = np.repeat(r_mm * np.cos(dial), t, axis=1)
+    y = np.repeat(r_mm * np.sin(dial), t, axis=1)
+    if reading_deg is not None:  # only the readings move from trial to trial
+        moved = np.radians(g.zero_direction_deg + reading_deg)
+        x[1:1 + n_read] = r_mm * np.cos(moved)
+        y[1:1 + n_read] = r_mm * np.sin(moved)
+    z = h  # one height per trial, the same for every target point
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
         x[-1] = kw.get("mark_offset_x_mm", 0.0)
         y[-1] = kw.get("mark_offset_y_mm", 0.0)
+        z = np.broadcast_to(h, x.shape).copy()
         z[-1] = 0.0
     wx, wy = tilt_vector(rig, kw, t)
     xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
