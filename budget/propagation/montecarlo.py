@@ -1,14 +1,16 @@
 """Propagation of distributions by Monte Carlo (JCGM 101:2008 clause 7).
 
-Inputs are sampled in chunks so that memory stays bounded by the outputs kept
-(one float per trial and output), not by the inputs: 10⁷ trials of a ten-input
-model never hold all input samples at once.
+Inputs are sampled in chunks and the outputs streamed (:mod:`budget.propagation.streaming`),
+so memory stays bounded by the outputs kept: one float per trial and output, sorted in
+place for the intervals, plus a trial-order copy of the outputs asked for (``joint``).
+10⁷ trials of a ten-input model never hold all input samples at once, nor a matrix of every
+output of every trial.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Collection, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -25,6 +27,7 @@ from budget.propagation.model import (
     evaluate,
 )
 from budget.propagation.quantities import as_quantities
+from budget.propagation.streaming import Accumulator, Derived
 
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
            "numerical_tolerance"]
@@ -60,7 +63,11 @@ class MonteCarloResult:
 
 @dataclass(frozen=True)
 class MultiMonteCarloResult:
-    """Monte Carlo for several outputs: per-output results and their joint covariance."""
+    """Monte Carlo for several outputs: per-output results and their joint covariance.
+
+    ``joint`` holds, in trial order, the outputs asked for with ``monte_carlo(joint=...)``
+    (all of them by default) and the per-trial values of ``derived``.
+    """
 
     results: dict[str, MonteCarloResult]
     names: tuple[str, ...]
@@ -150,19 +157,6 @@ class _Sampler:
         return out
 
 
-def _run(model: Model, sampler: _Sampler, rng: np.random.Generator, trials: int,
-         chunk: int) -> dict[str, list[np.ndarray]]:
-    parts: dict[str, list[np.ndarray]] = {}
-    done = 0
-    while done < trials:
-        n = min(chunk, trials - done)
-        out = evaluate(model, sampler.draw(rng, n), n)
-        for k, v in out.items():
-            parts.setdefault(k, []).append(v)
-        done += n
-    return parts
-
-
 def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
     s = np.sort(y)
     (lo, hi), _ = coverage_intervals(s, p)
@@ -180,6 +174,8 @@ def monte_carlo(
     n_dig: int = 2,
     max_trials: int = MAX_TRIALS,
     progress: Callable[[int], None] | None = None,
+    joint: bool | Collection[str] = True,
+    derived: Derived | None = None,
 ) -> MonteCarloResult | MultiMonteCarloResult:
     """Propagate the input distributions through ``model`` by Monte Carlo.
 
@@ -203,13 +199,20 @@ def monte_carlo(
         Cap of the adaptive procedure.
     progress : callable, optional
         Called with the number of trials done so far.
+    joint : bool or collection of str
+        Outputs of a multi-output model also kept in trial order in ``joint`` (True: all,
+        False: none); the intervals and covariance never need them.
+    derived : mapping, optional
+        ``{name: f(outputs) -> array}``: one more value per trial computed from each chunk's
+        outputs (a mapping of output arrays), kept in trial order in ``joint``.
 
     Notes
     -----
     Estimate and u from all M values (7.6, u with M − 1); intervals per 7.7 and
     7.8. Adaptive: sequences of M = max(J, 10⁴) trials with J the least integer
     ≥ 100/(1 − p), until twice the standard deviation of each sequence average
-    (y, u, y_low, y_high) is at most δ of 7.9.2 for every output (7.9.4).
+    (y, u, y_low, y_high) is at most δ of 7.9.2 for every output (7.9.4). Means and
+    the covariance are accumulated chunk by chunk (:class:`streaming.Moments`).
     """
     p = check_p(p)
     q = as_quantities(inputs)
@@ -224,55 +227,58 @@ def monte_carlo(
     if trials is not None:
         if not isinstance(trials, int | np.integer) or trials < j_min:
             raise field_error("trials", f"an integer >= {j_min} (100/(1-p), JCGM 101 7.9.4)", trials)
-        parts = _run(model, sampler, rng, int(trials), chunk)
+        acc = Accumulator(int(trials), joint, derived)
+        done = 0
+        while done < trials:
+            n = min(chunk, int(trials) - done)
+            acc.add(evaluate(model, sampler.draw(rng, n), n))
+            done += n
         if progress:
             progress(int(trials))
         converged, adaptive = True, False
     else:
+        acc = Accumulator(None, joint, derived)
         seq = max(j_min, 10_000)
         per_call = max(1, min(10, chunk // seq))  # at most 10 sequences drawn per model call
-        parts = {}
         stats: dict[str, list[tuple[float, float, float, float]]] = {}
         converged, adaptive, h = False, True, 0
         while h * seq < max_trials and not converged:
             n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
             out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
             for k, v in out.items():
-                parts.setdefault(k, []).append(v)
                 for s in range(n_seq):
                     stats.setdefault(k, []).append(_summaries(v[s * seq:(s + 1) * seq], p))
             # JCGM 101 7.9.4 h): the criterion is checked after every sequence, so a batch
             # drawn in one model call is cut back to the first sequence that meets it.
-            for _ in range(n_seq):
+            kept = n_seq
+            for i in range(n_seq):
                 h += 1
                 if h >= 2 and all(_stable(np.array(stats[k][:h]), n_dig) for k in stats):
-                    converged = True
+                    converged, kept = True, i + 1
                     break
+            acc.add(out if kept == n_seq else {k: v[:kept * seq] for k, v in out.items()})
             if progress:
                 progress(h * seq)
-        if converged:
-            parts = {k: [np.concatenate(v)[: h * seq]] for k, v in parts.items()}
         if not converged:
             warns.append(
                 f"The adaptive Monte Carlo procedure did not stabilize {n_dig} significant "
                 f"digits within {max_trials} trials (JCGM 101 7.9)."
             )
-    joint = {k: np.concatenate(v) for k, v in parts.items()}
+    m = acc.moments.n
+    cov = np.atleast_2d(acc.moments.covariance())
     results: dict[str, MonteCarloResult] = {}
-    for k, y in joint.items():
-        s = np.sort(y)
+    for i, k in enumerate(acc.names):
+        s = acc.sorted_values(k)
         sym, short = coverage_intervals(s, p)
         results[k] = MonteCarloResult(
-            output=k, estimate=float(y.mean()), u=float(y.std(ddof=1)), interval=sym,
-            shortest=short, trials=int(y.size), p=p, seed=seed, adaptive=adaptive,
+            output=k, estimate=float(acc.moments.mean[i]), u=math.sqrt(max(float(cov[i, i]), 0.0)),
+            interval=sym, shortest=short, trials=m, p=p, seed=seed, adaptive=adaptive,
             converged=converged, samples=s, warnings=tuple(warns),
         )
-    names = tuple(joint)
-    if names == (SINGLE,):
+    if acc.names == (SINGLE,):
         return results[SINGLE]
-    cov = np.atleast_2d(np.cov(np.vstack([joint[k] for k in names])))
-    return MultiMonteCarloResult(results=results, names=names, covariance=cov,
-                                 trials=int(joint[names[0]].size), seed=seed, joint=joint)
+    return MultiMonteCarloResult(results=results, names=acc.names, covariance=cov,
+                                 trials=m, seed=seed, joint=acc.joint_values())
 
 
 def _stable(seq_stats: np.ndarray, n_dig: int) -> bool:
