@@ -171,24 +171,36 @@ def _axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
 
 def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
                  ii: np.ndarray, jj: np.ndarray) -> dict[str, np.ndarray]:
-    """Model values at x0 ± h2_i e_i ± h2_j e_j for the pairs (ii, jj): {output: (P, 2, 2)}."""
+    """Model values at x0 ± h2_i e_i ± h2_j e_j for the ordered pairs (ii, jj): {output: (P, 2, 2)}.
+
+    Each unordered pair is evaluated once: the stencil of (j, i) is that of (i, j) with its
+    two sign axes swapped. The points go to the model with each input one contiguous array.
+    """
     n = x0.size
+    uniq, inverse = np.unique(np.minimum(ii, jj) * n + np.maximum(ii, jj), return_inverse=True)
+    ui, uj = uniq // n, uniq % n
     a = np.array([-1.0, -1.0, 1.0, 1.0])
     b = np.array([-1.0, 1.0, -1.0, 1.0])
     per_call = max(1, PAIR_CHUNK_VALUES // (4 * n))
     parts: dict[str, list[np.ndarray]] = {}
-    for start in range(0, ii.size, per_call):
-        i, j = ii[start:start + per_call], jj[start:start + per_call]
+    for start in range(0, ui.size, per_call):
+        i, j = ui[start:start + per_call], uj[start:start + per_call]
         m = i.size
-        pts = np.tile(x0, (4 * m, 1))
-        rows = np.arange(4 * m)
+        pts = np.repeat(x0[:, None], 4 * m, axis=1)  # (n, 4m): one row per input
+        cols = np.arange(4 * m)
         ci, cj = np.repeat(i, 4), np.repeat(j, 4)
-        pts[rows, ci] += np.tile(a, m) * h2[ci]
-        pts[rows, cj] += np.tile(b, m) * h2[cj]
-        out = evaluate(model, {nm: pts[:, k] for k, nm in enumerate(names)}, 4 * m)
+        pts[ci, cols] += np.tile(a, m) * h2[ci]
+        pts[cj, cols] += np.tile(b, m) * h2[cj]
+        out = evaluate(model, dict(zip(names, pts, strict=True)), 4 * m)
         for key, v in out.items():
             parts.setdefault(key, []).append(v.reshape(m, 2, 2))
-    return {key: np.concatenate(v) for key, v in parts.items()}
+    swap = ii > jj
+    result = {}
+    for key, v in parts.items():
+        g = np.concatenate(v)[inverse]
+        g[swap] = g[swap].transpose(0, 2, 1)
+        result[key] = g
+    return result
 
 
 def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
