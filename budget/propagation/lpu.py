@@ -156,8 +156,9 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
 
 
 _STEPS = np.array([-2.0, -1.0, 1.0, 2.0])
-PAIR_CHUNK_VALUES = 2_000_000
-"""Input values per model call when evaluating the pair stencil of the second-order terms."""
+PAIR_CHUNK_VALUES = 262_144
+"""Inputs × points per model call when evaluating the pair stencil of the second-order terms
+(at least 1000 points a call): a call's arrays stay in the processor's cache."""
 
 
 def _axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
@@ -169,35 +170,71 @@ def _axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
     return pts
 
 
+def _pair_batches(n: int, per_call: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The unordered pairs i < j of n inputs in batches of about ``per_call``, tile by tile.
+
+    A tile pairs a block of inputs with another block, so a batch moves few inputs and every
+    other input reaches the model as one repeated value.
+    """
+    b = max(1, math.isqrt(per_call))
+    blocks = [np.arange(s, min(n, s + b)) for s in range(0, n, b)]
+    batches: list[tuple[np.ndarray, np.ndarray]] = []
+    cur_i: list[np.ndarray] = []
+    cur_j: list[np.ndarray] = []
+    count = 0
+    for k, rows in enumerate(blocks):
+        for cols in blocks[k:]:
+            ii, jj = np.meshgrid(rows, cols, indexing="ij")
+            keep = ii < jj
+            cur_i.append(ii[keep])
+            cur_j.append(jj[keep])
+            count += int(keep.sum())
+            if count >= per_call:
+                batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
+                cur_i, cur_j, count = [], [], 0
+    if count:
+        batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
+    return batches
+
+
 def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
                  ii: np.ndarray, jj: np.ndarray) -> dict[str, np.ndarray]:
     """Model values at x0 ± h2_i e_i ± h2_j e_j for the ordered pairs (ii, jj): {output: (P, 2, 2)}.
 
     Each unordered pair is evaluated once: the stencil of (j, i) is that of (i, j) with its
-    two sign axes swapped. The points go to the model with each input one contiguous array.
+    two sign axes swapped. An input moved in a batch reaches the model as one contiguous
+    array, every other input as its estimate repeated (a read-only broadcast view).
     """
     n = x0.size
-    uniq, inverse = np.unique(np.minimum(ii, jj) * n + np.maximum(ii, jj), return_inverse=True)
-    ui, uj = uniq // n, uniq % n
     a = np.array([-1.0, -1.0, 1.0, 1.0])
     b = np.array([-1.0, 1.0, -1.0, 1.0])
-    per_call = max(1, PAIR_CHUNK_VALUES // (4 * n))
+    per_call = max(250, PAIR_CHUNK_VALUES // (4 * n))
+    position = np.full((n, n), -1)
     parts: dict[str, list[np.ndarray]] = {}
-    for start in range(0, ui.size, per_call):
-        i, j = ui[start:start + per_call], uj[start:start + per_call]
+    done = 0
+    for i, j in _pair_batches(n, per_call):
         m = i.size
-        pts = np.repeat(x0[:, None], 4 * m, axis=1)  # (n, 4m): one row per input
+        position[i, j] = np.arange(done, done + m)
+        done += m
+        moved = np.union1d(i, j)
+        row = np.full(n, -1)
+        row[moved] = np.arange(moved.size)
+        pts = np.repeat(x0[moved][:, None], 4 * m, axis=1)  # one row per moved input
         cols = np.arange(4 * m)
         ci, cj = np.repeat(i, 4), np.repeat(j, 4)
-        pts[ci, cols] += np.tile(a, m) * h2[ci]
-        pts[cj, cols] += np.tile(b, m) * h2[cj]
-        out = evaluate(model, dict(zip(names, pts, strict=True)), 4 * m)
+        pts[row[ci], cols] += np.tile(a, m) * h2[ci]
+        pts[row[cj], cols] += np.tile(b, m) * h2[cj]
+        still = np.broadcast_to(x0[:, None], (n, 4 * m))
+        points = {nm: pts[r] if r >= 0 else still[k] for k, (nm, r) in enumerate(zip(names, row.tolist(), strict=True))}
+        out = evaluate(model, points, 4 * m)
         for key, v in out.items():
             parts.setdefault(key, []).append(v.reshape(m, 2, 2))
+    lo, hi = np.minimum(ii, jj), np.maximum(ii, jj)
+    index = position[lo, hi]
     swap = ii > jj
     result = {}
     for key, v in parts.items():
-        g = np.concatenate(v)[inverse]
+        g = np.concatenate(v)[index]
         g[swap] = g[swap].transpose(0, 2, 1)
         result[key] = g
     return result

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from budget.errors import field_error
-from budget.propagation.distributions import Normal
+from budget.propagation.distributions import Normal, Rectangular
 from budget.propagation.lpu import check_p
 from budget.propagation.model import (
     SINGLE,
@@ -32,8 +32,12 @@ from budget.propagation.streaming import Accumulator, Derived
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
            "numerical_tolerance"]
 
-CHUNK_VALUES = 2_000_000
-"""Input values drawn per model call (chunk size × number of inputs)."""
+CHUNK_VALUES = 262_144
+"""Input values drawn per model call (chunk size × number of inputs): small enough that a
+model's arrays of one chunk stay in the processor's cache, large enough that a call's own
+cost is spread over many trials."""
+MIN_CHUNK = 1000
+"""Fewest trials per model call, however many inputs."""
 MAX_TRIALS = 10_000_000
 """Upper bound of the adaptive procedure; reaching it is reported as a warning."""
 
@@ -85,6 +89,17 @@ class MultiMonteCarloResult:
         return correlation_from_covariance(self.covariance)
 
 
+def _symmetric_ranks(m: int, p: float) -> tuple[int, int]:
+    """q and r of JCGM 101 7.7.2 for M = m values (r 1-based); M >= q + 1 is required."""
+    pm = p * m
+    q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
+    if q >= m:  # y_(r+q) with r >= 1 needs M >= q + 1
+        raise field_error("sorted_y", f"at least {q + 1} values for p = {p:g} (JCGM 101 7.7.2)",
+                          f"{m} values")
+    r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
+    return q, max(r, 1)
+
+
 def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[float, float]]:
     """Probabilistically symmetric and shortest coverage intervals of sorted values.
 
@@ -97,13 +112,7 @@ def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, flo
     :class:`budget.errors.BudgetInputError`.
     """
     m = sorted_y.size
-    pm = p * m
-    q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
-    if q >= m:  # y_(r+q) with r >= 1 needs M >= q + 1
-        raise field_error("sorted_y", f"at least {q + 1} values for p = {p:g} (JCGM 101 7.7.2)",
-                          f"{m} values")
-    r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
-    r = max(r, 1)
+    q, r = _symmetric_ranks(m, p)
     symmetric = (float(sorted_y[r - 1]), float(sorted_y[r + q - 1]))
     widths = sorted_y[q:] - sorted_y[: m - q]
     rs = int(np.argmin(widths))
@@ -132,6 +141,8 @@ class _Sampler:
         self.dists = [q[n].distribution for n in self.names]
         self.corr_idx: list[int] = []
         self.factor = None
+        self.normal: list[int] = []
+        self.uniform: list[int] = []
         if r is not None:
             involved = [i for i in range(len(self.names)) if np.any(r[i, np.arange(len(r)) != i] != 0)]
             for i in involved:
@@ -143,6 +154,15 @@ class _Sampler:
                     )
             self.corr_idx = involved
             self.factor = correlated_factor(r[np.ix_(involved, involved)])
+        # Uncorrelated normal and rectangular inputs are drawn together, one call each
+        # (JCGM 101 6.4.7, 6.4.3: μ + σz and a + (b − a)u from standard variates).
+        for i, d in enumerate(self.dists):
+            if i not in self.corr_idx and type(d) in (Normal, Rectangular):
+                (self.normal if type(d) is Normal else self.uniform).append(i)
+        self.loc = np.array([[self.dists[i].mean] for i in self.normal])
+        self.scale = np.array([[self.dists[i].sd] for i in self.normal])
+        self.low = np.array([[self.dists[i].low] for i in self.uniform])
+        self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
 
     def draw(self, rng: np.random.Generator, size: int) -> dict[str, np.ndarray]:
         out: dict[str, np.ndarray] = {}
@@ -151,6 +171,16 @@ class _Sampler:
             for col, i in enumerate(self.corr_idx):
                 d = self.dists[i]
                 out[self.names[i]] = d.mean + d.sd * z[:, col]
+        if self.normal:
+            z = rng.standard_normal(size=(len(self.normal), size))
+            z *= self.scale
+            z += self.loc
+            out.update((self.names[i], row) for i, row in zip(self.normal, z, strict=True))
+        if self.uniform:
+            u = rng.random(size=(len(self.uniform), size))
+            u *= self.width
+            u += self.low
+            out.update((self.names[i], row) for i, row in zip(self.uniform, u, strict=True))
         for i, nm in enumerate(self.names):
             if nm not in out:
                 out[nm] = self.dists[i].sample(rng, size)
@@ -158,9 +188,13 @@ class _Sampler:
 
 
 def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
-    s = np.sort(y)
-    (lo, hi), _ = coverage_intervals(s, p)
-    return float(y.mean()), float(y.std(ddof=1)), lo, hi
+    """Mean, u and the probabilistically symmetric interval of one sequence (JCGM 101 7.9.4 b-d).
+
+    The interval needs two order statistics, so the values are partitioned, not sorted.
+    """
+    q, r = _symmetric_ranks(y.size, p)
+    part = np.partition(y, (r - 1, r + q - 1))
+    return float(y.mean()), float(y.std(ddof=1)), float(part[r - 1]), float(part[r + q - 1])
 
 
 def monte_carlo(
@@ -222,7 +256,7 @@ def monte_carlo(
     sampler = _Sampler(q, r)
     j_min = math.ceil(100.0 / (1.0 - p) - 1e-9)
     seed = getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
-    chunk = max(1000, CHUNK_VALUES // max(1, len(q)))
+    chunk = max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q)))
     warns: list[str] = []
     if trials is not None:
         if not isinstance(trials, int | np.integer) or trials < j_min:
@@ -239,24 +273,24 @@ def monte_carlo(
     else:
         acc = Accumulator(None, joint, derived)
         seq = max(j_min, 10_000)
-        per_call = max(1, min(10, chunk // seq))  # at most 10 sequences drawn per model call
         stats: dict[str, list[tuple[float, float, float, float]]] = {}
         converged, adaptive, h = False, True, 0
         while h * seq < max_trials and not converged:
-            n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
-            out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
-            for k, v in out.items():
-                for s in range(n_seq):
-                    stats.setdefault(k, []).append(_summaries(v[s * seq:(s + 1) * seq], p))
-            # JCGM 101 7.9.4 h): the criterion is checked after every sequence, so a batch
-            # drawn in one model call is cut back to the first sequence that meets it.
-            kept = n_seq
-            for i in range(n_seq):
-                h += 1
-                if h >= 2 and all(_stable(np.array(stats[k][:h]), n_dig) for k in stats):
-                    converged, kept = True, i + 1
-                    break
-            acc.add(out if kept == n_seq else {k: v[:kept * seq] for k, v in out.items()})
+            # One sequence (7.9.4 b), drawn and streamed in chunks; its summaries (c, d) from
+            # its own values, then the criterion after every sequence (f-h).
+            parts: dict[str, list[np.ndarray]] = {}
+            done = 0
+            while done < seq:
+                n = min(chunk, seq - done)
+                out = evaluate(model, sampler.draw(rng, n), n)
+                acc.add(out)
+                for k, v in out.items():
+                    parts.setdefault(k, []).append(v)
+                done += n
+            for k, v in parts.items():
+                stats.setdefault(k, []).append(_summaries(np.concatenate(v), p))
+            h += 1
+            converged = h >= 2 and all(_stable(np.array(st), n_dig) for st in stats.values())
             if progress:
                 progress(h * seq)
         if not converged:

@@ -68,10 +68,9 @@ class Moments:
         b = values[0].shape[0]
         if b == 0:
             return
-        means = np.array([float(v.mean()) for v in values])
-        centred = np.empty((len(values), b))
-        for i, v in enumerate(values):
-            np.subtract(v, means[i], out=centred[i])
+        centred = np.stack(values)
+        means = centred.mean(axis=1)
+        centred -= means[:, None]
         cb = centred @ centred.T
         if self.n == 0:
             self.mean, self.comoment, self.n = means, cb, b

@@ -153,8 +153,14 @@ def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) ->
 
 
 def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.ndarray:
-    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal."""
-    return nominal_deg + (angle_deg - nominal_deg + 180.0) % 360.0 - 180.0
+    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal.
+
+    The offset from the nominal loses no digits when no turn is added (the usual case): it is
+    not shifted by 180° and back.
+    """
+    d = angle_deg - nominal_deg
+    d -= 360.0 * np.round(d / 360.0)
+    return nominal_deg + d
 
 
 def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:

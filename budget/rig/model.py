@@ -21,6 +21,17 @@ from budget.rig.geometry import dial_angles_deg, image_points, reading_angles_de
 __all__ = ["VirtualRig"]
 
 
+def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
+    """``arr[row] += kw[key]·scale`` for every (row, key) present, in one stacked addition."""
+    present = [(row, key) for row, key in keys if key in kw]
+    if not present:
+        return
+    add = np.stack([kw[key] for _, key in present])
+    if scale != 1.0:
+        add *= scale
+    arr[[row for row, _ in present]] += add
+
+
 class VirtualRig:
     """The measurement model of one rig as a vectorized callable.
 
@@ -43,6 +54,11 @@ class VirtualRig:
         m = rig.motion
         self.rate = m.rate_deg_per_s if m.state == "moving" else 0.0
         self.stamp_offset_s = 0.5 * cam.exposure_ms * 1e-3 if m.timestamp == "start" else 0.0
+        readings = range(self.n_read)
+        self.per_reading = {name: [(i, f"{name}_P{i + 1}") for i in readings]
+                            for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
+        self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
+                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "resid")}
 
     # ---- pieces of the chain -------------------------------------------------------
     def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
@@ -51,10 +67,7 @@ class VirtualRig:
         s = rig.source
         v = np.repeat(np.array(rig.sweep.set_points_v)[:, None], t, axis=1)
         for name in ("lsb_mv", "inl_mv", "vnoise_mv"):
-            for i in range(self.n_read):
-                key = f"{name}_P{i + 1}"
-                if key in kw:
-                    v[i] += kw[key] * 1e-3
+            _add_rows(v, kw, self.per_reading[name], 1e-3)
         if "source_gain_pct" in kw:
             v *= 1.0 + kw["source_gain_pct"] * 1e-2
         if "source_offset_mv" in kw:
@@ -74,19 +87,13 @@ class VirtualRig:
             x *= 1.0 + kw["dmm_gain_pct"] * 1e-2
         if "dmm_offset_mv" in kw:
             x += kw["dmm_offset_mv"] * 1e-3
-        for i in range(self.n_read):
-            key = f"dmm_res_mv_P{i + 1}"
-            if key in kw:
-                x[i] += kw[key] * 1e-3
+        _add_rows(x, kw, self.per_reading["dmm_res_mv"], 1e-3)
         return x
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
-        for j, lab in enumerate(self.labels):
-            for ax, arr in (("x", img_x), ("y", img_y)):
-                for kind in ("quant", "lock", "noise", "resid"):
-                    key = f"{kind}_{ax}_{lab}"
-                    if key in kw:
-                        arr[j] += kw[key]
+        for ax, arr in (("x", img_x), ("y", img_y)):
+            for kind in ("quant", "lock", "noise", "resid"):  # this order of additions per point
+                _add_rows(arr, kw, self.per_point[ax, kind])
 
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
@@ -122,8 +129,5 @@ class VirtualRig:
         if cam.shutter == "rolling":
             rows = 0.5 * cam.pixels_y - img_y  # rows counted from the top of the sensor
             delay = delay + rows * cam.row_time_us * 1e-6
-        for i in range(self.n_read):
-            key = f"jitter_ms_P{i + 1}"
-            if key in kw:
-                delay[i] += kw[key] * 1e-3
+        _add_rows(delay, kw, self.per_reading["jitter_ms"], 1e-3)
         return self.rate * delay

@@ -41,13 +41,15 @@ def _taubin_normalized(xn: NDArray, yn: NDArray) -> tuple[NDArray, NDArray, NDAr
     monotonically because S is positive semi-definite; the centre then follows from the x and
     y rows of (S - lambda I) v = 0.
     """
-    xx = np.mean(xn * xn, axis=0)
-    yy = np.mean(yn * yn, axis=0)
-    xy = np.mean(xn * yn, axis=0)
-    z = xn * xn + yn * yn
-    s01 = 0.5 * np.mean(xn * z, axis=0)  # mean(z0 x), z0 = (z - 1) / 2
-    s02 = 0.5 * np.mean(yn * z, axis=0)
-    s00 = 0.25 * (np.mean(z * z, axis=0) - 1.0)
+    n = xn.shape[0]
+    xx = np.einsum("ij,ij->j", xn, xn) / n
+    yy = np.einsum("ij,ij->j", yn, yn) / n
+    xy = np.einsum("ij,ij->j", xn, yn) / n
+    z = xn * xn
+    z += yn * yn
+    s01 = 0.5 * np.einsum("ij,ij->j", xn, z) / n  # mean(z0 x), z0 = (z - 1) / 2
+    s02 = 0.5 * np.einsum("ij,ij->j", yn, z) / n
+    s00 = 0.25 * (np.einsum("ij,ij->j", z, z) / n - 1.0)
     c2 = s00 + xx + yy
     c1 = s00 * xx - s01 * s01 + s00 * yy - s02 * s02 + xx * yy - xy * xy
     c0 = (s00 * (xx * yy - xy * xy) - s01 * (s01 * yy - xy * s02)
@@ -68,25 +70,35 @@ def _gauss_newton(xn: NDArray, yn: NDArray, a: NDArray, b: NDArray, r: NDArray,
                   iterations: int) -> tuple[NDArray, NDArray, NDArray]:
     """Fixed number of Gauss-Newton steps on sum (|p_i - c| - R)^2, all rows at once.
 
-    Points on the first axis, shape (n, m), as in :func:`_taubin_normalized`.
+    Points on the first axis, shape (n, m), as in :func:`_taubin_normalized`; four work
+    arrays of that shape are reused by every step, and each sum of products over the points
+    is one ``einsum`` pass.
     """
     n = xn.shape[0]
+    ux = np.empty_like(xn)
+    uy = np.empty_like(yn)
+    d = np.empty_like(xn)
+    t = np.empty_like(xn)
     for _ in range(iterations):  # rows escaping to infinity give inf/nan, without warnings
-        dx = xn - a
-        dy = yn - b
-        inv = 1.0 / np.sqrt(dx * dx + dy * dy)
-        ux = dx * inv
-        uy = dy * inv
-        d = dx * ux + dy * uy - r
-        # J_i = -[ux, uy, 1]; the step solves (J^T J) delta = -J^T d = g.
-        sxx = np.sum(ux * ux, axis=0)
+        np.subtract(xn, a, out=ux)
+        np.subtract(yn, b, out=uy)
+        np.multiply(ux, ux, out=d)
+        d += np.multiply(uy, uy, out=t)
+        np.sqrt(d, out=d)  # |p_i - c|
+        ux /= d  # cos phi_i
+        uy /= d  # sin phi_i
+        d -= r  # |p_i - c| - R
+        # J_i = -[ux, uy, 1]; the step solves (J^T J) delta = -J^T d = g.  (The residuals are
+        # summed as such: sum(ux d) rewritten as sum(x - a) - R sum(ux) cancels badly when the
+        # centre is far away, on a short arc.)
+        sxx = np.einsum("ij,ij->j", ux, ux)
         syy = n - sxx
-        sxy = np.sum(ux * uy, axis=0)
-        sx = np.sum(ux, axis=0)
-        sy = np.sum(uy, axis=0)
-        gx = np.sum(ux * d, axis=0)
-        gy = np.sum(uy * d, axis=0)
-        gr = np.sum(d, axis=0)
+        sxy = np.einsum("ij,ij->j", ux, uy)
+        sx = ux.sum(axis=0)
+        sy = uy.sum(axis=0)
+        gx = np.einsum("ij,ij->j", ux, d)
+        gy = np.einsum("ij,ij->j", uy, d)
+        gr = d.sum(axis=0)
         # Symmetric 3x3 solve by the adjugate (cofactors of [[sxx, sxy, sx], [., syy, sy],
         # [., ., n]]).
         k00 = syy * n - sy * sy
@@ -179,11 +191,11 @@ def fit_circle(
     yr = np.ascontiguousarray(ya).reshape(n, -1)
     xm = xr.mean(axis=0)
     ym = yr.mean(axis=0)
-    dx = xr - xm
-    dy = yr - ym
-    s = np.sqrt(np.mean(dx * dx + dy * dy, axis=0))
-    xn = dx / s
-    yn = dy / s
+    xn = xr - xm
+    yn = yr - ym
+    s = np.sqrt((np.einsum("ij,ij->j", xn, xn) + np.einsum("ij,ij->j", yn, yn)) / n)
+    xn /= s
+    yn /= s
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         a, b, r = _taubin_normalized(xn, yn)
         a, b, r = _gauss_newton(xn, yn, a, b, r, iterations)
