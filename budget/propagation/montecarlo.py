@@ -27,10 +27,10 @@ from budget.propagation.model import (
     evaluate,
 )
 from budget.propagation.quantities import as_quantities
-from budget.propagation.streaming import Accumulator, Derived
+from budget.propagation.streaming import Accumulator, Derived, Moments
 
-__all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
-           "numerical_tolerance"]
+__all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "monte_carlo_u",
+           "coverage_intervals", "numerical_tolerance"]
 
 CHUNK_VALUES = 262_144
 """Input values drawn per model call (chunk size × number of inputs): small enough that a
@@ -313,6 +313,41 @@ def monte_carlo(
         return results[SINGLE]
     return MultiMonteCarloResult(results=results, names=acc.names, covariance=cov,
                                  trials=m, seed=seed, joint=acc.joint_values())
+
+
+def monte_carlo_u(
+    model: Model,
+    inputs: Mapping,
+    trials: int,
+    *,
+    rng: np.random.Generator,
+    correlation: Mapping[tuple[str, str], float] | None = None,
+) -> dict[str, float]:
+    """Standard uncertainty of every output from ``trials`` Monte Carlo trials, and nothing else.
+
+    Same sampling as :func:`monte_carlo` with fixed trials (the same draws from the same
+    generator state), but no output value is kept and nothing is sorted: for figures that
+    need only u(y) (JCGM 101 7.6), such as one budget component at a time.
+    """
+    q = as_quantities(inputs)
+    if not isinstance(rng, np.random.Generator):
+        raise field_error("rng", "a numpy.random.Generator", rng)
+    if not isinstance(trials, int | np.integer) or trials < 2:
+        raise field_error("trials", "an integer >= 2", trials)
+    sampler = _Sampler(q, correlation_matrix(list(q), correlation))
+    chunk = max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q)))
+    moments: Moments | None = None
+    names: tuple[str, ...] = ()
+    done = 0
+    while done < trials:
+        n = min(chunk, int(trials) - done)
+        out = evaluate(model, sampler.draw(rng, n), n)
+        if moments is None:
+            names, moments = tuple(out), Moments(len(out))
+        moments.add([out[k] for k in names])
+        done += n
+    cov = moments.covariance()
+    return {k: math.sqrt(max(float(cov[i, i]), 0.0)) for i, k in enumerate(names)}
 
 
 def _stable(seq_stats: np.ndarray, n_dig: int) -> bool:

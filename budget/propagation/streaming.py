@@ -47,6 +47,25 @@ class Column:
         return a
 
 
+_BLAS_SERIAL = 262_143
+"""Products below this many multiply-adds stay on one thread in OpenBLAS (its gemm threshold,
+65536 × 4; a dot product of more than 10 000 values is threaded). Threads that wait for a
+core that other processes hold cost milliseconds per call on a shared machine."""
+
+
+def _gram(c: np.ndarray) -> np.ndarray:
+    """c cᵀ for c of shape (k, b), summed over column blocks small enough for one thread."""
+    k, b = c.shape
+    step = max(64, min(8192, _BLAS_SERIAL // (k * k)))
+    if b <= step:
+        return c @ c.T
+    out = np.zeros((k, k))
+    for s in range(0, b, step):
+        block = c[:, s:s + step]
+        out += block @ block.T
+    return out
+
+
 class Moments:
     """Running means and co-moment matrix of k outputs, merged chunk by chunk.
 
@@ -71,7 +90,7 @@ class Moments:
         centred = np.stack(values)
         means = centred.mean(axis=1)
         centred -= means[:, None]
-        cb = centred @ centred.T
+        cb = _gram(centred)
         if self.n == 0:
             self.mean, self.comoment, self.n = means, cb, b
             return

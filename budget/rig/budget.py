@@ -23,6 +23,7 @@ from budget.propagation import (
     interval_statement,
     linear,
     monte_carlo,
+    monte_carlo_u,
     statement,
     validate,
 )
@@ -38,12 +39,17 @@ GROUP_TRIALS = 20_000
 
 
 def _fixed_model(model, inputs: dict[str, InputQuantity], keep: tuple[str, ...]):
-    """The model with every input outside ``keep`` held at its estimate."""
-    means = {k: q.distribution.mean for k, q in inputs.items() if k not in keep}
+    """The model with every input outside ``keep`` held at its estimate.
+
+    The held inputs are read-only broadcast views of their estimates (no array is filled per
+    call; a model that wrote into its inputs would fail loudly).
+    """
+    means = np.array([q.distribution.mean for k, q in inputs.items() if k not in keep])
+    held = [k for k in inputs if k not in keep]
 
     def wrapped(**kw):
         n = len(next(iter(kw.values())))
-        full = {k: np.full(n, v) for k, v in means.items()}
+        full = dict(zip(held, np.broadcast_to(means[:, None], (means.size, n)), strict=True))
         full.update(kw)
         return model(**full)
 
@@ -61,9 +67,7 @@ def component_mc_u(model, inputs: dict[str, InputQuantity], corr: dict, members:
     sub = {k: inputs[k] for k in members}
     sub_corr = {pair: r for pair, r in corr.items() if pair[0] in sub and pair[1] in sub} or None
     trials = max(GROUP_TRIALS, math.ceil(100.0 / (1.0 - p) - 1e-9))
-    res = monte_carlo(_fixed_model(model, inputs, members), sub, p, trials, rng=rng,
-                      correlation=sub_corr, joint=False)
-    return {name: res[name].u for name in res.names}
+    return monte_carlo_u(_fixed_model(model, inputs, members), sub, trials, rng=rng, correlation=sub_corr)
 
 
 def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) -> tuple[ComponentLine, ...]:

@@ -43,9 +43,18 @@ def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy:
     b = 0.5 * np.sinc(beta / (2 * np.pi)) ** 2  # (1 − cos β)/β²
     bxy = b * wx * wy
     awx, awy = a * wx, a * wy
-    return ((c + b * wx * wx) * x + bxy * y + awy * z,
-            bxy * x + (c + b * wy * wy) * y - awx * z,
-            awx * y - awy * x + c * z)
+    # Accumulated in place, left to right as written: x′ = (R00 x + R01 y) + R02 z, etc.
+    xr = (c + b * wx * wx) * x
+    tmp = np.multiply(bxy, y)
+    xr += tmp
+    xr += awy * z
+    yr = bxy * x
+    yr += np.multiply(c + b * wy * wy, y, out=tmp)
+    yr -= awx * z
+    zr = awx * y
+    zr -= np.multiply(awy, x, out=tmp)
+    zr += c * z
+    return xr, yr, zr
 
 
 def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
@@ -54,7 +63,8 @@ def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
     Radial lens distortion x_d = x(1 + k1·r²) on normalized coordinates
     (Brown–Conrady, first radial term).
     """
-    s = focal_px / (distance_mm - z)
+    s = np.subtract(distance_mm, z)
+    np.divide(focal_px, s, out=s)
     u, v = s * x, s * y
     if np.any(k1 != 0.0):
         r2 = (u * u + v * v) / focal_px**2
@@ -130,8 +140,8 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
         z[-1] = 0.0
     wx, wy = tilt_vector(rig, kw, t)
     xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
-    xr = xr + g.pivot_offset_x_mm
-    yr = yr + g.pivot_offset_y_mm
+    xr += g.pivot_offset_x_mm
+    yr += g.pivot_offset_y_mm
     k1 = kw["k1"] if "k1" in kw else 0.0
     return project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from budget.errors import BudgetInputError
-from budget.propagation import Normal, Rectangular, monte_carlo
+from budget.propagation import Normal, Rectangular, monte_carlo, monte_carlo_u
 from budget.propagation import montecarlo as mc_module
 from budget.propagation.streaming import Column, Moments
 
@@ -93,3 +93,12 @@ def test_adaptive_run_keeps_exactly_its_trials():
     assert all(res[k].samples.size == m for k in res.names)
     assert all(v.size == m for v in res.joint.values())
     assert res["z"].u == pytest.approx(float(np.std(res.joint["z"], ddof=1)), rel=1e-12)
+
+
+def test_monte_carlo_u_is_the_u_of_the_same_run():
+    # Same draws from the same generator state as monte_carlo with fixed trials; only u is kept.
+    full = monte_carlo(_model, INPUTS, trials=30_000, rng=_rng(6), joint=False)
+    only = monte_carlo_u(_model, INPUTS, 30_000, rng=_rng(6))
+    assert only == {k: full[k].u for k in full.names}
+    with pytest.raises(BudgetInputError, match="'trials'"):
+        monte_carlo_u(_model, INPUTS, 1, rng=_rng(6))
