@@ -197,25 +197,22 @@ def _pair_batches(n: int, per_call: int) -> list[tuple[np.ndarray, np.ndarray]]:
     return batches
 
 
-def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
-                 ii: np.ndarray, jj: np.ndarray) -> dict[str, np.ndarray]:
-    """Model values at x0 ± h2_i e_i ± h2_j e_j for the ordered pairs (ii, jj): {output: (P, 2, 2)}.
+def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """Model values at x0 ± h2_i e_i ± h2_j e_j for every pair i < j: (ii, jj, {output: (P, 2, 2)}).
 
-    Each unordered pair is evaluated once: the stencil of (j, i) is that of (i, j) with its
-    two sign axes swapped. An input moved in a batch reaches the model as one contiguous
-    array, every other input as its estimate repeated (a read-only broadcast view).
+    Each pair is evaluated once (the stencil of (j, i) is that of (i, j) with its two sign
+    axes swapped). An input moved in a batch reaches the model as one contiguous array, every
+    other input as its estimate repeated (a read-only broadcast view).
     """
     n = x0.size
     a = np.array([-1.0, -1.0, 1.0, 1.0])
     b = np.array([-1.0, 1.0, -1.0, 1.0])
     per_call = max(250, PAIR_CHUNK_VALUES // (4 * n))
-    position = np.full((n, n), -1)
     parts: dict[str, list[np.ndarray]] = {}
-    done = 0
-    for i, j in _pair_batches(n, per_call):
+    batches = _pair_batches(n, per_call)
+    for i, j in batches:
         m = i.size
-        position[i, j] = np.arange(done, done + m)
-        done += m
         moved = np.union1d(i, j)
         row = np.full(n, -1)
         row[moved] = np.arange(moved.size)
@@ -229,15 +226,9 @@ def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
         out = evaluate(model, points, 4 * m)
         for key, v in out.items():
             parts.setdefault(key, []).append(v.reshape(m, 2, 2))
-    lo, hi = np.minimum(ii, jj), np.maximum(ii, jj)
-    index = position[lo, hi]
-    swap = ii > jj
-    result = {}
-    for key, v in parts.items():
-        g = np.concatenate(v)[index]
-        g[swap] = g[swap].transpose(0, 2, 1)
-        result[key] = g
-    return result
+    ii = np.concatenate([i for i, _ in batches]) if batches else np.empty(0, dtype=int)
+    jj = np.concatenate([j for _, j in batches]) if batches else np.empty(0, dtype=int)
+    return ii, jj, {key: np.concatenate(v) for key, v in parts.items()}
 
 
 def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
@@ -245,10 +236,12 @@ def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.n
     """The double sum of JCGM 100 eq. (14) from central differences with steps h = STEP2·u.
 
     ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
-    ``pairs`` f at x0 ± h_i ± h_j, shape (P, 2, 2) indexed [sign of i, sign of j]; ``cu``
-    the first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
+    ``pairs`` f at x0 ± h_i ± h_j for the pairs i < j (``ii``, ``jj``), shape (P, 2, 2) indexed
+    [sign of i, sign of j], each giving the terms of (i, j) and of (j, i); ``cu`` the
+    first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
     matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/STEP2²), so no power of a tiny or huge
-    u is ever formed on its own and nothing under- or overflows.
+    u is ever formed on its own and nothing under- or overflows. The terms are summed in
+    the order of the ordered pairs (i, j), i ≠ j, row by row.
     """
     r = STEP2
     fm2, fm1, fp1, fp2 = diag.T
@@ -256,12 +249,18 @@ def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.n
     d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * r**3)  # ∂³f/∂x_i³ · u_i³
     total = float(np.sum(0.5 * d2**2 + cu * d3))
     if ii.size:
-        g = pairs
-        dij = (g[:, 1, 1] - g[:, 1, 0] - g[:, 0, 1] + g[:, 0, 0]) / (4.0 * r**2)  # · u_i u_j
-        # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis stencil)
-        dijj = ((g[:, 1, 1] - 2.0 * fp1[ii] + g[:, 1, 0]) - (g[:, 0, 1] - 2.0 * fm1[ii] + g[:, 0, 0])) \
-            / (2.0 * r**3)
-        total += float(np.sum(0.5 * dij**2 + cu[ii] * dijj))
+        n = diag.shape[0]
+        g00, g01, g10, g11 = pairs[:, 0, 0], pairs[:, 0, 1], pairs[:, 1, 0], pairs[:, 1, 1]
+        dij = (g11 - g10 - g01 + g00) / (4.0 * r**2)  # · u_i u_j
+        dji = (g11 - g01 - g10 + g00) / (4.0 * r**2)
+        # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis
+        # stencil); ∂³f/∂x_j∂x_i² · u_j u_i²: second difference in i at x_j ± h_j.
+        dijj = ((g11 - 2.0 * fp1[ii] + g10) - (g01 - 2.0 * fm1[ii] + g00)) / (2.0 * r**3)
+        djii = ((g11 - 2.0 * fp1[jj] + g01) - (g10 - 2.0 * fm1[jj] + g00)) / (2.0 * r**3)
+        terms = np.zeros((n, n))
+        terms[ii, jj] = 0.5 * dij**2 + cu[ii] * dijj
+        terms[jj, ii] = 0.5 * dji**2 + cu[jj] * djii
+        total += float(np.sum(terms[~np.eye(n, dtype=bool)]))
     return total
 
 
@@ -350,9 +349,8 @@ def linear(
         fm2, fm1, fp1, fp2 = first[on].T
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
     if second_order:
-        ii, jj = np.nonzero(~np.eye(n_in, dtype=bool))
-        pair_f = _pair_values(model, names, x0, h2, ii, jj) if ii.size else \
-            {on: np.empty((0, 2, 2)) for on in out_names}
+        ii, jj, pair_f = _pair_values(model, names, x0, h2) if n_in > 1 else \
+            (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((0, 2, 2)) for on in out_names})
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T
