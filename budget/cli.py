@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from budget import __version__
-from budget.commands.new import STARTERS
+from budget.commands.new import KINDS
 from budget.errors import BudgetComputationError, BudgetInputError
 
 __all__ = ["main", "build_parser"]
@@ -81,7 +81,8 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--trials", type=_positive_int, default=None,
                      help="fixed Monte Carlo trials (default: adaptive, JCGM 101 7.9)")
     run.add_argument("--seed", type=_seed, default=None, help="seed of the random generator")
-    run.add_argument("--p", type=_probability, default=0.95, help="coverage probability (default 0.95)")
+    run.add_argument("--p", type=_probability, default=None,
+                     help="coverage probability (default: the [goal] p, else 0.95)")
     run.add_argument("--json", action="store_true", help="write only JSON to stdout")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     _add_output_options(run)
@@ -90,7 +91,7 @@ def build_parser() -> argparse.ArgumentParser:
     chk.add_argument("file", type=Path)
 
     new = sub.add_parser("new", help="write a commented starter rig file")
-    new.add_argument("kind", choices=sorted(STARTERS))
+    new.add_argument("kind", choices=sorted(KINDS))
     new.add_argument("path", type=Path)
 
     sub.add_parser("selftest", help="run the published reference cases through the engine")
@@ -102,8 +103,15 @@ def build_parser() -> argparse.ArgumentParser:
     grp.add_argument("--volts", type=_finite, help="commanded voltage")
     pred.add_argument("--trials", type=_positive_int, default=None)
     pred.add_argument("--seed", type=_seed, default=None)
-    pred.add_argument("--p", type=_probability, default=0.95)
+    pred.add_argument("--p", type=_probability, default=None)
     pred.add_argument("--json", action="store_true")
+    adv = sub.add_parser("advise", help="what to change in a rig, and by how much, to meet its [goal]")
+    adv.add_argument("file", type=Path)
+    adv.add_argument("--seed", type=_seed, default=None, help="seed of every full run (recorded)")
+    adv.add_argument("--trials", type=_positive_int, default=None,
+                     help="fixed Monte Carlo trials of the full runs (default: adaptive, as run)")
+    adv.add_argument("--costs", type=Path, help='TOML file of "section.key" = cost of each change')
+    adv.add_argument("--json", action="store_true", help="write only JSON to stdout")
     _add_camera_commands(sub)
     return ap
 
@@ -112,6 +120,12 @@ def _add_camera_commands(sub) -> None:
     """Choosing a camera, checking the locator model, and reading real frames."""
     cho = sub.add_parser("choose", help="rank candidate cameras and lenses for a rig before buying")
     cho.add_argument("file", type=Path)
+    cho.add_argument("--all", action="store_true", help="show every candidate, not only the best 25")
+    cho.add_argument("--verify", action="store_true",
+                     help="run the top pick through the rig model (both methods), as `run` would")
+    cho.add_argument("--seed", type=_seed, default=None, help="seed of the --verify run")
+    cho.add_argument("--trials", type=_positive_int, default=None, help="fixed trials of the --verify run")
+    cho.add_argument("--rig-out", type=Path, help="write the top pick's rig file (for `thetabudget run`)")
     cho.add_argument("--json", action="store_true")
     cho.add_argument("--xlsx", type=Path)
     cho.add_argument("--plots", type=Path)
@@ -144,7 +158,7 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
 
 _MODULES = {
     "run": "run", "check": "check", "new": "new", "selftest": "selftest", "predict": "predict",
-    "choose": "choose", "verify-locator": "verify", "frames": "frames",
+    "choose": "choose", "verify-locator": "verify", "frames": "frames", "advise": "advise",
 }
 """Sub-command name -> module of :mod:`budget.commands` that carries it out."""
 

@@ -9,7 +9,8 @@ import numpy as np
 
 from budget.propagation import InputQuantity, LinearResult, MonteCarloResult, Validation
 
-__all__ = ["ComponentLine", "OutputBudget", "GainSummary", "RunResult", "finite_or_none"]
+__all__ = ["ComponentLine", "OutputBudget", "GainSummary", "RunResult", "finite_or_none", "GoalVerdict",
+           "Decision", "RangeClaim"]
 
 
 def finite_or_none(x: float | None) -> float | None:
@@ -79,6 +80,58 @@ class GainSummary:
 
 
 @dataclass(frozen=True)
+class GoalVerdict:
+    """Whether one output meets its target expanded uncertainty (computed by :mod:`budget.advice.targets`).
+
+    ``U`` and ``U_target`` are in ``unit`` (° for an angle, % or °/V for the gain); ``margin_pct`` is
+    100·(U_target − U)/U_target, negative when the target is missed; ``basis`` says how U was taken.
+    """
+
+    output: str
+    label: str
+    unit: str
+    U_target: float
+    U: float
+    meets: bool
+    margin_pct: float
+    p: float
+    basis: str
+
+
+@dataclass(frozen=True)
+class Decision:
+    """A conformity decision for one output (JCGM 106:2012; the rule is stated per ISO/IEC 17025 7.8.6)."""
+
+    output: str
+    label: str
+    unit: str
+    rule: str
+    value: float  # the result the decision is about (measured value, or the estimate in design mode)
+    tolerance: tuple[float, float]
+    acceptance: tuple[float, float]
+    U: float
+    decision: str  # "accept" or "reject"
+    in_guard_band: bool
+    p_conformity: float
+    note: str
+
+
+@dataclass(frozen=True)
+class RangeClaim:
+    """The claim for the whole range: a conservative envelope of U over the angles (° throughout)."""
+
+    form: str  # "linear": U(θ) = a + b·|θ|; "table": linear interpolation between the rows
+    a_deg: float | None
+    b: float | None
+    table: tuple[tuple[float, float], ...]  # (θ, U) rows of a table claim
+    low_deg: float
+    high_deg: float
+    p: float
+    points: tuple[tuple[float, float, float, bool], ...]  # (θ, U computed, envelope, midpoint?) all covered
+    statement: str
+
+
+@dataclass(frozen=True)
 class RunResult:
     """Everything a report needs, with provenance."""
 
@@ -99,6 +152,10 @@ class RunResult:
     joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
     assumptions: tuple = ()  # rig.description.Assumption: values the tool supplied, with reasons
     mode: str = "design"  # "design": outputs are what the rig would read; "evaluation": true values
+    goals: tuple[GoalVerdict, ...] = ()
+    decisions: tuple[Decision, ...] = ()
+    decision_rule: str = ""  # the rule in words (ISO/IEC 17025 7.8.6), when [conformity] is given
+    range_claim: RangeClaim | None = None
 
     def component_descriptions(self) -> dict[str, str]:
         """Every component shown in the budgets, in order of first appearance, with what it is."""

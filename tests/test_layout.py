@@ -27,7 +27,7 @@ ALLOWED = {
     "rig": {"budget", "errors", "propagation", "fit", "imaging", "results"},
     "choice": {"errors", "propagation", "imaging", "rig", "inputs.choose_file"},
     "advice": {"errors", "propagation", "fit", "imaging", "rig", "choice", "results", "inputs"},
-    "report": {"budget", "errors", "results", "propagation", "choice"},
+    "report": {"budget", "errors", "results", "propagation", "choice", "advice"},
     "reference_cases": {"budget", "errors", "propagation", "fit", "resources"},
     "commands": {"*"},
     "cli": {"budget", "errors", "commands"},

@@ -1,135 +1,30 @@
-"""Predicted budget of every candidate camera × lens at once: closed-form first-order sensitivities.
+"""Predicted budget of every candidate camera × lens at once: the closed-form surrogate of the rig model.
 
-The measurement geometry (which points are located, how the pivot is found, which angles and
-gain are reported) does not depend on the camera, so the sensitivity of each output to a
-displacement of each located point, in units of the pointer radius, is computed once
-(:func:`design_geometry`). Every candidate then only scales these by its radius in pixels and
-its per-point error variances, all as numpy arrays over the candidates (:func:`predict_candidates`).
+The sensitivities of the outputs to the located points come once from :func:`design_geometry`;
+every candidate then only scales them by its radius in pixels and its per-point error variances,
+all as numpy arrays over the candidates (:func:`predict_candidates`), at a working distance,
+f-number and exposure per candidate. The surrogate is tested against the virtual rig
+(``tests/choice``) and ``choose`` confirms its top rows with the rig model itself.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from statistics import NormalDist
 
 import numpy as np
-from scipy.stats import norm
 
+from budget.choice.design import PointGradients, design_geometry
 from budget.imaging import optics, spot
 from budget.inputs.choose_file import ChooseSpec
 
-__all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates"]
+__all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates",
+           "distance_bounds", "truncation_by_window"]
 
 COMPONENTS = ("pixel quantization", "pixel-locking", "centroid noise", "pivot estimate", "camera skew",
               "lens distortion", "frame timing")
 _DEG = 180.0 / math.pi
-
-
-@dataclass(frozen=True)
-class PointGradients:
-    """Unit-radius sensitivities of the outputs to the located points (camera independent).
-
-    ``grad[o, i]`` is ∂θ_o/∂p_i·R (rad per unit displacement over the radius, 2 axes); ``pivot[i]``
-    marks points located only to find the pivot; ``tilt_r``/``tilt_ox``/``tilt_oy`` give
-    ∂θ_o/∂(wx, wy) = (R/D)·tilt_r + (ox/D)·tilt_ox + (oy/D)·tilt_oy; ``timing[o]`` is the sum of
-    squared weights of the per-reading timing errors; ``mark[o]`` is |∂θ_o/∂c|² for a pivot mark.
-    """
-
-    outputs: tuple[str, ...]
-    grad: np.ndarray  # (O, n, 2)
-    pivot: np.ndarray  # (n,) bool
-    tilt_r: np.ndarray  # (O, 2)
-    tilt_ox: np.ndarray  # (O, 2)
-    tilt_oy: np.ndarray  # (O, 2)
-    timing: np.ndarray  # (O,)
-    mark: np.ndarray  # (O,)
-    is_gain: np.ndarray  # (O,) bool
-    gain_deg_per_v: float
-
-
-def _dial_angles(spec: ChooseSpec) -> tuple[np.ndarray, np.ndarray, list[str]]:
-    m, pv = spec.measurement, spec.pivot
-    z0 = spec.scene["zero_direction_deg"]
-    if "angles_deg" in m:
-        reads = np.array(m["angles_deg"])
-    else:
-        reads = m["nominal_gain_deg_per_v"] * np.array(m["set_points_v"])
-    ang = [z0, *(z0 + reads)]
-    labels = ["Z", *(f"P{i + 1}" for i in range(reads.size))]
-    if pv["method"] == "arc":
-        mid = 0.5 * (min(0.0, *reads) + max(0.0, *reads))
-        half = pv["arc_half_angle_deg"]
-        ang += list(z0 + mid + np.linspace(-half, half, pv["arc_points"]))
-        labels += [f"C{i + 1}" for i in range(pv["arc_points"])]
-    elif pv["method"] == "mark":
-        ang.append(0.0)
-        labels.append("M")
-    return np.radians(np.array(ang, dtype=float)), reads, labels
-
-
-def design_geometry(spec: ChooseSpec) -> PointGradients:
-    """Sensitivities of every output to every located point, for a unit pointer radius.
-
-    Notes
-    -----
-    Angle θ = atan2(r0 × r, r0 · r) about the estimated pivot c (DESIGN.md section 2):
-    ∂θ/∂p = v_P/R, ∂θ/∂z = −v_Z/R, ∂θ/∂c = (v_Z − v_P)/R with v the unit tangent [derived].
-    A circle-fit pivot moves by δ(a, b, R) = (JᵀJ)⁻¹Jᵀ(u_i·δp_i), J_i = [cos φ_i, sin φ_i, 1],
-    u_i the radial unit vector: the linearized geometric fit whose covariance is Chernov (2010,
-    ch. 7) σ²(JᵀJ)⁻¹. A pivot mark is c itself. Gain: the OLS slope of θ_j on V_j is Σ w_j θ_j,
-    w_j = (V_j − V̄)/Σ(V − V̄)² [derived]. Tilt by a small rotation vector w = (wx, wy, 0)
-    lifts a dial point by z = R(wx sin φ − wy cos φ); the pinhole image then moves by
-    (p + o)·z/D relative to the pivot's image [derived from the projection in
-    :mod:`budget.rig.model`], which splits into the perspective ellipse-centre term
-    ∝ (R/D)·β (Ahn et al. 1999, Photogramm. Rec. 16:485) and the off-axis pivot term ∝ β·tan γ
-    with tan γ = |o|/D (DESIGN.md section 3, camera skew).
-    """
-    phi, reads, labels = _dial_angles(spec)
-    n = phi.size
-    u = np.stack([np.cos(phi), np.sin(phi)], axis=1)
-    v = np.stack([-np.sin(phi), np.cos(phi)], axis=1)
-    method = spec.pivot["method"]
-    pivot = np.array([lab.startswith("C") or lab == "M" for lab in labels])
-    circle = {"readings": np.arange(1 + reads.size), "arc": np.flatnonzero(pivot)}.get(method)
-    dcdp = np.zeros((2, n, 2))  # ∂c_a/∂p_i (a, i, axis)
-    if circle is not None:
-        jac = np.stack([np.cos(phi[circle]), np.sin(phi[circle]), np.ones(circle.size)], axis=1)
-        k = np.linalg.solve(jac.T @ jac, jac.T)  # (3, m)
-        for a in range(2):
-            dcdp[a, circle] = k[a][:, None] * u[circle]
-    else:
-        dcdp[0, n - 1] = (1.0, 0.0)
-        dcdp[1, n - 1] = (0.0, 1.0)
-    n_read = reads.size
-    grad = np.zeros((n_read, n, 2))
-    dcs = np.zeros((n_read, 2))
-    for j in range(n_read):
-        grad[j, 1 + j] += v[1 + j]
-        grad[j, 0] -= v[0]
-        dc = v[0] - v[1 + j]
-        dcs[j] = dc
-        grad[j] += np.einsum("a,aik->ik", dc, dcdp)
-    outputs = [f"P{j + 1}" for j in range(n_read)]
-    timing = np.ones(n_read)
-    mark = np.sum(dcs**2, axis=1) if method == "mark" else np.zeros(n_read)
-    is_gain = [False] * n_read
-    k_nom = 0.0
-    if "set_points_v" in spec.measurement:
-        volts = np.array(spec.measurement["set_points_v"])
-        w = (volts - volts.mean()) / np.sum((volts - volts.mean()) ** 2)
-        grad = np.concatenate([grad, np.einsum("j,jik->ik", w, grad)[None]])
-        timing = np.append(timing, np.sum(w**2))
-        mark = np.append(mark, np.sum((w @ dcs) ** 2) if method == "mark" else 0.0)
-        outputs.append("gain")
-        is_gain.append(True)
-        k_nom = spec.measurement["nominal_gain_deg_per_v"]
-    target = ~np.array([lab == "M" for lab in labels])
-    s, c = np.sin(phi) * target, np.cos(phi) * target
-    tilt_r = np.stack([np.einsum("oik,ik,i->o", grad, u, s), -np.einsum("oik,ik,i->o", grad, u, c)], axis=1)
-    tilt_ox = np.stack([grad[:, :, 0] @ s, -(grad[:, :, 0] @ c)], axis=1)
-    tilt_oy = np.stack([grad[:, :, 1] @ s, -(grad[:, :, 1] @ c)], axis=1)
-    return PointGradients(tuple(outputs), grad, pivot, tilt_r, tilt_ox, tilt_oy, timing, mark,
-                    np.array(is_gain), float(k_nom))
 
 
 @dataclass(frozen=True)
@@ -174,6 +69,8 @@ class Prediction:
     blur_px: np.ndarray
     frame_rate_needed_hz: float
     frame_rate_ok: np.ndarray
+    f_number: np.ndarray
+    bias_angle_deg: np.ndarray  # known offset of the worst reading (rolling-shutter rows), deg
     variances_angle: np.ndarray  # (K, C) deg², worst reading
     variances_gain: np.ndarray | None  # (K, C) %²
     u_angle_deg: np.ndarray
@@ -186,31 +83,90 @@ class Prediction:
     limiting: tuple[str, ...]
 
 
-def _layout(spec: ChooseSpec, cand: Candidates):
-    """Working distance, focal length and magnification that fit the dial (and margin) in the short side."""
+def _fit_geometry(spec: ChooseSpec, cand: Candidates):
+    """The field to keep in view, the sensor's short side (mm) and the magnification that just fits it."""
     sc = spec.scene
     field = sc["dial_diameter_mm"] * (1.0 + sc["field_margin_pct"] / 100.0)
     short_mm = np.minimum(cand.pixels_x, cand.pixels_y) * cand.pitch_um * 1e-3
-    m_fit = short_mm / field
-    d_min, d_max = sc["working_distance_min_mm"], sc["working_distance_max_mm"]
+    return field, short_mm, short_mm / field
+
+
+def distance_bounds(spec: ChooseSpec, cand: Candidates) -> tuple[np.ndarray, np.ndarray]:
+    """Shortest and longest allowed working distance of each candidate (mm).
+
+    The shortest is where the dial (and its margin) just fills the sensor's short side with a fixed
+    lens, or the fixture's minimum; an automatic lens is chosen to fit at every distance. Where the
+    shortest exceeds the longest, the dial does not fit (the prediction flags it).
+    """
+    sc = spec.scene
+    _, _, m_fit = _fit_geometry(spec, cand)
+    d_fit = np.where(np.isnan(cand.focal_length_mm), 0.0, cand.focal_length_mm * (1.0 + m_fit) / m_fit)
+    lo = np.maximum(sc["working_distance_min_mm"], d_fit)
+    return np.minimum(lo, sc["working_distance_max_mm"]), np.full(lo.shape, sc["working_distance_max_mm"])
+
+
+def _layout(spec: ChooseSpec, cand: Candidates, distance_mm: np.ndarray | None):
+    """Working distance, focal length, magnification and whether the dial fits."""
+    field, short_mm, m_fit = _fit_geometry(spec, cand)
     auto = np.isnan(cand.focal_length_mm)
-    f = np.where(auto, optics.focal_length_to_fit(field, short_mm, d_max), cand.focal_length_mm)  # farthest
-    d_fit = f * (1.0 + m_fit) / m_fit  # distance at which the field just fills the short side
-    dist = np.clip(d_fit, d_min, d_max)
-    fits = d_fit <= d_max * (1 + 1e-12)
-    dist = np.where(dist <= f * 1.001, f * 1.001, dist)  # a fixed lens longer than the range: flagged by fits
+    if distance_mm is None:  # a fixed lens at its shortest distance; an automatic lens fitted at the farthest
+        lo, hi = distance_bounds(spec, cand)
+        distance_mm = np.where(auto, hi, lo)
+    f = np.where(auto, optics.focal_length_to_fit(field, short_mm, distance_mm), cand.focal_length_mm)
+    d_fit = f * (1.0 + m_fit) / m_fit
+    fits = d_fit <= distance_mm * (1 + 1e-9)
+    dist = np.where(distance_mm <= f * 1.001, f * 1.001, distance_mm)  # a lens longer than the range: not fits
     return field, f, dist, optics.magnification(f, dist), fits
 
 
-def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients | None = None) -> Prediction:
+NODES_PER_OCTAVE = 32
+"""σ nodes of the truncation table: 2^(k/32) px, 2.2 % apart."""
+_TRUNCATION: dict[int, dict[int, float]] = {}
+"""Memo of the window-truncation maximum at the σ nodes, per window size (a pure function's values)."""
+
+
+def truncation_by_window(sigma: np.ndarray, window: np.ndarray) -> np.ndarray:
+    """The window-truncation maximum, computed once per window size and σ node.
+
+    Notes
+    -----
+    :func:`budget.imaging.spot.window_truncation_max` for each distinct window on its own pixel span
+    (no padding to the widest window), at the nodes σ = 2^(k/32) px that bracket the σ asked for,
+    each node computed once per process; between nodes, linear interpolation of log T in log σ (tested
+    against the direct evaluation in ``tests/choice``: within 1 % of the value).
+    """
+    out = np.zeros(sigma.shape)
+    need = window < 12.0 * sigma + 1.0  # beyond this the truncation is below 1e-8 px (spot module)
+    for w in np.unique(window[need]):
+        sel = need & (window == w)
+        ls = np.log2(sigma[sel]) * NODES_PER_OCTAVE
+        k = np.arange(math.floor(ls.min()), math.ceil(ls.max()) + 1)
+        memo = _TRUNCATION.setdefault(int(w), {})
+        todo = [int(i) for i in k if int(i) not in memo]
+        if todo:
+            s_nodes = 2.0 ** (np.array(todo, dtype=float) / NODES_PER_OCTAVE)
+            memo.update(zip(todo, spot.window_truncation_max(s_nodes, np.full(len(todo), w)).tolist(), strict=True))
+        nodes = np.log(np.maximum(np.array([memo[int(i)] for i in k]), 1e-300))
+        out[sel] = np.exp(np.interp(ls, k.astype(float), nodes))
+    return out
+
+
+def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients | None = None, *,
+                       distance_mm: np.ndarray | None = None, exposure_ms: float | None = None) -> Prediction:
     """Predicted budget of every candidate at once.
 
     Parameters
     ----------
     spec : ChooseSpec
     cand : Candidates
+        Cameras and lenses; ``f_number`` is the aperture used.
     geo : PointGradients, optional
         From :func:`design_geometry` (computed if not given).
+    distance_mm : ndarray, optional
+        Working distance of each candidate (default: a fixed lens at the shortest allowed, an automatic
+        lens at the farthest, where it is fitted to the dial; :func:`distance_bounds`).
+    exposure_ms : float, optional
+        Exposure wanted (default ``[light] exposure_ms``), shortened against saturation and blur.
 
     Returns
     -------
@@ -226,8 +182,10 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     et al. 2010, divided by the frames averaged; distortion residual RMS²/2. An angle error is
     δθ = Σ g_i·δp_i/R_px (:func:`design_geometry`), so each row is (per-point variance)·Σ|g_i|²/R_px².
     Tilt: rectangular ±β per axis, first-order terms only (the on-axis β²/4 term has zero
-    sensitivity at β = 0, JCGM 100 5.1.2 note). Timing: ω·jitter per reading; rolling shutter
-    bounded by ω·R_px·t_row (rectangular), t_row = 1/(max frame rate·rows) (common practice).
+    sensitivity at β = 0, JCGM 100 5.1.2 note). Timing: ω·jitter per reading; a rolling shutter
+    delays reading j by its rows from the top, (H/2 − y_j)·t_row with t_row = 1/(max frame rate·H)
+    (common practice), a known offset ω·delay as in the virtual rig; the claimed U of an output is
+    k·u + |offset| (:func:`budget.rig.claim.claim_U` for a normal output).
     Light: signal and background scale with exposure and (N_ref/N)² (pupil area, common
     practice); exposure is shortened so the peak pixel stays below the full well and the arc
     blur below ``max_blur_px``. k = z_((1+p)/2): all inputs are Type B with infinite degrees of
@@ -235,7 +193,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     """
     geo = geo or design_geometry(spec)
     sc, tg, lt, lo, mo = spec.scene, spec.target, spec.light, spec.locator, spec.motion
-    field, f, dist, m, fits = _layout(spec, cand)
+    field, f, dist, m, fits = _layout(spec, cand, distance_mm)
     pitch_mm = cand.pitch_um * 1e-3
     mm_per_px = optics.object_pixel_mm(cand.pitch_um, m)
     r_px = sc["pointer_radius_mm"] / mm_per_px
@@ -247,7 +205,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     sigma = optics.spot_sigma_px(tg["wavelength_nm"], cand.f_number, m, cand.pitch_um, t_spot, disk_px)
     # exposure: blur limit, then saturation
     omega = math.radians(abs(mo["rate_deg_per_s"]))
-    t_ms = np.full(sigma.shape, lt["exposure_ms"])
+    t_ms = np.full(sigma.shape, lt["exposure_ms"] if exposure_ms is None else exposure_ms)
     if omega > 0:
         t_ms = np.minimum(t_ms, 1e3 * mo["max_blur_px"] / (omega * r_px))
     scale = (lt["reference_f_number"] / cand.f_number) ** 2
@@ -273,7 +231,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
             amp = spot.disk_locking_amplitude(disk_px, np.sqrt(s_diff**2 + t_spot**2))
         else:
             amp = spot.pixel_locking_amplitude(sigma)
-        amp = amp + spot.window_truncation_max(sigma, window)
+        amp = amp + truncation_by_window(sigma, window)
         lock = amp**2 / 2.0
     noise_px = np.sqrt(noise)
     noise = noise / lo["frames_per_reading"]
@@ -290,23 +248,26 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     var_skew = beta**2 / 3.0 * np.sum(dtilt**2, axis=1)
     mark_b = spec.pivot["mark_offset_bound_mm"] if spec.pivot["method"] == "mark" else 0.0
     var_mark = geo.mark[:, None] * mark_b**2 / 3.0 / sc["pointer_radius_mm"] ** 2
-    row_s = 1.0 / (cand.max_frame_rate_hz * cand.pixels_y)
-    roll = np.where(cand.rolling, omega * r_px * row_s, 0.0)  # rad, rectangular half-width
-    var_timing = geo.timing[:, None] * ((omega * mo["jitter_ms"] * 1e-3) ** 2 + roll**2 / 3.0)
+    var_timing = geo.timing[:, None] * np.full(r_px.shape, (omega * mo["jitter_ms"] * 1e-3) ** 2)
     var = np.stack([quant * s_read * inv_r2, lock * s_read * inv_r2, noise * s_read * inv_r2,
                     (quant + lock + noise) * s_piv * inv_r2 + var_mark, var_skew,
                     resid * (s_read + s_piv) * inv_r2, var_timing])  # (K, O, C) rad² or (rad/V)²
     var = var * _DEG**2
-    k = float(norm.ppf(0.5 * (1.0 + spec.goal["p"])))
+    k = NormalDist().inv_cdf(0.5 * (1.0 + spec.goal["p"]))
+    bias = _rolling_offsets(spec, geo, cand, m)  # (O, C) deg or deg/V
     ang = ~geo.is_gain
-    u_read = np.sqrt(var[:, ang].sum(axis=0))  # (n_read, C)
-    worst = np.argmax(u_read, axis=0)
+    claim_read = k * np.sqrt(var[:, ang].sum(axis=0)) + np.abs(bias[ang])  # (n_read, C)
+    worst = np.argmax(claim_read, axis=0)
     var_angle = np.take_along_axis(var[:, ang], worst[None, None, :], axis=1)[:, 0]
+    bias_angle = np.take_along_axis(bias[ang], worst[None, :], axis=0)[0]
     u_angle = np.sqrt(var_angle.sum(axis=0))
-    var_gain = u_gain = None
+    var_gain = u_gain = U_gain = None
     if geo.is_gain.any():
-        var_gain = var[:, -1] * (100.0 / geo.gain_deg_per_v) ** 2
+        to_pct = 100.0 / abs(geo.gain_deg_per_v)
+        var_gain = var[:, -1] * to_pct**2
         u_gain = np.sqrt(var_gain.sum(axis=0))
+        U_gain = k * u_gain + np.abs(bias[-1]) * to_pct
+    U_angle = k * u_angle + np.abs(bias_angle)
     # checks
     dof = optics.depth_of_field_mm(cand.f_number, lo["coc_px"] * pitch_mm, m)
     dof_need = sc["dial_diameter_mm"] * math.sin(beta) + sc["target_height_mm"]
@@ -316,9 +277,9 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     dof_ok = dof >= dof_need
     margins = []
     if "angle_U_deg" in spec.goal:
-        margins.append((spec.goal["angle_U_deg"] - k * u_angle) / spec.goal["angle_U_deg"])
-    if u_gain is not None and "gain_U_pct" in spec.goal:
-        margins.append((spec.goal["gain_U_pct"] - k * u_gain) / spec.goal["gain_U_pct"])
+        margins.append((spec.goal["angle_U_deg"] - U_angle) / spec.goal["angle_U_deg"])
+    if U_gain is not None and "gain_U_pct" in spec.goal:
+        margins.append((spec.goal["gain_U_pct"] - U_gain) / spec.goal["gain_U_pct"])
     margin = np.min(np.stack(margins), axis=0)
     meets = (margin >= 0) & fits & dof_ok & fr_ok
     lim_var = var_angle if "angle_U_deg" in spec.goal else var_gain
@@ -332,6 +293,32 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
         px_across_field=field / mm_per_px, fits=fits, airy_radius_px=airy, sigma_diffraction_px=s_diff,
         sigma_px=sigma, window_px=window, exposure_ms=t_ms, signal_e=signal, background_e=bg,
         locking_px=np.sqrt(2.0 * lock), noise_px=noise_px, dof_mm=dof, dof_need_mm=dof_need, dof_ok=dof_ok,
-        blur_px=blur, frame_rate_needed_hz=fr_need, frame_rate_ok=fr_ok, variances_angle=var_angle,
-        variances_gain=var_gain, u_angle_deg=u_angle, U_angle_deg=k * u_angle, u_gain_pct=u_gain,
-        U_gain_pct=None if u_gain is None else k * u_gain, k=k, meets=meets, margin=margin, limiting=limiting)
+        blur_px=blur, frame_rate_needed_hz=fr_need, frame_rate_ok=fr_ok, f_number=cand.f_number,
+        bias_angle_deg=bias_angle, variances_angle=var_angle,
+        variances_gain=var_gain, u_angle_deg=u_angle, U_angle_deg=U_angle, u_gain_pct=u_gain,
+        U_gain_pct=U_gain, k=k, meets=meets, margin=margin, limiting=limiting)
+
+
+def _rolling_offsets(spec: ChooseSpec, geo: PointGradients, cand: Candidates, m: np.ndarray) -> np.ndarray:
+    """Known offset of every output from a rolling shutter's row delay, (O, C) in deg (gain: deg/V).
+
+    Notes
+    -----
+    As the virtual rig (:meth:`budget.rig.model.VirtualRig._timing_deg`): reading j is taken
+    (H/2 − y_j)·t_row after the top row, y_j = (R sin φ_j + o_y)·m/pitch its image row from the
+    principal point (pinhole, target on the dial), so its angle is off by ω·delay; the gain's offset
+    is Σ w_j·offset_j with the OLS weights of the sweep [derived].
+    """
+    rate = spec.motion["rate_deg_per_s"]
+    n_read = geo.read_dial_rad.size
+    out = np.zeros((len(geo.outputs), m.size))
+    if rate == 0 or not np.any(cand.rolling):
+        return out
+    y = ((spec.scene["pointer_radius_mm"] * np.sin(geo.read_dial_rad))[:, None] + spec.scene["pivot_offset_y_mm"]) \
+        * (m / (cand.pitch_um * 1e-3))[None, :]
+    t_row = 1.0 / (cand.max_frame_rate_hz * cand.pixels_y)
+    off = np.where(cand.rolling, rate * (0.5 * cand.pixels_y - y) * t_row, 0.0)  # (n_read, C)
+    out[:n_read] = off
+    if geo.is_gain.any():
+        out[-1] = geo.gain_weights @ off
+    return out

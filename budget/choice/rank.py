@@ -1,4 +1,4 @@
-"""Candidate cameras × lenses: build them, rank them, find the least pixel count, and the equivalent rig.
+"""Candidate cameras × lenses: build them, search their design, rank them, find the least pixel count.
 
 The ranking puts the candidates that meet the goal first, then the cheaper, then the larger
 margin. The least pixel count comes from a continuous sensor model (``[pixel_model]``): a
@@ -13,11 +13,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from budget.choice.equivalent import equivalent_rig
 from budget.choice.model import Candidates, PointGradients, Prediction, design_geometry, predict_candidates
+from budget.choice.search import Settings, search
 from budget.inputs.choose_file import ChooseSpec
-from budget.rig import description as d
 
-__all__ = ["Choice", "LeastPixels", "build_candidates", "choose", "equivalent_rig", "least_pixels", "pixel_curve"]
+__all__ = ["Choice", "LeastPixels", "build_candidates", "choose", "equivalent_rig", "least_pixels", "pixel_curve",
+           "rank"]
 
 
 @dataclass(frozen=True)
@@ -44,6 +46,8 @@ class Choice:
     order: np.ndarray
     least: LeastPixels | None
     curve: tuple[np.ndarray, np.ndarray] | None  # pixels across the field, U (angle or gain)
+    settings: Settings | None = None  # the chosen working distance, f-number and exposure
+    shortest: Prediction | None = None  # each candidate at its shortest distance, lens as listed
 
 
 def build_candidates(spec: ChooseSpec) -> tuple[Candidates, np.ndarray, tuple[str, ...], np.ndarray]:
@@ -134,53 +138,12 @@ def least_pixels(spec: ChooseSpec, geo: PointGradients | None = None) -> LeastPi
 
 
 def choose(spec: ChooseSpec) -> Choice:
-    """Predict, rank, and solve the continuous model (if ``[pixel_model]`` is given)."""
+    """Search each candidate's design, rank, and solve the continuous model (if ``[pixel_model]``)."""
     geo = design_geometry(spec)
     cand, ci, labels, price = build_candidates(spec)
-    pred = predict_candidates(spec, cand, geo)
+    chosen, settings, pred, shortest = search(spec, cand, geo)
     least = curve = None
     if spec.pixel_model is not None:
         least = least_pixels(spec, geo)
         curve = pixel_curve(spec, geo)
-    return Choice(spec, ci, labels, price, cand, pred, rank(pred, price), least, curve)
-
-
-def equivalent_rig(spec: ChooseSpec, choice_cand: Candidates, pred: Prediction, i: int) -> d.RigDescription:
-    """The rig description that candidate ``i`` amounts to, for ``run_budget`` (cross-check and ``run``).
-
-    The spot is given as its combined σ in px; signal and background are those of the chosen
-    exposure; a sweep gets a 32-bit source without errors (the choice predicts the camera's part).
-    """
-    c, p = choice_cand, pred
-    sc, lo, mo = spec.scene, spec.locator, spec.motion
-    moving = mo["rate_deg_per_s"] != 0
-    cam = d.Camera(pixels_x=int(c.pixels_x[i]), pixels_y=int(c.pixels_y[i]), pitch_um=float(c.pitch_um[i]),
-                   bit_depth=int(c.bit_depth[i]), read_noise_e=float(c.read_noise_e[i]),
-                   full_well_e=float(c.full_well_e[i]), shutter="global",
-                   exposure_ms=float(p.exposure_ms[i]), source="choose candidate")
-    lens = d.Lens(focal_length_mm=float(p.focal_length_mm[i]), f_number=float(c.f_number[i]),
-                  residual_rms_px=max(lo["distortion_residual_rms_px"], 1e-12),
-                  wavelength_nm=spec.target["wavelength_nm"])
-    tilt = sc["tilt_bound_deg"] if sc["tilt_bound_deg"] > 0 else None
-    geom = d.Geometry(working_distance_mm=float(p.working_distance_mm[i]), pointer_radius_mm=sc["pointer_radius_mm"],
-                      pivot_offset_x_mm=sc["pivot_offset_x_mm"], pivot_offset_y_mm=sc["pivot_offset_y_mm"],
-                      zero_direction_deg=sc["zero_direction_deg"], tilt_bound_deg=tilt)
-    target = d.Target(shape="spot", sigma_px=float(p.sigma_px[i]), signal_e=float(p.signal_e[i]),
-                      background_e=float(p.background_e[i]))
-    locator = d.Locator(method=lo["method"], window_px=int(p.window_px[i]))
-    pv = spec.pivot
-    pivot = d.Pivot(method=pv["method"], arc_half_angle_deg=pv["arc_half_angle_deg"], arc_points=pv["arc_points"],
-                    mark_offset_bound_mm=pv["mark_offset_bound_mm"])
-    motion = d.Motion(state="moving" if moving else "static", rate_deg_per_s=mo["rate_deg_per_s"],
-                      jitter_ms=mo["jitter_ms"] if moving else 0.0)
-    meas = spec.measurement
-    positions = sweep = source = None
-    if "angles_deg" in meas:
-        positions = d.Positions(tuple(meas["angles_deg"]))
-    else:
-        sweep = d.Sweep(tuple(meas["set_points_v"]), meas["nominal_gain_deg_per_v"])
-        span = max(abs(v) for v in meas["set_points_v"])
-        source = d.VoltageSource(span_v=span, bits=32)
-    return d.RigDescription(title=spec.title, camera=cam, lens=lens, geometry=geom, target=target, locator=locator,
-                            pivot=pivot, frames=d.Frames(per_reading=lo["frames_per_reading"]), motion=motion,
-                            source=source, positions=positions, sweep=sweep)
+    return Choice(spec, ci, labels, price, chosen, pred, rank(pred, price), least, curve, settings, shortest)

@@ -1,4 +1,4 @@
-"""``thetabudget check``: validate a rig file and list its input quantities."""
+"""``thetabudget check``: validate a rig file and list its input quantities, or validate a choose file."""
 
 from __future__ import annotations
 
@@ -11,10 +11,14 @@ def execute(args: argparse.Namespace) -> int:
     from budget.imaging.locator_model import locator_model
     from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
+    from budget.inputs.schema import read_toml
     from budget.report.console import fmt, fmt_dof
     from budget.rig.components import build_inputs
     from budget.rig.evaluation import load_evaluation
 
+    doc = read_toml(args.file)
+    if "candidates" in doc or "scene" in doc:  # a choose file (its required sections)
+        return _check_choose(args)
     rig = load_rig(args.file)
     ev = load_evaluation(rig, read_rig_data(rig))
     rig = ev.rig
@@ -35,4 +39,22 @@ def execute(args: argparse.Namespace) -> int:
             print(f"  {a.field} = {a.value!r}: {a.reason}")
     for note in lm.notes:
         print(f"! {note}")
+    return 0
+
+
+def _check_choose(args: argparse.Namespace) -> int:
+    """Validate a choose file and its cameras list; say what ``choose`` will search."""
+    from budget.inputs.choose_file import load_choose
+
+    spec = load_choose(args.file)
+    lenses = "automatic focal length" if spec.lenses.auto else f"{len(spec.lenses.focal_length_mm)} lenses"
+    n = len(spec.cameras.name) * (1 if spec.lenses.auto else len(spec.lenses.focal_length_mm))
+    sc, se = spec.scene, spec.search
+    print(f"{args.file}: valid choose file. {spec.title}")
+    print(f"{len(spec.cameras.name)} cameras ({spec.cameras.path}) × {lenses} = {n} candidates")
+    print(f"working distance searched in [{sc['working_distance_min_mm']:g}, {sc['working_distance_max_mm']:g}] mm "
+          f"({se['distance_steps']} steps)" + (f"; f-numbers {list(se['f_numbers'])}" if se.get("f_numbers") else "")
+          + (f"; exposures {list(se['exposures_ms'])} ms" if se.get("exposures_ms") else ""))
+    goal = ", ".join(f"{k} = {v:g}" for k, v in spec.goal.items() if k != "source")
+    print(f"goal: {goal}")
     return 0

@@ -7,26 +7,32 @@ from pathlib import Path
 
 from budget.errors import BudgetInputError
 
-__all__ = ["execute", "STARTERS"]
+__all__ = ["execute", "STARTERS", "KINDS"]
 
 STARTERS = {
     "gauge": "gauge_static.toml",
     "sweep": "gain_sweep.toml",
     "moving": "moving_pointer.toml",
 }
-"""Kinds of starter file and the template each one copies."""
+"""Kinds of starter rig file and the template each one copies."""
+KINDS = {**STARTERS, "choose": "choose_cameras.toml"}
+"""Every kind ``new`` writes: the rig starters and the choose starter."""
+COMPANIONS = {"choose": ("cameras.csv",)}
+"""Files a starter needs beside it (written into the same folder, never replacing one)."""
 
 
 def execute(args: argparse.Namespace) -> int:
     from budget.resources import template_text
 
-    text = template_text(STARTERS[args.kind])
     dest: Path = args.path
-    if dest.exists():
-        raise BudgetInputError(f"The output file '{dest}' exists; new never replaces a file.")
+    files = [(dest, KINDS[args.kind])] + [(dest.parent / name, name) for name in COMPANIONS.get(args.kind, ())]
+    for path, _ in files:
+        if path.exists():
+            raise BudgetInputError(f"The output file '{path}' exists; new never replaces a file.")
     if not dest.parent.exists():
         raise BudgetInputError(f"The folder '{dest.parent}' does not exist.")
-    with open(dest, "x", encoding="utf-8") as fh:
-        fh.write(text)
-    print(f"wrote {dest} ({args.kind} starter; edit every value marked with its unit)")
+    for path, name in files:
+        with open(path, "x", encoding="utf-8") as fh:
+            fh.write(template_text(name))
+        print(f"wrote {path} ({args.kind} starter; edit every value marked with its unit)")
     return 0

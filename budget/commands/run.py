@@ -12,8 +12,13 @@ from budget.report.safe_write import check_targets
 __all__ = ["execute", "evaluate_rig_file"]
 
 
-def evaluate_rig_file(args: argparse.Namespace, quiet: bool):
-    """Read the rig file (and its measured data), run the budget; return ``(rig, result)``."""
+def evaluate_rig_file(args: argparse.Namespace, quiet: bool, claim: bool = False):
+    """Read the rig file (and its measured data), run the budget; return ``(rig, result)``.
+
+    The result carries the file's goal verdicts and conformity decisions, and with ``claim`` its
+    range claim (which runs the midpoints).
+    """
+    from budget.advice.targets import run_p, with_verdicts
     from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
     from budget.rig.budget import run_budget
@@ -22,12 +27,22 @@ def evaluate_rig_file(args: argparse.Namespace, quiet: bool):
     rig = load_rig(args.file)
     ev = load_evaluation(rig, read_rig_data(rig))
     prog, cb = progress_bar(not quiet)
-    kwargs = dict(rng=make_rng(args.seed), p=args.p, trials=args.trials, input_path=args.file,
+    rng = make_rng(args.seed)
+    kwargs = dict(rng=rng, p=run_p(args.p, rig), trials=args.trials, input_path=args.file,
                   type_a=ev.type_a, measured_deg=ev.measured_deg)
     if prog is not None:
         with prog:
-            return ev.rig, run_budget(ev.rig, progress=cb, **kwargs)
-    return ev.rig, run_budget(ev.rig, **kwargs)
+            result = run_budget(ev.rig, progress=cb, **kwargs)
+    else:
+        result = run_budget(ev.rig, **kwargs)
+    result = with_verdicts(rig, result)
+    if claim and rig.range_claim is not None:
+        from dataclasses import replace
+
+        from budget.advice.range_claim import claim_for_range
+
+        result = replace(result, range_claim=claim_for_range(ev.rig, result, rng=rng, trials=args.trials))
+    return ev.rig, result
 
 
 def execute(args: argparse.Namespace) -> int:
@@ -44,7 +59,7 @@ def execute(args: argparse.Namespace) -> int:
         names = [f"P{i + 1}" for i in range(n)] + (["gain", "intercept"] if rig.sweep is not None else [])
         check_targets([args.plots / f for f in plot_names(names, sweep=rig.sweep is not None, n_angles=n)],
                       args.force)
-    _, result = evaluate_rig_file(args, quiet=args.quiet or args.json)
+    _, result = evaluate_rig_file(args, quiet=args.quiet or args.json, claim=True)
     if args.json:
         from budget.report.jsonout import run_to_json
 

@@ -34,6 +34,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from budget.errors import field_error
+from budget.imaging.special import erf
 
 __all__ = [
     "INTEGER_HALF_WIDTH_PX",

@@ -13,6 +13,7 @@ import csv
 import io
 import math
 from dataclasses import dataclass
+from dataclasses import field as dataclass_field
 from pathlib import Path
 
 import numpy as np
@@ -100,6 +101,12 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "auto_f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "source": _SOURCE,
     },
+    "search": {  # what choose may vary per camera × lens (the working distance always, in its range)
+        "distance_steps": Field("int", "an integer in [2, 200]", lambda v: 2 <= v <= 200),
+        "f_numbers": Field("floats", "a list of f-numbers in [0.5, 64]", lambda v: all(0.5 <= x <= 64 for x in v)),
+        "exposures_ms": Field("floats", "a list of exposures > 0 ms", lambda v: all(x > 0 for x in v)),
+        "source": _SOURCE,
+    },
     "pixel_model": {
         "sensor_width_mm": positive(True),
         "read_noise_e": non_negative(),
@@ -159,6 +166,7 @@ class ChooseSpec:
     cameras: CameraTable
     lenses: LensList
     raw: dict
+    search: dict = dataclass_field(default_factory=dict)
 
 
 _DEFAULTS = {
@@ -175,6 +183,7 @@ _DEFAULTS = {
                "source": "assumed"},
     "goal": {"p": 0.95, "source": "assumed"},
     "candidates": {"auto_f_number": 8.0, "source": "assumed"},
+    "search": {"distance_steps": 12, "source": "assumed"},
     "pixel_model": {"read_noise_e": 2.5, "full_well_e_per_um2": 900.0, "bit_depth": 12, "f_number": 8.0,
                     "pixels_min": 100, "pixels_max": 8000, "source": "assumed"},
 }
@@ -313,7 +322,7 @@ def parse_choose(doc: dict, base: Path | None = None) -> ChooseSpec:
     return ChooseSpec(title=title, scene=sec["scene"], target=sec["target"], light=sec["light"],
                       locator=sec["locator"], pivot=sec["pivot"], measurement=sec["measurement"],
                       motion=sec["motion"], goal=sec["goal"], pixel_model=sec["pixel_model"],
-                      cameras=read_cameras_csv(csv_path), lenses=_lenses(cand), raw=doc)
+                      cameras=read_cameras_csv(csv_path), lenses=_lenses(cand), raw=doc, search=sec["search"])
 
 
 def _cross_checks(sec: dict) -> None:

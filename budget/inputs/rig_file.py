@@ -132,12 +132,27 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "readings_csv": Field("str", "a path to a CSV file"),
         "pivot_csv": Field("str", "a path to a CSV file"),
     },
+    "goal": {  # targets: the run says whether each output meets them (budget.advice.targets)
+        "angle_U_deg": positive(),
+        "gain_U_pct": positive(),
+        "gain_U_deg_per_v": positive(),
+        "p": number("a number in (0, 1)", lambda v: 0 < v < 1),
+        "source": _SOURCE,
+    },
+    "conformity": {  # tolerances and the decision rule (JCGM 106; ISO/IEC 17025 7.8.6)
+        "rule": Field("str", "one of 'simple', 'guarded'", lambda v: v in ("simple", "guarded"), True),
+        "angle_tolerance_deg": positive(),
+        "gain_tolerance_pct": positive(),
+        "source": _SOURCE,
+    },
+    "range_claim": {"form": choice("linear", "table"), "source": _SOURCE},
 }
 
 _CLASSES = {
     "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
     "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
     "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
+    "goal": d.Goal, "conformity": d.Conformity, "range_claim": d.RangeClaimForm,
 }
 _REQUIRED_SECTIONS = ("camera", "lens", "geometry")
 _TOP_KEYS = ("title",)
@@ -197,6 +212,7 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
         )
     rig = d.RigDescription(title=title, raw=doc, assumptions=tuple(assumed), **built)  # type: ignore[arg-type]
     _cross_checks(rig)
+    _target_checks(rig)
     return rig
 
 
@@ -284,6 +300,28 @@ def _cross_checks(rig: d.RigDescription) -> None:
                 "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
                 + (" and the [pivot] arc." if what else ".")
             )
+
+
+def _target_checks(rig: d.RigDescription) -> None:
+    """[goal], [conformity] and [range_claim] against what the rig measures."""
+    g, c = rig.goal, rig.conformity
+    if g is not None:
+        if g.angle_U_deg is None and g.gain_U_pct is None and g.gain_U_deg_per_v is None:
+            raise BudgetInputError("[goal] needs 'angle_U_deg' and/or 'gain_U_pct' or 'gain_U_deg_per_v' "
+                                   "(the expanded uncertainty wanted).")
+        if g.gain_U_pct is not None and g.gain_U_deg_per_v is not None:
+            raise BudgetInputError("[goal] gives both 'gain_U_pct' and 'gain_U_deg_per_v': give one.")
+    if c is not None and c.angle_tolerance_deg is None and c.gain_tolerance_pct is None:
+        raise BudgetInputError("[conformity] needs 'angle_tolerance_deg' and/or 'gain_tolerance_pct' "
+                               "(the half-width of the tolerance interval about the nominal).")
+    gain_keys = [("goal", k) for k in ("gain_U_pct", "gain_U_deg_per_v") if g and getattr(g, k) is not None]
+    gain_keys += [("conformity", "gain_tolerance_pct")] if c and c.gain_tolerance_pct is not None else []
+    if rig.sweep is None and gain_keys:
+        sec, key = gain_keys[0]
+        raise BudgetInputError(f"[{sec}] gives '{key}' but the file has no [sweep]: a gain needs set points.")
+    if rig.range_claim is not None and len(rig.nominal_angles_deg) < 2:
+        raise BudgetInputError("[range_claim] needs at least 2 angles (a range); the file has "
+                               f"{len(rig.nominal_angles_deg)}.")
 
 
 def load_rig(path: str | Path) -> d.RigDescription:

@@ -6,14 +6,16 @@ Nothing here computes an uncertainty; it formats what :mod:`budget.choice.model`
 from __future__ import annotations
 
 import math
-import os
 from pathlib import Path
 
 from budget.choice.model import COMPONENTS
 from budget.choice.rank import Choice
 from budget.report.safe_write import atomic_write
 
-__all__ = ["choice_rows", "choice_to_dict", "render_choice", "write_choice_plot", "write_choice_xlsx"]
+__all__ = ["choice_rows", "choice_to_dict", "render_choice", "write_choice_plot", "write_choice_xlsx", "SHOWN"]
+
+SHOWN = 25
+"""Rows of the ranking shown unless ``--all``."""
 
 
 def _f(x) -> float | None:
@@ -21,11 +23,11 @@ def _f(x) -> float | None:
     return x if math.isfinite(x) else None
 
 
-def choice_rows(ch: Choice) -> list[dict]:
-    """One plain dict per candidate, best first (finite floats or None, no NaN)."""
-    p, spec = ch.pred, ch.spec
+def choice_rows(ch: Choice, limit: int | None = None) -> list[dict]:
+    """One plain dict per candidate, best first (finite floats or None, no NaN); only the first ``limit``."""
+    p, spec, sh = ch.pred, ch.spec, ch.shortest
     rows = []
-    for rank_no, i in enumerate(ch.order, start=1):
+    for rank_no, i in enumerate(ch.order[:limit], start=1):
         row = {
             "rank": rank_no, "camera": spec.cameras.name[ch.camera_index[i]], "lens": ch.lens_label[i],
             "price": _f(ch.price[i]), "meets": bool(p.meets[i]), "limiting": p.limiting[i],
@@ -38,19 +40,36 @@ def choice_rows(ch: Choice) -> list[dict]:
             "locking_px": _f(p.locking_px[i]), "noise_px_per_frame": _f(p.noise_px[i]),
             "dof_mm": _f(p.dof_mm[i]), "dof_ok": bool(p.dof_ok[i]), "blur_px": _f(p.blur_px[i]),
             "frame_rate_ok": bool(p.frame_rate_ok[i]),
+            "f_number": _f(p.f_number[i]), "bias_angle_deg": _f(p.bias_angle_deg[i]),
             "u_angle_deg": _f(p.u_angle_deg[i]), "U_angle_deg": _f(p.U_angle_deg[i]),
             "angle_components_deg": {c: _f(math.sqrt(p.variances_angle[k, i])) for k, c in enumerate(COMPONENTS)},
         }
         if p.u_gain_pct is not None:
             row["u_gain_pct"] = _f(p.u_gain_pct[i])
             row["U_gain_pct"] = _f(p.U_gain_pct[i])
+        if sh is not None:
+            row["shortest_distance_mm"] = _f(sh.working_distance_mm[i])
+            row["U_angle_deg_at_shortest"] = _f(sh.U_angle_deg[i])
+            row["meets_at_shortest"] = bool(sh.meets[i])
+            if sh.U_gain_pct is not None:
+                row["U_gain_pct_at_shortest"] = _f(sh.U_gain_pct[i])
         rows.append(row)
     return rows
 
 
-def choice_to_dict(ch: Choice, input_path: str = "") -> dict:
-    """Plain-dict summary for JSON."""
+def _confirmation(c) -> dict | None:
+    if c is None:
+        return None
+    return {"U_angle_deg": c.U_angle_deg, "U_gain_pct": c.U_gain_pct, "meets": c.meets, "margin_pct": c.margin_pct,
+            "result_methods": list(c.methods), "trials": c.trials,
+            "method": "the rig model (run_budget on the equivalent rig), as `thetabudget run` on --rig-out"}
+
+
+def choice_to_dict(ch: Choice, input_path: str = "", limit: int | None = SHOWN, confirmation=None,
+                   seed: object = None) -> dict:
+    """Plain-dict summary for JSON: the first ``limit`` rows (None: every one) and how many are not shown."""
     spec, p = ch.spec, ch.pred
+    rows = choice_rows(ch, limit)
     least = None
     if ch.least is not None:
         least = {k: (_f(v) if isinstance(v, float) else v) for k, v in vars(ch.least).items()}
@@ -58,36 +77,84 @@ def choice_to_dict(ch: Choice, input_path: str = "") -> dict:
         "title": spec.title, "input": input_path, "cameras_csv": spec.cameras.path,
         "goal": {k: v for k, v in spec.goal.items()}, "coverage_factor": p.k, "candidates": len(ch.order),
         "meeting": int(p.meets.sum()), "dof_need_mm": _f(p.dof_need_mm),
-        "frame_rate_needed_hz": _f(p.frame_rate_needed_hz), "least_pixels": least, "ranking": choice_rows(ch),
-        "method": "JCGM 100 linear propagation with closed-form first-order sensitivities, all candidates at once",
+        "frame_rate_needed_hz": _f(p.frame_rate_needed_hz), "least_pixels": least,
+        "meeting_at_shortest_distance": None if ch.shortest is None else int(ch.shortest.meets.sum()),
+        "shown": len(rows), "not_shown": len(ch.order) - len(rows), "ranking": rows,
+        "top_pick": {**rows[0], "rig_model": _confirmation(confirmation), "seed": seed} if rows else None,
+        "method": "surrogate: JCGM 100 linear propagation with closed-form first-order sensitivities, all candidates "
+                  "and settings at once (tested against the rig model); the top pick's rig_model block, where "
+                  "given, is the rig model itself",
     }
 
 
-def render_choice(ch: Choice, top: int = 25, width: int = 170) -> str:
-    """The ranking as a text table (rich), with the answers of the continuous model."""
-    from rich.console import Console
-    from rich.table import Table
+def _top_lines(ch: Choice, row: dict, confirmation) -> list[str]:
+    gain = "U_gain_pct" in row
+    what = f"U gain {row['U_gain_pct']:.3g} %" if gain and "gain_U_pct" in ch.spec.goal else \
+        f"U angle {row['U_angle_deg']:.3g}°"
+    lines = [f"top pick: {row['camera']} with {row['lens']} at {row['working_distance_mm']:.0f} mm, "
+             f"f/{row['f_number']:g}, exposure {row['exposure_ms']:.3g} ms: {what} (surrogate), margin "
+             f"{row['margin_pct']:+.1f} %, {'meets' if row['meets'] else 'does not meet'} the goal."]
+    if "U_angle_deg_at_shortest" in row:
+        short = f"U gain {row['U_gain_pct_at_shortest']:.3g} %" if gain and "gain_U_pct" in ch.spec.goal else \
+            f"U angle {row['U_angle_deg_at_shortest']:.3g}°"
+        lines.append(f"  at its shortest distance ({row['shortest_distance_mm']:.0f} mm, lens as listed) it would "
+                     f"give {short}.")
+    if confirmation is not None:
+        c = confirmation
+        g = f", U gain {c.U_gain_pct:.3g} %" if c.U_gain_pct is not None else ""
+        verdict = "meets" if c.meets else "DOES NOT MEET"
+        lines.append(f"  rig model (run_budget on the equivalent rig, as `thetabudget run`): U angle "
+                     f"{c.U_angle_deg:.3g}°{g}, margin {c.margin_pct:+.1f} %, {verdict} "
+                     f"the goal ({', '.join(sorted(set(c.methods)))} result).")
+    else:
+        lines.append("  the surrogate's figure; `--verify` runs the top pick through the rig model as `run` does, "
+                     "`--rig-out FILE` writes its rig file.")
+    return lines
 
+
+def _plain_table(cols: list[str], body: list[list[str]], left: set[str]) -> list[str]:
+    """A plain text table (user text printed verbatim; only the rows given are formatted)."""
+    widths = [max(len(c), *(len(r[j]) for r in body)) if body else len(c) for j, c in enumerate(cols)]
+
+    def line(cells):
+        return "  ".join(c.ljust(w) if cols[j] in left else c.rjust(w)
+                         for j, (c, w) in enumerate(zip(cells, widths, strict=True))).rstrip()
+
+    return [line(cols), "  ".join("-" * w for w in widths), *(line(r) for r in body)]
+
+
+def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirmation=None) -> str:
+    """The ranking as a text table (rich), the top pick with its margin, and the continuous model's answer.
+
+    Only the first ``top`` rows are built (None: every one); the title says how many are not shown.
+    ``width`` is kept for callers: the plain table is as wide as its cells.
+    """
     spec, p = ch.spec, ch.pred
     gain = p.u_gain_pct is not None
-    table = Table(title=f"{spec.title}: {len(ch.order)} camera × lens candidates, best first")
-    cols = ["#", "camera", "lens", "price", "D mm", "mm/px", "R px", "σ px", "lock px", "noise px",
-            "U angle °"] + (["U gain %"] if gain else []) + ["meets", "limited by"]
-    for col in cols:
-        table.add_column(col, justify="left" if col in ("camera", "lens", "limited by", "meets") else "right")
-    for row in choice_rows(ch)[:top]:
-        cells = [str(row["rank"]), row["camera"], row["lens"], f"{row['price']:g}",
-                 f"{row['working_distance_mm']:.0f}", f"{row['mm_per_px']:.4f}", f"{row['radius_px']:.0f}",
-                 f"{row['sigma_px']:.2f}", f"{row['locking_px']:.2g}", f"{row['noise_px_per_frame']:.2g}",
-                 f"{row['U_angle_deg']:.3g}"] + ([f"{row['U_gain_pct']:.3g}"] if gain else []) + \
-            ["yes" if row["meets"] else "no", row["limiting"]]
-        table.add_row(*cells)
-    # markup off: square brackets in a title or a camera name are the user's text, not style tags
-    con = Console(width=width, record=True, file=open(os.devnull, "w"), markup=False)  # noqa: SIM115
-    con.print(table)
-    lines = [con.export_text()]
+    rows = choice_rows(ch, top)
+    hidden = len(ch.order) - len(rows)
+    more = f": best {len(rows)} shown, {hidden} not shown (--all shows every one)" if hidden else ", all shown"
+    cols = ["#", "camera", "lens", "price", "D mm", "f/N", "t ms", "mm/px", "R px", "σ px", "U angle °"] + \
+        (["U gain %"] if gain else []) + ["U at shortest D", "margin %", "meets", "limited by"]
+    body = []
+    for row in rows:
+        at_short = row.get("U_gain_pct_at_shortest") if gain and "gain_U_pct" in spec.goal else \
+            row.get("U_angle_deg_at_shortest")
+        body.append([str(row["rank"]), row["camera"], row["lens"], f"{row['price']:g}",
+                     f"{row['working_distance_mm']:.0f}", f"{row['f_number']:g}", f"{row['exposure_ms']:.3g}",
+                     f"{row['mm_per_px']:.4f}", f"{row['radius_px']:.0f}", f"{row['sigma_px']:.2f}",
+                     f"{row['U_angle_deg']:.3g}"] + ([f"{row['U_gain_pct']:.3g}"] if gain else []) +
+                    ["—" if at_short is None else f"{at_short:.3g}", f"{row['margin_pct']:+.1f}",
+                     "yes" if row["meets"] else "no", row["limiting"]])
+    left = {"camera", "lens", "meets", "limited by"}
+    lines = [f"{spec.title}: {len(ch.order)} camera × lens candidates, best first{more}", "",
+             *_plain_table(cols, body, left), ""]
     goal = ", ".join(f"{k} = {v:g}" for k, v in spec.goal.items() if k in ("angle_U_deg", "gain_U_pct", "p"))
-    lines.append(f"goal: {goal} (k = {p.k:.3f}); {int(p.meets.sum())} of {len(ch.order)} candidates meet it.")
+    short = "" if ch.shortest is None else f" ({int(ch.shortest.meets.sum())} at their shortest distance)"
+    lines.append(f"goal: {goal} (k = {p.k:.3f}); {int(p.meets.sum())} of {len(ch.order)} candidates meet it at "
+                 f"their best setting{short}.")
+    if rows:
+        lines += _top_lines(ch, rows[0], confirmation)
     lines.append(f"depth of field needed: {p.dof_need_mm:.3g} mm (dial tilt and target height).")
     if p.frame_rate_needed_hz > 0:
         lines.append(f"moving pointer: at least {p.frame_rate_needed_hz:.3g} frames/s for the angle step, "
@@ -100,8 +167,9 @@ def render_choice(ch: Choice, top: int = 25, width: int = 170) -> str:
             lines.append(f"least pixels across the field that meet the goal: {lp.pixels:.0f} "
                          f"(pitch {lp.pitch_um:.3g} µm on a {spec.pixel_model['sensor_width_mm']:g} mm sensor; "
                          f"{lp.note}).")
-    lines.append("Tilt enters to first order only (off-axis pivot and perspective); the on-axis β²/4 term is "
-                 "second order: run the chosen rig with `thetabudget run` for the Monte Carlo check.")
+    lines.append("Each candidate's working distance is searched over the allowed range (and f-number and exposure "
+                 "where [search] lists them); U includes any known offset (rolling-shutter rows). Tilt enters the "
+                 "surrogate to first order only: the rig model (--verify, or run on --rig-out) has the rest.")
     return "\n".join(lines) + "\n"
 
 

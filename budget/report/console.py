@@ -92,6 +92,12 @@ def render_run(result: RunResult, width: int = 170) -> str:
                   f"{s.correlation_mc:+.3f} (Monte Carlo)")
         con.print(f"Non-linearity from measurement errors alone: mean {s.nonlinearity_mean_pct:.2g} % of span, "
                   f"95th percentile {s.nonlinearity_p95_pct:.2g} %")
+    from budget.report.targets import target_lines
+
+    if lines := target_lines(result):
+        con.print()
+        for line in lines:
+            con.print(line)
     if result.assumptions:
         con.print()
         con.print("Assumptions (values the tool supplied because the file left them out):")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+from budget.report.targets import claim_dict, decision_dict, decision_for, goal_dict, goal_for
 from budget.results import OutputBudget, RunResult, finite_or_none
 
 __all__ = ["run_to_dict", "run_to_json", "output_to_dict"]
@@ -54,6 +55,7 @@ def run_to_dict(result: RunResult) -> dict:
         for c in d["components"]:
             c["u_deg"] = c.pop("u")
             c["monte_carlo_u_deg"] = c.pop("monte_carlo_u")
+        _targets(d, result, ob.name)
         angles.append(d)
     doc: dict = {
         "tool": {"name": "thetabudget", "version": result.tool_version},
@@ -80,8 +82,21 @@ def run_to_dict(result: RunResult) -> dict:
         block["nonlinearity_percent_span_p95"] = s.nonlinearity_p95_pct
         block["chi2"] = s.chi2
         block["dof"] = s.dof
+        _targets(block, result, "gain")
         doc["gain"] = block
+    if result.decisions:
+        doc["decision_rule"] = result.decision_rule
+    if result.range_claim is not None:
+        doc["range_claim"] = claim_dict(result)
     return doc
+
+
+def _targets(block: dict, result: RunResult, name: str) -> None:
+    """The output's goal verdict and conformity decision, where the file gives them."""
+    if (g := goal_for(result, name)) is not None:
+        block["goal"] = goal_dict(g)
+    if (d := decision_for(result, name)) is not None:
+        block["decision"] = decision_dict(d)
 
 
 def _seed(seed: object) -> object:

@@ -113,6 +113,11 @@ def render_markdown(result: RunResult) -> str:
     for ob in result.outputs:
         lines.append(output_markdown(ob))
     lines += _sweep(result)
+    from budget.report.targets import target_lines
+
+    if targets := target_lines(result):
+        lines += ["## Targets, decisions and the claim for the range", "",
+                  *(f"- {md_text(t.strip())}" for t in targets), ""]
     if result.assumptions:
         lines += ["## Assumptions", "", "Values the tool supplied because the input file left them out:", ""]
         lines += [f"- `{md_text(a.field)}` = {md_text(repr(a.value))}: {md_text(a.reason)}" for a in result.assumptions]

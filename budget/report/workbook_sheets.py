@@ -69,6 +69,7 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
     number(ws, r, 2, result.p, FMT["p"])
     r += 2
     r = _sweep_rows(ws, r, result)
+    r = _targets(ws, r, result)
     r = _assumptions(ws, r, result)
     r = _components(ws, r, result)
     _warnings(ws, r, result)
@@ -118,6 +119,20 @@ def _sweep_rows(ws, r: int, result: RunResult) -> int:
         else:
             number(ws, r, 2, value, fmt)
     return r + 2
+
+
+def _targets(ws, r: int, result: RunResult) -> int:
+    """Goal verdicts, conformity decisions and the range claim, one row each; returns the next free row."""
+    from budget.report.targets import target_rows
+
+    rows = target_rows(result)
+    if not rows:
+        return r
+    title(ws, r, "Targets, decisions and the claim for the range", 2)
+    for i, (label, what) in enumerate(rows, start=1):
+        text(ws, r + i, 1, label)
+        text(ws, r + i, 2, what).alignment = WRAP
+    return r + len(rows) + 2
 
 
 def _assumptions(ws, r: int, result: RunResult) -> int:

@@ -13,6 +13,7 @@ from budget.imaging import optics
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
     "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "Assumption", "point_labels",
+    "Goal", "Conformity", "RangeClaimForm",
 ]
 
 
@@ -156,6 +157,35 @@ class Data:
 
 
 @dataclass(frozen=True)
+class Goal:
+    """Targets for the expanded uncertainties (``[goal]``); ``p`` None: the run's coverage probability."""
+
+    angle_U_deg: float | None = None
+    gain_U_pct: float | None = None
+    gain_U_deg_per_v: float | None = None
+    p: float | None = None
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Conformity:
+    """Tolerances and the decision rule for conformity decisions (``[conformity]``, JCGM 106)."""
+
+    rule: str = "simple"  # "simple" acceptance or "guarded" acceptance (guard band w = U)
+    angle_tolerance_deg: float | None = None
+    gain_tolerance_pct: float | None = None
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class RangeClaimForm:
+    """How the claim across the range is stated (``[range_claim]``): ``linear`` a + b·|θ| or ``table``."""
+
+    form: str = "linear"
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
 class Assumption:
     """A value the tool supplied because the file left the field out, and why it is fair."""
 
@@ -183,6 +213,9 @@ class RigDescription:
     data: Data | None = None
     raw: dict = field(default_factory=dict, compare=False, repr=False)
     assumptions: tuple[Assumption, ...] = ()
+    goal: Goal | None = None
+    conformity: Conformity | None = None
+    range_claim: RangeClaimForm | None = None
 
     # ---- derived optics (pinhole with a thin lens focused at the working distance)
     @property
