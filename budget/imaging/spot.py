@@ -34,7 +34,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from budget.errors import field_error
-from budget.imaging.special import erf
+from budget.imaging.special import erf, j1
 
 __all__ = [
     "INTEGER_HALF_WIDTH_PX",
@@ -51,48 +51,6 @@ __all__ = [
 ]
 
 _PIXELS = ("integrated", "sampled")
-_SMALL_ERF = 4096
-"""Arrays up to this size take erf and J1 from plain Python and numpy, larger ones from
-scipy.special (imported only then)."""
-
-
-def erf(x: ArrayLike) -> np.ndarray:
-    """The error function, elementwise.
-
-    A rig's own locator terms need a few hundred values: they come from ``math.erf`` (C99),
-    so a budget run does not import scipy (about a second of start-up); a table of camera
-    candidates needs millions, which come from ``scipy.special.erf``, imported then. Both
-    are accurate to about one ulp.
-    """
-    a = np.asarray(x, dtype=float)
-    if a.size <= _SMALL_ERF:
-        return np.array([math.erf(v) for v in a.ravel().tolist()]).reshape(a.shape)
-    from scipy.special import erf as erf_ufunc
-
-    return erf_ufunc(a)
-
-
-def bessel_j1(x: ArrayLike) -> np.ndarray:
-    """The Bessel function J1, elementwise.
-
-    Small arrays: Bessel's integral J1(x) = (1/2π)∫ cos(θ − x sin θ) dθ over one period
-    (DLMF 10.9.2) by the trapezoidal rule, which converges geometrically for a periodic
-    analytic integrand (Trefethen and Weideman 2014, SIAM Review 56, 385-458); its error is
-    the aliased J_{M−1}(x), negligible once the M nodes exceed |x| by 20·|x|^(1/3) + 30.
-    Large arrays: ``scipy.special.j1``, imported then (as :func:`erf`).
-    """
-    a = np.asarray(x, dtype=float)
-    if a.size > _SMALL_ERF:
-        from scipy.special import j1
-
-        return j1(a)
-    if a.size == 0:
-        return a.copy()
-    big = float(np.max(np.abs(a)))
-    m = int(math.ceil(big + 20.0 * (big + 1.0) ** (1.0 / 3.0))) + 30
-    theta = 2.0 * np.pi * np.arange(m) / m
-    flat = a.reshape(-1, 1)
-    return (np.cos(theta - flat * np.sin(theta)).sum(axis=1) / m).reshape(a.shape)
 
 
 def _check_positive(value, field: str, where: str) -> np.ndarray:
@@ -353,7 +311,7 @@ def disk_locking_amplitude(diameter_px: ArrayLike, blur_sigma_px: ArrayLike) -> 
     d = _check_positive(diameter_px, "diameter_px", "disk_locking_amplitude")
     b = _check_non_negative(blur_sigma_px, "blur_sigma_px", "disk_locking_amplitude")
     x = np.pi * d
-    return np.abs(2 * bessel_j1(x) / x) * np.exp(-2 * np.pi**2 * b**2) / np.pi
+    return np.abs(2 * j1(x) / x) * np.exp(-2 * np.pi**2 * b**2) / np.pi
 
 
 def window_truncation_max(sigma_px: np.ndarray, window_px: np.ndarray, n_delta: int = 51) -> np.ndarray:
