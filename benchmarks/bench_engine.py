@@ -2,7 +2,7 @@
 
 Run by hand (never as a timed test)::
 
-    python benchmarks/bench_engine.py                 # 10⁶ trials, best of 5, then 10⁷ memory
+    python benchmarks/bench_engine.py                 # 10⁶ trials, best of 7, then 10⁷ memory
     python benchmarks/bench_engine.py --skip-memory
 
 Models: the mass calibration of JCGM 101:2008 9.3,
@@ -25,10 +25,10 @@ trials under 500 MB.
 from __future__ import annotations
 
 import argparse
+import inspect
 import json
 import math
 import platform
-import resource
 import subprocess
 import sys
 import time
@@ -104,40 +104,63 @@ def run_plain(which: str, trials: int, seed: int) -> tuple:
 
 
 def best_of(fns, repeat: int) -> list[tuple[float, tuple]]:
-    """Best wall time of each function over ``repeat`` rounds.
+    """Best CPU time of each function over ``repeat`` rounds.
 
-    The functions alternate within each round, so a burst of load from other processes on
-    the shared machine hits both sides instead of biasing the ratio.
+    CPU time (both sides run on one thread), not wall time: on the shared machine a side can
+    wait for a core for as long as it computes. The functions alternate within each round,
+    so a burst of load from other processes hits both sides instead of biasing the ratio.
     """
     times: list[list[float]] = [[] for _ in fns]
     outs: list[tuple] = [() for _ in fns]
     for i in range(repeat):
         for j, fn in enumerate(fns):
-            t0 = time.perf_counter()
+            t0 = time.process_time()
             outs[j] = fn(1000 + i)
-            times[j].append(time.perf_counter() - t0)
+            times[j].append(time.process_time() - t0)
     return [(min(t), o) for t, o in zip(times, outs, strict=True)]
+
+
+def peak_mib() -> float:
+    """This process's own peak resident set size, MiB (VmHWM).
+
+    ru_maxrss would also count the parent's peak, which Linux carries across fork and exec.
+    """
+    try:
+        with open("/proc/self/status") as f:
+            return next(int(line.split()[1]) for line in f if line.startswith("VmHWM:")) / 1024
+    except (OSError, StopIteration):
+        import resource
+
+        return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+PEAK = inspect.getsource(peak_mib)
+"""The same function, as source for the child processes that import nothing of the package."""
 
 
 def child_memory(trials: int, which: str) -> None:
     """Run one Monte Carlo of the mass model in this (child) process; print its peak RSS as JSON."""
-    base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    base = peak_mib()
     t0 = time.perf_counter()
     out = (run_engine if which == "engine" else run_plain)("mass", trials, 7)
     elapsed = time.perf_counter() - t0
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
-    print(json.dumps({"which": which, "trials": trials, "baseline_mib": base / 1024,
-                      "peak_mib": peak / 1024, "seconds": elapsed, "u": out[1]}))
+    peak = peak_mib()
+    print(json.dumps({"which": which, "trials": trials, "baseline_mib": base,
+                      "peak_mib": peak, "seconds": elapsed, "u": out[1]}))
 
 
-def child_floor(trials: int, outputs: int) -> None:
-    """The floor of an exact run: ``outputs`` arrays of ``trials`` values, each sorted."""
-    rng = np.random.default_rng(7)
-    kept = [rng.standard_normal(trials) for _ in range(outputs)]
-    for y in kept:
-        y.sort()
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    print(json.dumps({"peak_mib": peak / 1024}))
+FLOOR = PEAK + """
+import json, sys
+import numpy as np
+trials, outputs = int(sys.argv[1]), int(sys.argv[2])
+rng = np.random.default_rng(7)
+kept = [rng.standard_normal(trials) for _ in range(outputs)]
+for y in kept:
+    y.sort()
+print(json.dumps({"peak_mib": peak_mib()}))
+"""
+"""The floor of an exact run, in a process that imports only numpy: ``outputs`` arrays of
+``trials`` values, each sorted in place."""
 
 
 def _child(args: list[str]) -> dict:
@@ -148,11 +171,11 @@ def _child(args: list[str]) -> dict:
 
 def _run_peak(trials: int) -> tuple[float, float]:
     """Peak RSS (MiB) and wall time of ``thetabudget run`` of the four-angle template."""
-    code = ("import resource, sys, contextlib, io; from budget.cli import main\n"
+    code = (PEAK + "import sys, contextlib, io; from budget.cli import main\n"
             "with contextlib.redirect_stdout(io.StringIO()):\n"
             f"    rc = main(['run', {str(ROOT / 'templates' / 'gauge_static.toml')!r}, '--quiet', "
             f"'--seed', '1', '--trials', '{trials}'])\n"
-            "print(rc, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024)")
+            "print(rc, peak_mib())")
     t0 = time.perf_counter()
     done = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
     rc, peak = done.stdout.split()
@@ -163,15 +186,11 @@ def _run_peak(trials: int) -> tuple[float, float]:
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--trials", type=int, default=10**6)
-    ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--repeat", type=int, default=7)
     ap.add_argument("--memory-trials", type=int, default=10**7)
     ap.add_argument("--skip-memory", action="store_true")
-    ap.add_argument("--child", choices=["engine", "plain", "floor"], help=argparse.SUPPRESS)
-    ap.add_argument("--outputs", type=int, default=4, help=argparse.SUPPRESS)
+    ap.add_argument("--child", choices=["engine", "plain"], help=argparse.SUPPRESS)
     args = ap.parse_args()
-    if args.child == "floor":
-        child_floor(args.memory_trials, args.outputs)
-        return
     if args.child:
         child_memory(args.memory_trials, args.child)
         return
@@ -184,7 +203,7 @@ def main() -> None:
         (t_engine, e), (t_plain, b) = best_of(
             [lambda s, w=which: run_engine(w, args.trials, s), lambda s, w=which: run_plain(w, args.trials, s)],
             args.repeat)
-        print(f"{title}, M = {args.trials:.0e} trials, best of {args.repeat}")
+        print(f"{title}, M = {args.trials:.0e} trials, best CPU time of {args.repeat}")
         for name, (mean, sd, sym, short) in (("engine", e), ("plain", b)):
             print(f"  {name:6s} mean {mean:.4f}  u {sd:.4f}  symmetric [{sym[0]:.4f}, {sym[1]:.4f}]"
                   f"  shortest [{short[0]:.4f}, {short[1]:.4f}]")
@@ -201,7 +220,8 @@ def main() -> None:
             r = _child(["--child", which, "--memory-trials", str(m)])
             print(f"peak RSS, mass model, {which}, M = {m:.0e}: {r['peak_mib']:.0f} MiB "
                   f"(after imports {r['baseline_mib']:.0f} MiB; {r['seconds']:.1f} s)")
-        floor = _child(["--child", "floor", "--memory-trials", str(m), "--outputs", "4"])["peak_mib"]
+        done = subprocess.run([sys.executable, "-c", FLOOR, str(m), "4"], check=True, capture_output=True, text=True)
+        floor = json.loads(done.stdout)["peak_mib"]
         peak, wall = _run_peak(m)
         print(f"peak RSS, thetabudget run gauge_static.toml --trials {m:.0e}: {peak:.0f} MiB "
               f"= {peak * 1.048576:.0f} MB ({wall:.0f} s; aim < 500 MB); plain floor (4 outputs "

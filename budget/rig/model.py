@@ -22,14 +22,10 @@ __all__ = ["VirtualRig"]
 
 
 def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
-    """``arr[row] += kw[key]·scale`` for every (row, key) present, in one stacked addition."""
-    present = [(row, key) for row, key in keys if key in kw]
-    if not present:
-        return
-    add = np.stack([kw[key] for _, key in present])
-    if scale != 1.0:
-        add *= scale
-    arr[[row for row, _ in present]] += add
+    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous)."""
+    for row, key in keys:
+        if key in kw:
+            arr[row] += kw[key] * scale if scale != 1.0 else kw[key]
 
 
 class VirtualRig:
