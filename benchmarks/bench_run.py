@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import cProfile
+import inspect
 import platform
 import pstats
 import resource
@@ -44,24 +45,27 @@ from budget.rig.budget import component_mc_u, run_budget  # noqa: E402
 from budget.rig.model import VirtualRig  # noqa: E402
 from tests.rigdoc import merge_doc  # noqa: E402
 
-FLOOR = """
-import sys
-import numpy as np
-n_normal, n_uniform, n_out, m = (int(a) for a in sys.argv[1:5])
-rng = np.random.default_rng(1)
-outputs = [np.empty(m) for _ in range(n_out)]
-for s in range(0, m, 8192):  # blocks of trials, so that the draws stay in the cache
-    n = min(8192, m - s)
-    z = rng.standard_normal((n_normal, n))
-    rng.random((n_uniform, n))
-    for i, y in enumerate(outputs):
-        y[s:s + n] = z[i % n_normal]
-for y in outputs:
-    y.sort()
-"""
-"""The floor of a run's own Monte Carlo, in a process that imports only numpy: the same
-variates drawn (in blocks of trials, the fastest plain way), one array of the trials' values
-per output, each sorted."""
+
+def plain_floor(n_normal: int, n_uniform: int, n_out: int, m: int) -> None:
+    """The floor of a run's own Monte Carlo in plain numpy: the same variates drawn (in blocks of
+    trials, so that they stay in the cache: the fastest plain way), one array of the trials'
+    values per output, each sorted."""
+    import numpy as np
+
+    rng = np.random.default_rng(1)
+    outputs = [np.empty(m) for _ in range(n_out)]
+    for s in range(0, m, 8192):
+        n = min(8192, m - s)
+        z = rng.standard_normal((n_normal, n))
+        rng.random((n_uniform, n))
+        for i, y in enumerate(outputs):
+            y[s:s + n] = z[i % n_normal]
+    for y in outputs:
+        y.sort()
+
+
+FLOOR = inspect.getsource(plain_floor) + "import sys\nplain_floor(*(int(a) for a in sys.argv[1:5]))\n"
+"""The floor as a program for a fresh process that imports only numpy."""
 
 
 def _best(fn, repeat: int) -> tuple[float, object]:
@@ -80,19 +84,10 @@ def _kinds(inputs: dict) -> tuple[int, int]:
 
 
 def floor_in_process(inputs: dict, n_out: int, trials: int) -> float:
-    """CPU seconds of the plain draws and sorts (the floor, without interpreter start)."""
+    """CPU seconds of :func:`plain_floor` in this process (without interpreter start)."""
     normal, uniform = _kinds(inputs)
     t0 = time.process_time()
-    rng = np.random.default_rng(1)
-    outputs = [np.empty(trials) for _ in range(n_out)]
-    for s in range(0, trials, 8192):  # as FLOOR
-        n = min(8192, trials - s)
-        z = rng.standard_normal((normal, n))
-        rng.random((uniform, n))
-        for i, y in enumerate(outputs):
-            y[s:s + n] = z[i % normal]
-    for y in outputs:
-        y.sort()
+    plain_floor(normal, uniform, n_out, trials)
     return time.process_time() - t0
 
 
