@@ -325,9 +325,29 @@ def monte_carlo_u(
 ) -> dict[str, float]:
     """Standard uncertainty of every output from ``trials`` Monte Carlo trials, and nothing else.
 
+    Parameters
+    ----------
+    model : callable
+        Vectorized model, as for :func:`monte_carlo`.
+    inputs : mapping
+        Input names to :class:`Distribution` or :class:`InputQuantity`.
+    trials : int
+        Number of trials M (at least 2).
+    rng : numpy.random.Generator
+        Source of random numbers.
+    correlation : mapping, optional
+        ``{(a, b): r}`` between Normal inputs.
+
+    Returns
+    -------
+    dict
+        ``{output name: u}`` (the model's single output is named ``"y"``).
+
+    Notes
+    -----
     Same sampling as :func:`monte_carlo` with fixed trials (the same draws from the same
     generator state), but no output value is kept and nothing is sorted: for figures that
-    need only u(y) (JCGM 101 7.6), such as one budget component at a time.
+    need only u(y) = s with M − 1 (JCGM 101 7.6), such as one budget component at a time.
     """
     q = as_quantities(inputs)
     if not isinstance(rng, np.random.Generator):

@@ -131,6 +131,23 @@ def t_quantile(p: float, nu: float) -> float:
     This is the two-sided quantile t_p(ν) of JCGM 100 G.3.4 (Table G.2), the upper
     (1 + p)/2 quantile of the distribution.
 
+    Parameters
+    ----------
+    p : float
+        Coverage probability, 0 < p < 1.
+    nu : float
+        Degrees of freedom, > 0 (``math.inf`` for the normal distribution).
+
+    Returns
+    -------
+    float
+        t_p(ν), to about 1e-12 relative.
+
+    Raises
+    ------
+    ValueError
+        For p outside (0, 1) or ν ≤ 0 (callers validate p first, :func:`lpu.check_p`).
+
     Notes
     -----
     ν = ∞: Φ⁻¹((1 + p)/2) (see :func:`_normal_two_sided`); ν = 1 and ν = 2 in closed form (tan(πp/2) and p√(2/(1 − p²)),
