@@ -137,14 +137,25 @@ def _add_camera_commands(sub) -> None:
     ver.add_argument("--seed", type=_seed, default=None)
     ver.add_argument("--json", action="store_true")
 
-    fr = sub.add_parser("frames", help="locate a still target in frames and write the per-frame CSV")
-    fr.add_argument("paths", type=Path, nargs="+")
-    fr.add_argument("--roi", required=True, help="x,y,w,h in pixels")
+    fr = sub.add_parser("frames", help="locate a still target in many positions' frames and write one per-frame CSV")
+    fr.add_argument("--position", nargs="+", action="append", metavar=("LABEL", "IMAGE"),
+                    help="a position's label (Z, P1, ... as in the rig) and its frames in acquisition order; repeat")
+    fr.add_argument("--roi", help="x,y,w,h in pixels for every position (default: find each position's target)")
+    fr.add_argument("--window", type=int, default=None,
+                    help="locator window, odd px, centred on the target found (default 9: give your rig's "
+                         "[locator] window_px); with --roi, a window around the brightest pixel in it "
+                         "(default: the whole ROI)")
     fr.add_argument("--method", choices=("com", "gauss", "threshold"), default="com")
-    fr.add_argument("--position", default="P1", help="position id written to the CSV")
-    fr.add_argument("--out", type=Path)
+    fr.add_argument("--out", type=Path, help="the CSV to write (one row per frame)")
     fr.add_argument("--force", action="store_true")
     fr.add_argument("--json", action="store_true")
+
+    ren = sub.add_parser("render", help="write synthetic frames of a rig for its zero image and positions")
+    ren.add_argument("file", type=Path)
+    ren.add_argument("outdir", type=Path)
+    ren.add_argument("--frames", type=_positive_int, default=None,
+                     help="frames per position (default: [frames] per_reading, at least 4)")
+    ren.add_argument("--seed", type=_seed, default=None)
 
 
 def _add_output_options(p: argparse.ArgumentParser) -> None:
@@ -158,7 +169,7 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
 
 _MODULES = {
     "run": "run", "check": "check", "new": "new", "selftest": "selftest", "predict": "predict",
-    "choose": "choose", "verify-locator": "verify", "frames": "frames", "advise": "advise",
+    "choose": "choose", "verify-locator": "verify", "frames": "frames", "advise": "advise", "render": "render",
 }
 """Sub-command name -> module of :mod:`budget.commands` that carries it out."""
 

@@ -10,7 +10,7 @@ import numpy as np
 from budget.propagation import InputQuantity, LinearResult, MonteCarloResult, Validation
 
 __all__ = ["ComponentLine", "OutputBudget", "GainSummary", "RunResult", "finite_or_none", "GoalVerdict",
-           "Decision", "RangeClaim"]
+           "Decision", "RangeClaim", "DataFile", "MeasuredPoint", "MeasuredDataSummary", "LackOfFit", "ReferenceCheck"]
 
 
 def finite_or_none(x: float | None) -> float | None:
@@ -47,6 +47,19 @@ class ComponentLine:
 
 
 @dataclass(frozen=True)
+class ReferenceCheck:
+    """A measured angle against a reference angle: E_n = (y − y_ref)/√(U² + U_ref²) (ISO 13528, ISO/IEC 17043)."""
+
+    angle_deg: float
+    U_deg: float
+    measured_deg: float
+    measured_U_deg: float
+    E_n: float
+    ok: bool
+    source: str
+
+
+@dataclass(frozen=True)
 class OutputBudget:
     """The full budget of one output (an angle position, the gain, the intercept)."""
 
@@ -63,6 +76,25 @@ class OutputBudget:
     mc_statement: str
     method: str  # "linear" when validated, "monte carlo" otherwise
     warnings: tuple[str, ...]
+    reference: ReferenceCheck | None = None
+
+
+@dataclass(frozen=True)
+class LackOfFit:
+    """χ² of a sweep's measured angles about their straight line, and what was done about a misfit.
+
+    ``misfit_deg`` is the per-point discrepancy s_d carried into u(K), the intercept and
+    predictions when the fit is significantly bad (0 otherwise); ``method`` names how.
+    """
+
+    chi2: float
+    dof: int
+    p_value: float
+    critical: float
+    significant: bool
+    misfit_deg: float
+    method: str
+    verdict: str
 
 
 @dataclass(frozen=True)
@@ -77,6 +109,53 @@ class GainSummary:
     chi2: float | None
     dof: int
     set_points_v: tuple[float, ...]
+    lack_of_fit: LackOfFit | None = None
+    measured_deg: tuple[float, ...] | None = None
+
+
+@dataclass(frozen=True)
+class DataFile:
+    """A file the measured data rest on: the data CSV, or an image named in it."""
+
+    path: str
+    sha256: str
+    kind: str  # "data" or "image"
+    note: str = ""
+
+
+@dataclass(frozen=True)
+class MeasuredPoint:
+    """One located point's frames (image coordinates, px), as the reports tabulate them."""
+
+    label: str
+    n: int
+    n_eff: float
+    dof: float
+    mean_x_px: float
+    mean_y_px: float
+    sd_x_px: float
+    sd_y_px: float
+    r_xy: float
+    lag1: float
+    autocorrelated: bool
+    drift_px: float
+    drift_p: float
+    drifting: bool
+    scatter_ratio: float | None
+    images: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class MeasuredDataSummary:
+    """The measured data of an evaluation run: its files, a table per point, the scatter check in words."""
+
+    files: tuple[DataFile, ...]
+    points: tuple[MeasuredPoint, ...]
+    scatter_check: str
+    scatter_ratio: float | None
+    scatter_dof: float | None
+    scatter_interval: tuple[float, float] | None
+    angle_tolerance_deg: float
 
 
 @dataclass(frozen=True)
@@ -152,6 +231,7 @@ class RunResult:
     joint: dict[str, np.ndarray] = field(repr=False, default_factory=dict)
     assumptions: tuple = ()  # rig.description.Assumption: values the tool supplied, with reasons
     mode: str = "design"  # "design": outputs are what the rig would read; "evaluation": true values
+    data: MeasuredDataSummary | None = None
     goals: tuple[GoalVerdict, ...] = ()
     decisions: tuple[Decision, ...] = ()
     decision_rule: str = ""  # the rule in words (ISO/IEC 17025 7.8.6), when [conformity] is given

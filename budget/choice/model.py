@@ -242,7 +242,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     s_piv = g2[:, geo.pivot].sum(axis=1)[:, None]
     inv_r2 = 1.0 / r_px**2
     beta = math.radians(sc["tilt_bound_deg"])
-    ox, oy = sc["pivot_offset_x_mm"], sc["pivot_offset_y_mm"]
+    ox, oy = sc["pivot_offset_x_mm"], -sc["pivot_offset_y_mm"]  # the scene's y offset is down the image; here y is up
     dtilt = (geo.tilt_r[:, :, None] * (sc["pointer_radius_mm"] / dist)
              + (geo.tilt_ox[:, :, None] * ox + geo.tilt_oy[:, :, None] * oy) / dist)  # (O, 2, C)
     var_skew = beta**2 / 3.0 * np.sum(dtilt**2, axis=1)
@@ -305,19 +305,19 @@ def _rolling_offsets(spec: ChooseSpec, geo: PointGradients, cand: Candidates, m:
     Notes
     -----
     As the virtual rig (:meth:`budget.rig.model.VirtualRig._timing_deg`): reading j is taken
-    (H/2 − y_j)·t_row after the top row, y_j = (R sin φ_j + o_y)·m/pitch its image row from the
-    principal point (pinhole, target on the dial), so its angle is off by ω·delay; the gain's offset
-    is Σ w_j·offset_j with the OLS weights of the sweep [derived].
+    ((H − 1)/2 − y_j)·t_row after the top row, y_j = (R sin φ_j − o_y)·m/pitch its height above the
+    principal point (pinhole, target on the dial; o_y is down the image), so its angle is off by
+    ω·delay; the gain's offset is Σ w_j·offset_j with the OLS weights of the sweep [derived].
     """
     rate = spec.motion["rate_deg_per_s"]
     n_read = geo.read_dial_rad.size
     out = np.zeros((len(geo.outputs), m.size))
     if rate == 0 or not np.any(cand.rolling):
         return out
-    y = ((spec.scene["pointer_radius_mm"] * np.sin(geo.read_dial_rad))[:, None] + spec.scene["pivot_offset_y_mm"]) \
+    y = ((spec.scene["pointer_radius_mm"] * np.sin(geo.read_dial_rad))[:, None] - spec.scene["pivot_offset_y_mm"]) \
         * (m / (cand.pitch_um * 1e-3))[None, :]
     t_row = 1.0 / (cand.max_frame_rate_hz * cand.pixels_y)
-    off = np.where(cand.rolling, rate * (0.5 * cand.pixels_y - y) * t_row, 0.0)  # (n_read, C)
+    off = np.where(cand.rolling, rate * (0.5 * (cand.pixels_y - 1) - y) * t_row, 0.0)  # (n_read, C)
     out[:n_read] = off
     if geo.is_gain.any():
         out[-1] = geo.gain_weights @ off

@@ -37,7 +37,12 @@ def execute(args: argparse.Namespace) -> int:
         print("assumptions (values the tool supplied because the file left them out):")
         for a in rig.assumptions:
             print(f"  {a.field} = {a.value!r}: {a.reason}")
-    for note in lm.notes:
+    if ev.data is not None:
+        print(f"measured data: {len(ev.data.points)} located points from "
+              f"{sum(f.kind == 'data' for f in ev.data.files)} data file(s) naming "
+              f"{sum(f.kind == 'image' for f in ev.data.files)} image(s)")
+        print(f"  {ev.data.scatter_check}")
+    for note in (*lm.notes, *ev.warnings):
         print(f"! {note}")
     return 0
 

@@ -13,6 +13,7 @@ STARTERS = {
     "gauge": "gauge_static.toml",
     "sweep": "gain_sweep.toml",
     "moving": "moving_pointer.toml",
+    "bench": "bench_sweep.toml",
 }
 """Kinds of starter rig file and the template each one copies."""
 KINDS = {**STARTERS, "choose": "choose_cameras.toml"}

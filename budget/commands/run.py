@@ -28,8 +28,7 @@ def evaluate_rig_file(args: argparse.Namespace, quiet: bool, claim: bool = False
     ev = load_evaluation(rig, read_rig_data(rig))
     prog, cb = progress_bar(not quiet)
     rng = make_rng(args.seed)
-    kwargs = dict(rng=rng, p=run_p(args.p, rig), trials=args.trials, input_path=args.file,
-                  type_a=ev.type_a, measured_deg=ev.measured_deg)
+    kwargs = dict(rng=rng, p=run_p(args.p, rig), trials=args.trials, input_path=args.file, evaluation=ev)
     if prog is not None:
         with prog:
             result = run_budget(ev.rig, progress=cb, **kwargs)

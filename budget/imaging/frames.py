@@ -1,7 +1,9 @@
-"""Real frames of a still target: read, locate, summarize (Type A), write per-frame CSV.
+"""Real frames of a still target: read, find, locate, summarize (Type A).
 
-Pixel convention: the centre of pixel ``(i, j)`` is at ``x = j``, ``y = i`` in
-full-image coordinates (as in :mod:`budget.imaging.locate`).
+Image coordinates, as image files store pixels: x to the right along a row, y down along a column,
+in px; the centre of pixel ``(i, j)`` (row i, column j) is at ``x = j``, ``y = i``, so the origin is
+the centre of the top-left pixel (as in :mod:`budget.imaging.locate` and the whole package).
+Many positions at once, their CSV and the files' SHA-256: :mod:`budget.imaging.frame_sets`.
 """
 
 from __future__ import annotations
@@ -13,17 +15,17 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 
 import numpy as np
-from scipy import stats
+from scipy import ndimage
 
 from budget.errors import BudgetInputError, field_error
 from budget.imaging.locate import centre_of_mass, gaussian_fit, threshold_centroid
+from budget.propagation.type_a import MIN_OBSERVATIONS, type_a_series
 
-__all__ = ["FramesResult", "check_position_label", "frames_csv_text", "locate_frames", "read_frame"]
+__all__ = ["FramesResult", "check_position_label", "find_target_roi", "locate_frames", "read_frame"]
 
 _METHODS = ("com", "gauss", "threshold")
 #: A target must stand this many robust standard deviations above the ROI border.
 DETECTION_MARGIN_SD = 5.0
-_CSV_COLUMNS = "position,frame,x_px,y_px"
 
 
 def _read_png(path: Path) -> np.ndarray:
@@ -112,11 +114,15 @@ class FramesResult:
     mean_x_px, mean_y_px, sd_x_px, sd_y_px, se_x_px, se_y_px : float
         Mean, sample standard deviation (n - 1) and standard error of the mean.
     drift_x_px, drift_y_px : float
-        Mean of the second half minus mean of the first half.
+        Drift over the series: least-squares slope against the frame index times (n − 1).
     drift_p_x, drift_p_y : float
-        Two-sided p-values of Welch's t-test between the halves (NaN if n < 4).
+        Two-sided p-values of the slopes (t test, n − 2 dof; NaN if n < 4).
     drift_verdict : str
-        The drift check in words.
+        The drift and autocorrelation checks in words.
+    n_eff : float
+        Effective number of independent frames (n unless successive frames are correlated).
+    lag1 : float
+        Largest lag-1 autocorrelation of the two axes (NaN if n < 4).
     """
 
     paths: tuple[str, ...]
@@ -136,10 +142,17 @@ class FramesResult:
     drift_p_x: float
     drift_p_y: float
     drift_verdict: str
+    n_eff: float = math.nan
+    lag1: float = math.nan
+    image_kind: str = ""
 
     def as_dict(self) -> dict:
         """Plain-dict summary for JSON."""
         return asdict(self)
+
+
+def _kind(frame: np.ndarray) -> str:
+    return f"{frame.shape[1]} x {frame.shape[0]} px, {8 * frame.dtype.itemsize}-bit"
 
 
 def _check_roi(roi, shape, path) -> tuple[int, int, int, int]:
@@ -175,17 +188,51 @@ def _check_target(crop: np.ndarray, path) -> None:
             "locate_frames")
 
 
-def _drift(v: np.ndarray) -> tuple[float, float]:
-    half = v.size // 2
-    first, second = v[:half], v[v.size - half:]
-    d = float(second.mean() - first.mean())
-    if first.std() == 0 and second.std() == 0:
-        return d, (1.0 if d == 0 else 0.0)
-    return d, float(stats.ttest_ind(second, first, equal_var=False).pvalue)
+def find_target_roi(stack: np.ndarray, window_px: int, where: str = "frames") -> tuple[int, int, int, int]:
+    """A ``window_px`` square ROI centred on the brightest compact spot of a stack of frames.
+
+    Notes
+    -----
+    The frames' mean is smoothed by a 3 × 3 box (scipy.ndimage.uniform_filter) before its
+    maximum is taken, so a single hot pixel (diluted ninefold) loses against a spot spread over a
+    few pixels (common practice). The window is fixed for every frame of the position, so the
+    locator never changes its pixels from frame to frame.
+    """
+    if not (isinstance(window_px, int) and window_px >= 3 and window_px % 2 == 1):
+        raise field_error("window_px", "an odd integer >= 3", window_px, where)
+    mean = ndimage.uniform_filter(np.asarray(stack, dtype=float).mean(axis=0), size=3, mode="nearest")
+    i, j = np.unravel_index(int(np.argmax(mean)), mean.shape)
+    h = window_px // 2
+    x, y = int(j) - h, int(i) - h
+    if x < 0 or y < 0 or x + window_px > mean.shape[1] or y + window_px > mean.shape[0]:
+        raise field_error("window_px", f"a window that fits in the image around the target found at x = {j}, y = {i} "
+                          f"(image {mean.shape[1]} x {mean.shape[0]} px)", window_px, where)
+    return x, y, window_px, window_px
+
+
+def _series_verdict(xs: np.ndarray, ys: np.ndarray):
+    """Drift and autocorrelation of the located positions (:func:`budget.propagation.type_a.type_a_series`)."""
+    n = xs.size
+    if n < MIN_OBSERVATIONS:
+        nan = float("nan")
+        return nan, nan, nan, nan, f"Drift not tested: {n} frames, at least {MIN_OBSERVATIONS} are needed.", nan, nan
+    s = type_a_series(np.column_stack([xs, ys]))
+    dx, dy = (float(v) for v in s.drift_total)
+    px_, py_ = s.slope_p
+    if s.drifting:
+        verdict = (f"Drift over the frames: {dx:+.4f} px in x (p = {px_:.3g}), {dy:+.4f} px in y (p = {py_:.3g}); "
+                   "significant at the 5 % level, so the standard error understates the uncertainty.")
+    else:
+        verdict = (f"No significant drift at the 5 % level: {dx:+.4f} px in x (p = {px_:.3g}), "
+                   f"{dy:+.4f} px in y (p = {py_:.3g}).")
+    if s.autocorrelated:
+        verdict += (f" Successive frames are correlated (lag-1 {max(s.lag1):.2f}): they amount to "
+                    f"n_eff = {s.n_eff:.1f} independent frames (Zhang 2006).")
+    return dx, dy, px_, py_, verdict, s.n_eff, float(max(s.lag1))
 
 
 def locate_frames(paths: Sequence[str | os.PathLike],
-                  roi: tuple[int, int, int, int] | None = None, method: str = "com", *,
+                  roi: tuple[int, int, int, int] | str | None = None, method: str = "com", *,
                   window_px: int | None = None) -> FramesResult:
     """Locate a still target in each frame and summarize the scatter.
 
@@ -193,27 +240,35 @@ def locate_frames(paths: Sequence[str | os.PathLike],
     ----------
     paths : sequence of str or os.PathLike
         Frames of a still target, in acquisition order (at least 2).
-    roi : (x, y, w, h), optional
-        Region of interest in px (column, row of its top-left pixel, width,
-        height); None uses the whole image.
+    roi : (x, y, w, h), "auto" or None
+        Region of interest in px (column, row of its top-left pixel, width, height); "auto"
+        centres a ``window_px`` square on the brightest compact spot (:func:`find_target_roi`);
+        None uses the whole image.
     method : {"com", "gauss", "threshold"}
         Centre of mass (median-border background), least-squares Gaussian fit,
         or thresholded area centroid at half maximum.
     window_px : int, optional
-        Odd window around the brightest pixel inside the ROI (None: whole ROI).
+        With a given ROI: odd window around the brightest pixel inside it (None: whole ROI).
+        With ``roi="auto"``: the side of the fixed window (required).
 
     Returns
     -------
     FramesResult
         Per-frame positions in full-image coordinates and the summary.
 
+    Raises
+    ------
+    BudgetInputError
+        A frame that cannot be read, frames of mixed size or bit depth, an ROI outside the
+        image, a frame without a target clear of the noise; each names the file.
+
     Notes
     -----
     Type A evaluation (JCGM 100 4.2): mean, experimental standard deviation
     s (4.2.2) and of the mean s/sqrt(n) (4.2.3), with n - 1 degrees of freedom.
-    Drift: first half against second half (the middle frame is left out for
-    odd n), Welch's unequal-variance t-test (scipy.stats.ttest_ind) at the 5 %
-    level; drift makes s/sqrt(n) understate the uncertainty of the mean.
+    Drift and correlation between frames: :func:`budget.propagation.type_a.type_a_series`
+    (slope t test, lag-1 autocorrelation; 4 frames or more), the same checks ``run`` makes;
+    drift makes s/sqrt(n) understate the uncertainty of the mean.
     A frame is refused when its ROI peak does not exceed the median of the ROI
     border by more than ``DETECTION_MARGIN_SD`` (5) robust standard deviations
     (1.4826 MAD) of the border, floored at the ADC step 1/sqrt(12) ADU.
@@ -226,15 +281,22 @@ def locate_frames(paths: Sequence[str | os.PathLike],
     paths = [str(p) for p in paths]
     if len(paths) < 2:
         raise field_error("paths", "a sequence of at least 2 image files", paths, where)
-    crops, box, shape0 = [], None, None
+    frames = []
     for p in paths:
         frame = read_frame(p)
-        if shape0 is None:
-            shape0 = frame.shape
-            box = _check_roi(roi, shape0, p)
-        elif frame.shape != shape0:
-            raise field_error("path", f"a frame of the same size as the first, {shape0}",
-                              f"{p} (shape {frame.shape})", where)
+        if frames and (frame.shape != frames[0].shape or frame.dtype != frames[0].dtype):
+            raise field_error("path", f"a frame like the first ({_kind(frames[0])}): frames of mixed size or bit "
+                              "depth are not one camera setting", f"{p} ({_kind(frame)})", where)
+        frames.append(frame)
+    if roi == "auto":
+        total = np.zeros(frames[0].shape)
+        for f in frames:
+            total += f
+        box, window_px = find_target_roi(total[None], window_px, where), None
+    else:
+        box = _check_roi(roi, frames[0].shape, paths[0])
+    crops = []
+    for p, frame in zip(paths, frames, strict=True):
         x, y, w, h = box
         crop = frame[y:y + h, x:x + w].astype(float)
         _check_target(crop, p)
@@ -249,25 +311,14 @@ def locate_frames(paths: Sequence[str | os.PathLike],
     xs, ys = xs + box[0], ys + box[1]
     n = len(paths)
     sd_x, sd_y = float(np.std(xs, ddof=1)), float(np.std(ys, ddof=1))
-    if n >= 4:
-        (dx, px_), (dy, py_) = _drift(xs), _drift(ys)
-        worst = min(px_, py_)
-        if worst < 0.05:
-            verdict = (f"Drift between the first and second half: {dx:+.4f} px in x "
-                       f"(p = {px_:.3g}), {dy:+.4f} px in y (p = {py_:.3g}); significant at the "
-                       "5 % level, so the standard error understates the uncertainty.")
-        else:
-            verdict = (f"No significant drift at the 5 % level: {dx:+.4f} px in x "
-                       f"(p = {px_:.3g}), {dy:+.4f} px in y (p = {py_:.3g}).")
-    else:
-        dx = dy = px_ = py_ = float("nan")
-        verdict = f"Drift not tested: {n} frames, at least 4 are needed."
+    dx, dy, px_, py_, verdict, n_eff, lag1 = _series_verdict(xs, ys)
     return FramesResult(
         paths=tuple(paths), roi=box, method=method,
         x_px=tuple(float(v) for v in xs), y_px=tuple(float(v) for v in ys), n=n,
         mean_x_px=float(xs.mean()), mean_y_px=float(ys.mean()), sd_x_px=sd_x, sd_y_px=sd_y,
         se_x_px=sd_x / math.sqrt(n), se_y_px=sd_y / math.sqrt(n),
-        drift_x_px=dx, drift_y_px=dy, drift_p_x=px_, drift_p_y=py_, drift_verdict=verdict)
+        drift_x_px=dx, drift_y_px=dy, drift_p_x=px_, drift_p_y=py_, drift_verdict=verdict,
+        n_eff=n_eff, lag1=lag1, image_kind=_kind(frames[0]))
 
 
 LABEL_RULE = ("a non-empty label without commas, quotes or line breaks, not starting with =, +, -, @ "
@@ -280,19 +331,3 @@ def check_position_label(label: object, field: str = "position_id") -> str:
             or label.startswith(("=", "+", "-", "@", "\t")):
         raise field_error(field, LABEL_RULE, label, "frames")
     return label
-
-
-def frames_csv_text(result: FramesResult, *, position_id: str = "P1") -> str:
-    """The per-frame positions as CSV text with columns ``position,frame,x_px,y_px``.
-
-    Notes
-    -----
-    Frames are numbered from 1 in the order given; positions are written with 6 decimals
-    (1e-6 px). Writing the file is the caller's job (one atomic writer:
-    :func:`budget.report.safe_write.atomic_write`).
-    """
-    check_position_label(position_id)
-    lines = [_CSV_COLUMNS]
-    for k, (x, y) in enumerate(zip(result.x_px, result.y_px, strict=True), start=1):
-        lines.append(f"{position_id},{k},{x:.6f},{y:.6f}")
-    return "\n".join(lines) + "\n"

@@ -59,6 +59,11 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "pivot_offset_x_mm": number("a finite number", math.isfinite),
         "pivot_offset_y_mm": number("a finite number", math.isfinite),
         "zero_direction_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
+        "travel": Field("str", "one of 'clockwise', 'counterclockwise'",
+                        lambda v: v in ("clockwise", "counterclockwise"),
+                        assumed="readings counted counterclockwise as seen on the displayed image (the sense of "
+                                "angles in mathematics); a pointer that turns clockwise on the image needs "
+                                "travel = \"clockwise\""),
         "target_height_mm": non_negative(),
         "target_height_u_mm": non_negative(),
         "tilt_bound_deg": number("a number in (0, 90)", lambda v: 0 < v < 90),
@@ -131,6 +136,18 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "data": {
         "readings_csv": Field("str", "a path to a CSV file"),
         "pivot_csv": Field("str", "a path to a CSV file"),
+        "angle_tolerance_deg": number("a number in (0, 90]", lambda v: 0 < v <= 90,
+                                      assumed="a measured reading farther than this from its nominal is refused as "
+                                              "an input error (wrong travel, label or zero image), not taken on "
+                                              "another branch; 10° allows a gain a few % off its nominal over a "
+                                              "full scale (common practice); give your own"),
+    },
+    "reference": {
+        "angles_deg": Field("floats", "a list of reference angles in (-360, 360), one per reading",
+                            lambda v: all(-360 < a < 360 for a in v), True),
+        "U_deg": Field("floats", "a list of expanded uncertainties > 0, one per reading or one for all",
+                       lambda v: all(a > 0 for a in v), True),
+        "source": _SOURCE,
     },
     "goal": {  # targets: the run says whether each output meets them (budget.advice.targets)
         "angle_U_deg": positive(),
@@ -152,6 +169,7 @@ _CLASSES = {
     "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
     "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
     "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
+    "reference": d.Reference,
     "goal": d.Goal, "conformity": d.Conformity, "range_claim": d.RangeClaimForm,
 }
 _REQUIRED_SECTIONS = ("camera", "lens", "geometry")
@@ -206,7 +224,8 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
         assumed += _assumed("source", SCHEMA["source"], {})
     if built["data"] is not None and base is not None:
         data = built["data"]
-        built["data"] = d.Data(
+        built["data"] = dataclasses.replace(
+            data,
             readings_csv=str(base / data.readings_csv) if data.readings_csv else None,
             pivot_csv=str(base / data.pivot_csv) if data.pivot_csv else None,
         )
@@ -264,6 +283,14 @@ def _cross_checks(rig: d.RigDescription) -> None:
     if cam.shutter == "rolling" and cam.row_time_us <= 0:
         raise field_error("row_time_us", "a number > 0 for a rolling shutter", cam.row_time_us, "[camera]")
     angles = rig.nominal_angles_deg
+    ref = rig.reference
+    if ref is not None:
+        if len(ref.angles_deg) != len(angles):
+            raise field_error("angles_deg", f"a list of {len(angles)} reference angles, one per reading",
+                              list(ref.angles_deg), "[reference]")
+        if len(ref.U_deg) not in (1, len(angles)):
+            raise field_error("U_deg", f"a list of 1 or {len(angles)} expanded uncertainties", list(ref.U_deg),
+                              "[reference]")
     distinct = {round(a % 360.0, 9) % 360.0 for a in (0.0, *angles)}
     if rig.pivot.method == "readings" and (len(angles) < 2 or len(distinct) < 3):
         raise BudgetInputError(
@@ -281,9 +308,10 @@ def _cross_checks(rig: d.RigDescription) -> None:
     pitch_mm = cam.pitch_um * 1e-3
     m = rig.magnification
     cx = g.pivot_offset_x_mm * m / pitch_mm
-    cy = g.pivot_offset_y_mm * m / pitch_mm
+    cy = -g.pivot_offset_y_mm * m / pitch_mm  # up from the centre: the offset's y is down the image
     r = rig.radius_px + 3 * spot_sigma_px(rig) + 1
     half_w, half_h = cam.pixels_x / 2, cam.pixels_y / 2
+    sense = 1.0 if g.travel == "counterclockwise" else -1.0  # readings on the displayed image
     points = [("", a) for a in (0.0, *angles)]
     if rig.pivot.method == "arc":  # the pivot-arc points are located too
         p = rig.pivot
@@ -291,12 +319,13 @@ def _cross_checks(rig: d.RigDescription) -> None:
         step = 2 * p.arc_half_angle_deg / (p.arc_points - 1)
         points += [(" (pivot arc)", mid - p.arc_half_angle_deg + i * step) for i in range(p.arc_points)]
     for what, a in points:
-        t = math.radians(g.zero_direction_deg + a)
+        t = math.radians(g.zero_direction_deg + sense * a)
         x, y = cx + r * math.cos(t), cy + r * math.sin(t)
         if abs(x) > half_w or abs(y) > half_h:
             raise BudgetInputError(
                 f"The pointer leaves the sensor's field of view at {a:g}°{what}: the target would be imaged at "
-                f"({x:.0f}, {y:.0f}) px from the sensor centre, outside ±({half_w:.0f}, {half_h:.0f}) px. "
+                f"x = {half_w - 0.5 + x:.0f}, y = {half_h - 0.5 - y:.0f} px (image coordinates: x right, y down, "
+                f"from the top-left pixel), outside the {cam.pixels_x} x {cam.pixels_y} px image. "
                 "Check pointer_radius_mm, working_distance_mm, focal_length_mm, pivot_offset_*_mm"
                 + (" and the [pivot] arc." if what else ".")
             )

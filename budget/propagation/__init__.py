@@ -13,6 +13,7 @@ from budget.propagation.distributions import (
     Trapezoidal,
     Triangular,
 )
+from budget.propagation.joint import JointComponent, MultivariateT
 from budget.propagation.lpu import (
     GroupRow,
     LinearResult,
@@ -35,7 +36,8 @@ from budget.propagation.validation import Validation, validate
 
 __all__ = [
     "Arcsine", "CurvilinearTrapezoid", "Distribution", "Normal", "Rectangular", "StudentT",
-    "Trapezoidal", "Triangular", "InputQuantity", "linear", "monte_carlo", "monte_carlo_u", "validate",
+    "Trapezoidal", "Triangular", "MultivariateT", "JointComponent",
+    "InputQuantity", "linear", "monte_carlo", "monte_carlo_u", "validate",
     "LinearResult", "MultiLinearResult", "Row", "GroupRow", "MonteCarloResult",
     "MultiMonteCarloResult", "Validation", "coverage_factor", "coverage_intervals",
     "numerical_tolerance", "round_pair", "statement", "interval_statement",

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from budget.errors import field_error
+from budget.propagation.joint import collapse_joint, joint_correlation, joint_groups
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
@@ -158,7 +159,7 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
 
 def _groups(
     names: list[str], q: dict[str, InputQuantity], cu: np.ndarray, cov_share: np.ndarray,
-    dofs: np.ndarray, u_c2: float,
+    dofs: np.ndarray, u_c2: float, rr: np.ndarray | None = None, joint: list[list[int]] | None = None,
 ) -> tuple[GroupRow, ...]:
     order: dict[str, list[int]] = {}
     for i, nm in enumerate(names):
@@ -167,7 +168,7 @@ def _groups(
     for gname, idx in order.items():
         share = float(cov_share[np.ix_(idx, idx)].sum())
         contrib = math.sqrt(max(share, 0.0))
-        gdof = welch_satterthwaite(contrib, np.abs(cu[idx]), dofs[idx]) if contrib > 0 else math.inf
+        gdof = _ws(contrib, cu, rr, dofs, joint or [], idx) if contrib > 0 else math.inf
         row_share = float(cov_share[idx, :].sum())
         out.append(
             GroupRow(
@@ -181,6 +182,17 @@ def _groups(
             )
         )
     return tuple(out)
+
+
+def _ws(u_c: float, cu: np.ndarray, rr: np.ndarray | None, dofs: np.ndarray, joint: list[list[int]],
+        subset: list[int] | None = None) -> float:
+    """ν_eff over the inputs ``subset`` (all by default), each joint quantity counted once."""
+    idx = list(range(cu.size)) if subset is None else list(subset)
+    pos = {i: k for k, i in enumerate(idx)}
+    groups = [[pos[i] for i in g if i in pos] for g in joint]
+    sub_r = None if rr is None else rr[np.ix_(idx, idx)]
+    contrib, nus = collapse_joint(cu[idx], sub_r, dofs[idx], [g for g in groups if len(g) > 1])
+    return welch_satterthwaite(u_c, contrib, nus)
 
 
 def linear(
@@ -222,6 +234,9 @@ def linear(
     p = check_p(p)
     q = as_quantities(inputs)
     names = list(q)
+    joint = joint_groups([q[nm].distribution for nm in names])
+    if joint:  # the correlations inside each joint quantity (JCGM 102 6.5.3)
+        correlation = joint_correlation(names, [q[nm].distribution for nm in names], correlation)
     r = correlation_matrix(names, correlation)
     if second_order and r is not None:
         raise field_error("second_order", "False when inputs are correlated", True)
@@ -261,7 +276,7 @@ def linear(
             u_c2 = 0.0
         u_c = math.sqrt(u_c2)
         contributions = np.abs(cu)
-        nu = welch_satterthwaite(u_c, contributions, dofs)
+        nu = _ws(u_c, cu, r, dofs, joint)
         kf = coverage_factor(p, nu)
         warn: list[str] = []
         rows = []
@@ -290,7 +305,7 @@ def linear(
                 f"{which} zero first-order sensitivity at the estimate for output '{on}': the "
                 "linear method misses their effect; compare with Monte Carlo (JCGM 101 clause 8)."
             )
-        groups = _groups(names, q, cu, cov_share, dofs, u_c2)
+        groups = _groups(names, q, cu, cov_share, dofs, u_c2, r, joint)
         for g in groups:
             if g.percent > 90.0 and len(groups) > 1:
                 warn.append(f"Component '{g.name}' carries {g.percent:.0f} % of the variance of '{on}'.")

@@ -17,6 +17,7 @@ import numpy as np
 
 from budget.errors import field_error
 from budget.propagation.distributions import Normal, Rectangular
+from budget.propagation.joint import draw_joint, joint_groups
 from budget.propagation.lpu import check_p
 from budget.propagation.model import (
     SINGLE,
@@ -139,6 +140,7 @@ class _Sampler:
     def __init__(self, q: dict, r: np.ndarray | None) -> None:
         self.names = list(q)
         self.dists = [q[n].distribution for n in self.names]
+        self.joint = joint_groups(self.dists)  # drawn together (JCGM 102 6.5.3)
         self.corr_idx: list[int] = []
         self.factor = None
         self.normal: list[int] = []
@@ -165,7 +167,7 @@ class _Sampler:
         self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
 
     def draw(self, rng: np.random.Generator, size: int) -> dict[str, np.ndarray]:
-        out: dict[str, np.ndarray] = {}
+        out: dict[str, np.ndarray] = draw_joint(rng, size, self.names, self.dists, self.joint)
         if self.factor is not None:
             z = rng.standard_normal(size=(size, len(self.corr_idx))) @ self.factor.T
             for col, i in enumerate(self.corr_idx):

@@ -10,7 +10,7 @@ from rich.table import Table
 
 from budget.results import OutputBudget, RunResult
 
-__all__ = ["render_run", "budget_table", "fmt", "fmt_dof"]
+__all__ = ["render_run", "budget_table", "fmt", "fmt_dof", "reference_line", "data_table"]
 
 
 def fmt(x: float | int | None, digits: int = 3) -> str:
@@ -70,6 +70,52 @@ def _summary_lines(ob: OutputBudget) -> list[str]:
     ]
 
 
+def reference_line(ob: OutputBudget) -> str | None:
+    """The reference check of one angle in words, or None."""
+    r = ob.reference
+    if r is None:
+        return None
+    verdict = "agrees (|E_n| <= 1)" if r.ok else "DISAGREES (|E_n| > 1)"
+    return (f"reference {r.angle_deg:.6g} ° (U_ref = {fmt(r.U_deg)} °, {r.source}): measured {r.measured_deg:.6g} ° "
+            f"(U = {fmt(r.measured_U_deg)} °), E_n = {r.E_n:+.3f}: {verdict} (ISO 13528)")
+
+
+def data_table(result: RunResult) -> Table | None:
+    """The measured data per located point (image coordinates, px)."""
+    d = result.data
+    if d is None:
+        return None
+    t = Table(title="measured data (image coordinates: x right, y down, px from the centre of the top-left pixel)",
+              title_justify="left")
+    for col in ("point", "n", "n_eff", "mean x", "mean y", "s_x", "s_y", "r_xy", "drift", "lag-1 r", "s²/σ²"):
+        t.add_column(col, justify="right", no_wrap=True)
+    t.add_column("frames", overflow="fold", min_width=20)
+    for m in d.points:
+        frames = f"{m.images[0]} … {m.images[-1]}" if m.images and m.images[0] else "—"
+        t.add_row(m.label, str(m.n), fmt(m.n_eff), f"{m.mean_x_px:.4f}", f"{m.mean_y_px:.4f}", fmt(m.sd_x_px),
+                  fmt(m.sd_y_px), f"{m.r_xy:+.2f}", fmt(m.drift_px) + (" !" if m.drifting else ""),
+                  f"{m.lag1:+.2f}" + (" !" if m.autocorrelated else ""), fmt(m.scatter_ratio), frames)
+    return t
+
+
+def _data_section(con: Console, result: RunResult) -> None:
+    d = result.data
+    if d is None:
+        return
+    con.print()
+    con.print("Measured data files:")
+    images = [f for f in d.files if f.kind == "image"]
+    for f in d.files:
+        if f.kind != "image" or len(images) <= 4:
+            con.print(f"  {f.kind:<5} {f.path}  sha256 {f.sha256}" + (f" ({f.note})" if f.note else ""))
+    if len(images) > 4:
+        missing = sum(1 for f in images if f.note)
+        con.print(f"  {len(images)} image files named in the data file, each with its SHA-256 (listed in the JSON, "
+                  "Markdown and workbook)" + (f"; {missing} not found, their recorded SHA-256 kept" if missing else ""))
+    con.print(data_table(result))
+    con.print(f"  {d.scatter_check}")
+
+
 def render_run(result: RunResult, width: int = 170) -> str:
     """The whole console report as text."""
     buf = io.StringIO()
@@ -78,11 +124,15 @@ def render_run(result: RunResult, width: int = 170) -> str:
     con.print(f"thetabudget {result.tool_version} — {result.title}")
     con.print(f"input {result.input_path} (sha256 {result.input_sha256[:16]}…), seed {result.seed}, "
               f"p = {result.p:g}")
+    _data_section(con, result)
     for ob in result.outputs:
         con.print()
         con.print(budget_table(ob))
         for line in _summary_lines(ob):
             con.print(line)
+        ref = reference_line(ob)
+        if ref:
+            con.print(f"  {ref}")
         for w in ob.warnings:
             con.print(f"  ! {w}")
     if result.gain_summary is not None:
@@ -92,6 +142,8 @@ def render_run(result: RunResult, width: int = 170) -> str:
                   f"{s.correlation_mc:+.3f} (Monte Carlo)")
         con.print(f"Non-linearity from measurement errors alone: mean {s.nonlinearity_mean_pct:.2g} % of span, "
                   f"95th percentile {s.nonlinearity_p95_pct:.2g} %")
+        if s.lack_of_fit is not None:
+            con.print(s.lack_of_fit.verdict)
     from budget.report.targets import target_lines
 
     if lines := target_lines(result):

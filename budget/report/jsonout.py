@@ -46,6 +46,32 @@ def output_to_dict(ob: OutputBudget, suffix: str = "") -> dict:
     }
 
 
+def _reference(ob: OutputBudget) -> dict | None:
+    r = ob.reference
+    if r is None:
+        return None
+    return {"angle_deg": r.angle_deg, "U_deg": r.U_deg, "E_n": r.E_n, "ok": r.ok, "measured_deg": r.measured_deg,
+            "measured_U_deg": r.measured_U_deg, "source": r.source}
+
+
+def _measured(result: RunResult) -> dict | None:
+    d = result.data
+    if d is None:
+        return None
+    return {
+        "coordinates": "image: x right, y down, px, origin at the centre of the top-left pixel",
+        "points": [{
+            "position": m.label, "n": m.n, "n_eff": m.n_eff, "dof": m.dof, "mean_x_px": m.mean_x_px,
+            "mean_y_px": m.mean_y_px, "sd_x_px": m.sd_x_px, "sd_y_px": m.sd_y_px, "r_xy": m.r_xy,
+            "lag1_autocorrelation": m.lag1, "autocorrelated": m.autocorrelated, "drift_px": m.drift_px,
+            "drift_p_value": m.drift_p, "drifting": m.drifting, "scatter_ratio": m.scatter_ratio,
+            "images": list(m.images)} for m in d.points],
+        "scatter_check": {"text": d.scatter_check, "ratio": d.scatter_ratio, "dof": d.scatter_dof,
+                          "interval": list(d.scatter_interval) if d.scatter_interval else None},
+        "angle_tolerance_deg": d.angle_tolerance_deg,
+    }
+
+
 def run_to_dict(result: RunResult) -> dict:
     """The machine-readable record of a run (the contract documented in the README)."""
     angles = []
@@ -55,12 +81,17 @@ def run_to_dict(result: RunResult) -> dict:
         for c in d["components"]:
             c["u_deg"] = c.pop("u")
             c["monte_carlo_u_deg"] = c.pop("monte_carlo_u")
+        d["reference"] = _reference(ob)
         _targets(d, result, ob.name)
         angles.append(d)
+    files = [{"path": f.path, "sha256": f.sha256, "kind": f.kind, "note": f.note}
+             for f in (result.data.files if result.data is not None else ())]
     doc: dict = {
         "tool": {"name": "thetabudget", "version": result.tool_version},
         "title": result.title,
-        "input": {"path": result.input_path, "sha256": result.input_sha256},
+        "input": {"path": result.input_path, "sha256": result.input_sha256, "data": files},
+        "mode": result.mode,
+        "measured_data": _measured(result),
         "created": result.created,
         "seed": _seed(result.seed),
         "p": result.p,
@@ -82,6 +113,12 @@ def run_to_dict(result: RunResult) -> dict:
         block["nonlinearity_percent_span_p95"] = s.nonlinearity_p95_pct
         block["chi2"] = s.chi2
         block["dof"] = s.dof
+        lof = s.lack_of_fit
+        block["lack_of_fit"] = None if lof is None else {
+            "chi2": lof.chi2, "dof": lof.dof, "p_value": lof.p_value, "significant": lof.significant,
+            "critical_95": lof.critical, "misfit_deg": lof.misfit_deg, "method": lof.method or None,
+            "verdict": lof.verdict}
+        block["measured_deg"] = list(s.measured_deg) if s.measured_deg is not None else None
         _targets(block, result, "gain")
         doc["gain"] = block
     if result.decisions:

@@ -76,6 +76,12 @@ def output_markdown(ob: OutputBudget) -> str:
         *_components(ob), "",
         *_results(ob), "",
     ]
+    if ob.reference is not None:
+        r = ob.reference
+        lines += [f"**Reference check:** reference {num(r.angle_deg)}° (U_ref = {num(r.U_deg)}°, "
+                  f"{md_text(r.source)}), measured {num(r.measured_deg)}° (U = {num(r.measured_U_deg)}°): "
+                  f"E_n = {num(r.E_n)}, {'agrees (|E_n| ≤ 1)' if r.ok else '**disagrees** (|E_n| > 1)'} "
+                  "(ISO 13528)", ""]
     if ob.warnings:
         lines += ["Warnings:", "", *(f"- {md_text(w)}" for w in ob.warnings), ""]
     return "\n".join(lines)
@@ -93,8 +99,40 @@ def _sweep(result: RunResult) -> list[str]:
         ("non-linearity, 95th percentile [% of span]", num(s.nonlinearity_p95_pct)),
         ("degrees of freedom of the fit", num(s.dof)),
     ]
-    return ["## Sweep: gain and intercept", "", _row(["quantity", "value"]), "|---|--:|",
-            *(_row(r) for r in rows), ""]
+    lof = s.lack_of_fit
+    if lof is not None:
+        rows += [
+            ("χ² of the measured angles about their line", num(lof.chi2)),
+            ("p-value of χ²", num(lof.p_value)),
+            ("χ²_ν(0.95), the acceptance limit", num(lof.critical)),
+            ("lack of fit significant", "yes" if lof.significant else "no"),
+            ("per-point discrepancy s_d carried [°]", num(lof.misfit_deg)),
+        ]
+    out = ["## Sweep: gain and intercept", "", _row(["quantity", "value"]), "|---|--:|", *(_row(r) for r in rows), ""]
+    if lof is not None:
+        out += [f"**Lack of fit:** {md_text(lof.verdict)}", ""]
+    return out
+
+
+def _data(result: RunResult) -> list[str]:
+    d = result.data
+    if d is None:
+        return []
+    out = ["## Measured data", "", "Files the data rest on (the data file lists every frame's image and SHA-256):", "",
+           _row(["kind", "file", "SHA-256", "note"]), "|---|---|---|---|"]
+    out += [_row([f.kind, f"`{md_text(f.path)}`", f"`{f.sha256}`", md_text(f.note)]) for f in d.files]
+    out += ["", "Located points in image coordinates (x right, y down, px from the centre of the top-left pixel); "
+            "s is the frames' standard deviation, n_eff the effective number of independent frames, s²/σ² the "
+            "scatter against the locator model's noise per frame:", "",
+            _row(["point", "n", "n_eff", "mean x [px]", "mean y [px]", "s_x [px]", "s_y [px]", "r_xy", "drift [px]",
+                  "lag-1 r", "s²/σ²", "frames"]), "|---|--:|--:|--:|--:|--:|--:|--:|--:|--:|--:|---|"]
+    for m in d.points:
+        frames = ", ".join(f"`{md_text(i)}`" for i in m.images if i) or "—"
+        out.append(_row([m.label, num(m.n), num(m.n_eff), num(m.mean_x_px), num(m.mean_y_px), num(m.sd_x_px),
+                         num(m.sd_y_px), num(m.r_xy), num(m.drift_px) + (" (significant)" if m.drifting else ""),
+                         num(m.lag1) + (" (significant)" if m.autocorrelated else ""), num(m.scatter_ratio), frames]))
+    out += ["", f"**Scatter check:** {md_text(d.scatter_check)}", ""]
+    return out
 
 
 def render_markdown(result: RunResult) -> str:
@@ -103,6 +141,8 @@ def render_markdown(result: RunResult) -> str:
         f"# Uncertainty budget: {md_text(result.title)}", "",
         f"- Tool: thetabudget {md_text(result.tool_version)}",
         f"- Input file: `{md_text(result.input_path)}`, SHA-256 `{result.input_sha256}`",
+        *(f"- Data file: `{md_text(f.path)}`, SHA-256 `{f.sha256}`" for f in
+          (result.data.files if result.data is not None else ()) if f.kind == "data"),
         f"- Seed: {md_text(str(result.seed))}; coverage probability p = {num(result.p)}; run {result.created}",
         f"- Standards followed: {STANDARDS}",
         "",
@@ -110,6 +150,7 @@ def render_markdown(result: RunResult) -> str:
         "ν = ∞ means infinite degrees of freedom.",
         "",
     ]
+    lines += _data(result)
     for ob in result.outputs:
         lines.append(output_markdown(ob))
     lines += _sweep(result)

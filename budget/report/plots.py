@@ -6,7 +6,8 @@
   intervals and the linear interval y ± U;
 * ``<output>_pareto.png``: contributions in Pareto order with the cumulative share of u_c²,
   and each component's Monte Carlo u when it varies alone;
-* ``sweep_residuals.png`` (sweeps): each angle's estimate minus the fitted line K·V + θ0,
+* ``sweep_residuals.png`` (sweeps): each angle's estimate minus the fitted line K·V + θ0 (with the
+  lack-of-fit verdict in a box; a rejected line is drawn red with its ± s_d band),
   against the set point, with ± the angle's linear u;
 * ``expanded_uncertainty.png`` (two or more angles): U(θ) across the range, linear and Monte
   Carlo (half-width of the probabilistically symmetric interval).
@@ -160,7 +161,18 @@ def sweep_residuals(result: RunResult, path: Path) -> None:
     ax.set_title(f"Fit residuals against set point (K = {k_txt} °/V, θ0 = {b_txt} °)\n"
                  "each bar is the angle's whole u, shared errors (tilt, pivot, source gain) included",
                  fontsize=10)
-    ax.legend(fontsize=8)
+    lof = s.lack_of_fit
+    if lof is not None:
+        words = (f"LACK OF FIT: χ² = {lof.chi2:.3g}, ν = {lof.dof}, p = {lof.p_value:.2g} > limit {lof.critical:.3g}; "
+                 f"s_d = {lof.misfit_deg:.2g}° carried" if lof.significant else
+                 f"no lack of fit: χ² = {lof.chi2:.3g}, ν = {lof.dof}, p = {lof.p_value:.2g}")
+        color = "#c44e52" if lof.significant else "#55a868"
+        if lof.significant:  # the discrepancy band the budget now carries
+            ax.axhspan(-lof.misfit_deg, lof.misfit_deg, color=color, alpha=0.12, label="± s_d (per-point discrepancy)")
+            ax.plot(v, resid, "o", color=color, zorder=3)
+        ax.text(0.01, 0.98, words, transform=ax.transAxes, va="top", fontsize=8, color=color,
+                bbox={"facecolor": "white", "edgecolor": color, "alpha": 0.9})
+    ax.legend(fontsize=8, loc="lower right")
     _save(fig, path, provenance(result))
 
 

@@ -15,7 +15,9 @@ evaluate them alike):
 * ν: an infinite ν is the text "∞" (:data:`~budget.report.workbook_cells.INF_TEXT`); a helper
   column holds (|c_i|u)⁴/ν_i, 0 when ν_i is not a number, and
   ν_eff = u_c⁴ / Σ(|c_i|u)⁴/ν_i (Welch–Satterthwaite, JCGM 100 eq. G.2b), "∞" when the sum is
-  0, truncated with ``INT`` when ≥ 1 (JCGM 100 G.4.1 note 1), as the engine does.
+  0, truncated with ``INT`` when ≥ 1 (JCGM 100 G.4.1 note 1), as the engine does. A joint quantity
+  (a located point's two axes from the same frames, a sweep's per-point discrepancy) is one term:
+  its first Detail row holds (Σ(|c_i|u)²)²/ν and its other rows 0 (Willink 2007, as the engine).
 * k = ``_xlfn.T.INV.2T(1-p, ν_eff)`` (two-tailed t quantile, Excel 2010+ and LibreOffice; the
   ``_xlfn.`` prefix is how Excel itself stores that function in a file) or, when ν_eff is "∞",
   ``_xlfn.NORM.S.INV((1+p)/2)``; U = k·u_c.
@@ -29,8 +31,10 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
 from openpyxl.worksheet.hyperlink import Hyperlink
 
+from budget.propagation import JointComponent
 from budget.report.workbook_cells import (
     BOLD,
     ENGINE_FILL,
@@ -165,6 +169,7 @@ def _detail(ws, result: RunResult, blocks: list[BudgetBlock], qrow: dict[str, in
         uc = b.address("u_c", "Budget")
         for g in lin.groups:
             first = r
+            partners = _joint_rows(result, g.inputs, first)
             for name in g.inputs:
                 x, qr = rows[name], qrow[name]
                 text(ws, r, 1, ob.name)
@@ -180,18 +185,57 @@ def _detail(ws, result: RunResult, blocks: list[BudgetBlock], qrow: dict[str, in
                 text(ws, r, 11, _c_unit(ob.unit, x.unit))
                 formula(ws, r, 12, f"=ABS(J{r})*I{r}", FMT["u"])
                 formula(ws, r, 13, f"=Quantities!$I${qr}", FMT["dof"])
-                formula(ws, r, 14, f"=IF(ISNUMBER(M{r}),L{r}^4/M{r},0)", "0.00E+00")
+                ws4, note = _ws_term(r, partners.get(name))
+                formula(ws, r, 14, ws4, "0.00E+00")
                 if _close(x.percent / 100.0, x.contribution**2 / lin.u**2 if lin.u > 0 else 0.0):
                     formula(ws, r, 15, f"=IF({uc}>0,L{r}^2/{uc}^2,0)", FMT["share"])
                 else:
                     number(ws, r, 15, x.percent / 100.0, FMT["share"]).fill = ENGINE_FILL
-                text(ws, r, 16, x.source)
+                text(ws, r, 16, f"{note} {x.source}" if note else x.source)
                 r += 1
             ranges[(ob.name, g.name)] = (first, r - 1)
     ws.freeze_panes = "D2"
     ws.auto_filter.ref = f"A1:P{max(2, r - 1)}"
     set_widths(ws, {6: 13, 8: 9, 9: 13, 10: 13, 12: 13, 13: 7, 14: 11, 15: 10})
     return ranges
+
+
+def _joint_rows(result: RunResult, names: tuple[str, ...], first: int) -> dict[str, list[int] | int]:
+    """Members of one joint quantity among a component's inputs: the first → the rows of all of them,
+    every other one → the first's row. Only adjacent, uncorrelated members (the rig's principal axes)."""
+    rows = {n: first + i for i, n in enumerate(names)}
+    by_parent: dict[int, list[str]] = {}
+    for n in names:
+        d = result.inputs[n].distribution
+        if isinstance(d, JointComponent):
+            by_parent.setdefault(id(d.joint), []).append(n)
+    out: dict[str, list[int] | int] = {}
+    for members in by_parent.values():
+        if len(members) < 2:
+            continue
+        scale = members and result.inputs[members[0]].distribution.joint.scale_matrix
+        if np.count_nonzero(scale - np.diag(np.diag(scale))):
+            continue  # correlated components: u_c is the engine's anyway
+        rr = [rows[n] for n in members]
+        out[members[0]] = rr
+        for n in members[1:]:
+            out[n] = rr[0]
+    return out
+
+
+def _ws_term(r: int, partners: list[int] | int | None) -> tuple[str, str]:
+    """Detail's (|c_i|·u)⁴/ν_i cell; a joint quantity's term is taken once, on its first row.
+
+    A vector quantity estimated from one set of observations (a point's two axes) enters
+    Welch–Satterthwaite once, with its combined contribution and ν (Willink 2007, as the engine).
+    """
+    if partners is None:
+        return f"=IF(ISNUMBER(M{r}),L{r}^4/M{r},0)", ""
+    if isinstance(partners, int):
+        return "=0", f"[counted in row {partners}'s Welch–Satterthwaite term: one joint quantity]"
+    cells = ",".join(f"L{k}" for k in partners)
+    return f"=IF(ISNUMBER(M{r}),SUMSQ({cells})^2/M{r},0)", \
+        f"[Welch–Satterthwaite term of the joint quantity of rows {partners[0]}–{partners[-1]}]"
 
 
 def _component_row(ws, b: BudgetBlock, g, rows, qrow, ranges) -> None:

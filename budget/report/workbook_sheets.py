@@ -18,6 +18,7 @@ from budget.report.workbook_cells import (
     text,
     title,
 )
+from budget.report.workbook_data import lack_of_fit_rows, write_data_rows, write_reference_rows
 from budget.results import RunResult
 
 __all__ = ["write_summary_sheet", "write_inputs_sheet", "STANDARDS", "SUMMARY_COLUMNS"]
@@ -54,6 +55,8 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
         ("tool", f"thetabudget {result.tool_version}"),
         ("input file", result.input_path),
         ("input file SHA-256", result.input_sha256),
+        *((f"data file {f.path}: SHA-256", f.sha256) for f in (result.data.files if result.data else ())
+          if f.kind == "data"),
         ("seed of the random generator", str(result.seed)),
         ("date and time of the run (UTC)", result.created),
         ("workbook written (UTC)", _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")),
@@ -69,6 +72,8 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
     number(ws, r, 2, result.p, FMT["p"])
     r += 2
     r = _sweep_rows(ws, r, result)
+    r = write_data_rows(ws, r, result)
+    r = write_reference_rows(ws, r, result)
     r = _targets(ws, r, result)
     r = _assumptions(ws, r, result)
     r = _components(ws, r, result)
@@ -110,12 +115,13 @@ def _sweep_rows(ws, r: int, result: RunResult) -> int:
         ("non-linearity from measurement errors, mean [% of span]", s.nonlinearity_mean_pct, "0.0000"),
         ("non-linearity, 95th percentile [% of span]", s.nonlinearity_p95_pct, "0.0000"),
         ("degrees of freedom of the fit", s.dof, FMT["int"]),
+        *lack_of_fit_rows(result),
     ]
     for label, value, fmt in rows:
         r += 1
         text(ws, r, 1, label)
         if isinstance(value, str):
-            text(ws, r, 2, value)
+            text(ws, r, 2, value).alignment = WRAP
         else:
             number(ws, r, 2, value, fmt)
     return r + 2

@@ -28,8 +28,10 @@ from budget.propagation import (
     validate,
 )
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
+from budget.rig import checks
 from budget.rig import components as comp
 from budget.rig.description import RigDescription
+from budget.rig.evaluation import Evaluation
 from budget.rig.model import VirtualRig
 
 __all__ = ["run_budget", "component_mc_u", "GROUP_TRIALS"]
@@ -170,6 +172,7 @@ def run_budget(
     progress: Callable[[int], None] | None = None,
     type_a: dict | None = None,
     measured_deg: tuple[float, ...] | None = None,
+    evaluation: Evaluation | None = None,
 ) -> RunResult:
     """Budget of every angle position (and the gain of a sweep) by JCGM 100 and JCGM 101.
 
@@ -189,12 +192,21 @@ def run_budget(
     type_a : dict, optional
         Repeated-frame scatter per point label (see :func:`components.build_inputs`).
     measured_deg : tuple, optional
-        Measured reading angles of a sweep (evaluation mode): they give the fit's
-        chi-squared against the per-point uncertainties (ISO/TS 28037 clause 6).
+        Measured reading angles (evaluation mode): the outputs become the true values behind
+        them; for a sweep they give the lack-of-fit check (:func:`budget.rig.checks.lack_of_fit`).
+    evaluation : Evaluation, optional
+        What :func:`budget.rig.evaluation.load_evaluation` made of the measured data: it supplies
+        ``type_a`` and ``measured_deg``, the data's summary and its warnings.
     """
+    data = None
+    pre: tuple[str, ...] = ()
+    if evaluation is not None:
+        type_a, measured_deg, data, pre = evaluation.type_a, evaluation.measured_deg, evaluation.data, \
+            evaluation.warnings
     with collected_warnings() as raised:
         result = _run_budget(rig, rng=rng, p=p, trials=trials, input_path=input_path, progress=progress,
                              type_a=type_a, measured_deg=measured_deg)
+    result = replace(result, data=data, warnings=(*pre, *result.warnings))
     return replace(result, warnings=(*result.warnings, *raised)) if raised else result
 
 
@@ -205,19 +217,27 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
         nominal.update(gain=rig.sweep.nominal_gain_deg_per_v, intercept=0.0)
-    model = VirtualRig(rig)
+    model = VirtualRig(rig, type_a)
     reference = nominal
     if measured_deg is not None:
         reference = _located(rig, measured_deg)
         model = TrueValueModel(model, located=reference, nominal=nominal)
     corr_arg = corr or None
     lin = linear(model, inputs, p=p, correlation=corr_arg)
+    lof = None
+    if rig.sweep is not None and measured_deg is not None:
+        lof = checks.lack_of_fit(rig, checks.own_u_deg(lin, len(measured_deg)), measured_deg)
+        if lof is not None and lof.significant:  # the misfit enters the gain and intercept (both methods)
+            inputs = {**inputs, **checks.misfit_inputs(rig, lof)}
+            lin = linear(model, inputs, p=p, correlation=corr_arg)
     lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
-    # Kept in trial order: (K, θ0) for predict, and each trial's non-linearity; the intervals,
-    # histograms and correlations need no trial order.
+    # Kept in trial order: what predict propagates further ((K, θ0), and a rejected line's
+    # discrepancy at a new point), and each trial's non-linearity; the intervals, histograms and
+    # correlations need no trial order.
     sweep = rig.sweep is not None
+    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()))
     mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress,
-                     joint=("gain", "intercept") if sweep else False,
+                     joint=keep if sweep else False,
                      derived={NONLINEARITY: _nonlinearity_per_trial(rig)} if sweep else None)
     groups: dict[str, tuple[str, ...]] = {}
     for name, q in inputs.items():
@@ -229,8 +249,11 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
     for i in range(len(rig.nominal_angles_deg)):
         name = f"P{i + 1}"
         label = f"angle {name} ({reference[name]:g}°)"
-        angles.append(_budget(name, label, "°", reference[name], lin[name], lin2[name] if lin2 else None,
-                              mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes))
+        ob = _budget(name, label, "°", reference[name], lin[name], lin2[name] if lin2 else None,
+                     mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes)
+        if measured_deg is not None:
+            ob = replace(ob, reference=checks.reference_check(rig, ob, i))
+        angles.append(ob)
     gain = summary = None
     if rig.sweep is not None:
         gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
@@ -243,14 +266,22 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         jg, ji = mc.names.index("gain"), mc.names.index("intercept")
         corr_mc = float(mc.correlation[jg, ji])
         nl_mean, nl_95 = _nonlinearity_pct(mc.joint[NONLINEARITY])
-        chi2 = _chi2(rig, angles, measured_deg)
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
                               correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
-                              nonlinearity_p95_pct=nl_95, chi2=chi2,
+                              nonlinearity_p95_pct=nl_95, chi2=lof.chi2 if lof is not None else None,
                               dof=len(rig.sweep.set_points_v) - 2,
-                              set_points_v=tuple(rig.sweep.set_points_v))
+                              set_points_v=tuple(rig.sweep.set_points_v), lack_of_fit=lof,
+                              measured_deg=tuple(measured_deg) if measured_deg is not None else None)
     notes = locator_model(rig).notes
-    warns = _rig_warnings(rig, notes)
+    warns = _rig_warnings(rig, notes, evaluated=type_a is not None)
+    if lof is not None and lof.significant:
+        warns.insert(0, lof.verdict)
+    for ob in angles:
+        ref = ob.reference
+        if ref is not None and not ref.ok:
+            warns.append(f"{ob.label}: E_n = {ref.E_n:+.2f} against the reference {ref.angle_deg:g}° "
+                         f"(U_ref = {ref.U_deg:g}°, {ref.source}): |E_n| > 1, the measurement and the reference "
+                         "disagree beyond their expanded uncertainties (ISO 13528).")
     path = Path(input_path) if input_path else None
     sha = hashlib.sha256(path.read_bytes()).hexdigest() if path and path.is_file() else ""
     return RunResult(
@@ -278,7 +309,7 @@ class TrueValueModel:
 
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
-        return {k: self.located[k] + self.nominal[k] - v for k, v in out.items()}
+        return {k: self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v for k, v in out.items()}
 
 
 def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, float]:
@@ -288,28 +319,6 @@ def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, 
         slope, intercept = np.polyfit(np.array(rig.sweep.set_points_v), np.array(measured_deg), 1)
         out.update(gain=float(slope), intercept=float(intercept))
     return out
-
-
-def _chi2(rig: RigDescription, angles: list[OutputBudget], measured: tuple[float, ...] | None) -> float | None:
-    """Chi-squared of the measured angles about their straight line, or None in design mode.
-
-    Notes
-    -----
-    Weighted least squares with u(θ_j) from the inputs of reading j alone (its locator
-    errors and distortion residual, its set point's step, INL and noise, its timing
-    jitter: the inputs named ``…_Pj``). Shared effects (the zero image's locator
-    errors, pivot, tilt, source gain and offset) move every point together and do not
-    scatter them about the line (ISO/TS 28037 clause 6).
-    """
-    if measured is None:
-        return None
-    from budget.fit import straight_line
-
-    u = [math.sqrt(sum(r.contribution**2 for r in ob.linear.rows if r.name.endswith(f"_{ob.name}")))
-         for ob in angles]
-    if min(u) <= 0:
-        return None
-    return float(straight_line(np.array(rig.sweep.set_points_v), np.array(measured), u_y=np.array(u)).chi2)
 
 
 def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
@@ -327,10 +336,10 @@ def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...]) -> list[str]:
-    """What the physics says about this rig, whatever the numbers."""
+def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...], evaluated: bool = False) -> list[str]:
+    """What the physics says about this rig, whatever the numbers (``per_reading`` only in design mode)."""
     out = list(locator_notes)
-    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid"):
+    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid") and not evaluated:
         what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
         out.append(
             f"Averaging {rig.frames.per_reading} frames divides the centroid noise by "

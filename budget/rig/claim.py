@@ -42,7 +42,7 @@ def linear_claims(rig: RigDescription, *, p: float, type_a: dict | None = None) 
     virtual rig (JCGM 100 eq. 13 with its own sensitivities). Keys are the outputs (``P1``…, ``gain``).
     """
     inputs, corr = build_inputs(rig, type_a)
-    lin = linear(VirtualRig(rig), inputs, p=p, correlation=corr or None)
+    lin = linear(VirtualRig(rig, type_a), inputs, p=p, correlation=corr or None)
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
         nominal["gain"] = rig.sweep.nominal_gain_deg_per_v

@@ -11,9 +11,12 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from budget.imaging.locator_model import locator_model
-from budget.propagation import Arcsine, InputQuantity, Normal, Rectangular, StudentT
+from budget.propagation import Arcsine, InputQuantity, MultivariateT, Normal, Rectangular
 from budget.rig.description import RigDescription, point_labels
+from budget.rig.evaluation import PointScatter, as_point_scatter
 from budget.rig.geometry import nominal_image_points
 from budget.rig.source import READBACK, SOURCE, source_inputs
 
@@ -26,7 +29,9 @@ PIVOT = "pivot estimate"
 SKEW = "camera skew"
 DIST = "lens distortion"
 TIMING = "frame timing"
-GROUPS = (QUANT, LOCK, NOISE, PIVOT, SKEW, DIST, TIMING, SOURCE, READBACK)
+DRIFT = "drift in frames"
+MISFIT = "lack of fit"
+GROUPS = (QUANT, LOCK, NOISE, DRIFT, PIVOT, SKEW, DIST, TIMING, SOURCE, READBACK, MISFIT)
 
 DESCRIPTIONS = {
     QUANT: "integer-pixel locator: the located position is a whole pixel",
@@ -40,6 +45,10 @@ DESCRIPTIONS = {
     TIMING: "a moving pointer read at the wrong instant: timestamp offset, rolling-shutter rows, jitter",
     SOURCE: "the voltage at the pointer differs from the set point: gain, offset, DAC step, INL, noise",
     READBACK: "the meter that reads the voltage back: its ±% of reading, ±counts and resolution",
+    DRIFT: "the located target moved steadily during a position's frames (a significant trend): where the "
+           "pointer was is uncertain over the drift's extent",
+    MISFIT: "the sweep's readings scatter about the straight line more than their own uncertainties allow "
+            "(χ² test): a per-point discrepancy of the line, carried into the gain and the intercept",
 }
 """What each budget component is, in words; every report shows it beside the component's name."""
 
@@ -49,7 +58,7 @@ def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
 
 
 def build_inputs(
-    rig: RigDescription, type_a: dict[str, tuple[float, float, int]] | None = None
+    rig: RigDescription, type_a: dict[str, PointScatter] | None = None
 ) -> tuple[dict[str, InputQuantity], dict[tuple[str, str], float]]:
     """All input quantities of the virtual rig and their correlations.
 
@@ -57,8 +66,9 @@ def build_inputs(
     ----------
     rig : RigDescription
     type_a : dict, optional
-        Per point label, (s_x/√n, s_y/√n, n) from repeated frames; replaces the
-        light-budget noise of that point by t distributions with n − 1 dof.
+        Per point label, the repeated frames' :class:`PointScatter` (or ``(s_x/√n, s_y/√n, n)``);
+        replaces the light-budget noise of that point by one bivariate t (:func:`type_a_inputs`)
+        and adds its drift term.
 
     Returns
     -------
@@ -84,10 +94,7 @@ def build_inputs(
                 out[f"lock_{ax}_{lab}"] = _q(Arcsine(-a, a), "px", PIVOT if pivot_point else LOCK,
                                              rig.target.source + "; sub-pixel phase unknown (arcsine)")
             if type_a and lab in type_a:
-                sx, sy, n = type_a[lab]
-                s_ax = sx if ax == "x" else sy
-                out[f"noise_{ax}_{lab}"] = _q(StudentT(0.0, s_ax, n - 1), "px", PIVOT if pivot_point else NOISE,
-                                              f"repeated frames, n = {n} (Type A)")
+                pass  # the frames' own scatter, below
             elif lm.noise_px_per_frame > 0:
                 s = lm.noise_px_per_frame / math.sqrt(n_frames)
                 out[f"noise_{ax}_{lab}"] = _q(Normal(0.0, s), "px", PIVOT if pivot_point else NOISE,
@@ -96,6 +103,8 @@ def build_inputs(
                 s = lens.residual_rms_px / math.sqrt(2.0)
                 out[f"resid_{ax}_{lab}"] = _q(Normal(0.0, s), "px", DIST,
                                               lens.source + "; RMS reprojection residual / √2 per axis")
+        if type_a and lab in type_a:
+            out.update(type_a_inputs(as_point_scatter(lab, type_a[lab]), PIVOT if pivot_point else None))
     if lens.distortion == "corrected" and lens.residual_correlation_px > 0:
         _residual_correlation(rig, labels, corr)
     if lens.distortion == "uncorrected" and lens.distortion_edge_pct > 0:
@@ -116,6 +125,38 @@ def build_inputs(
     if rig.sweep is not None and rig.source is not None:
         out.update(source_inputs(rig))
     return out, corr
+
+
+def type_a_inputs(pt: PointScatter, group: str | None = None) -> dict[str, InputQuantity]:
+    """One located point's frames as input quantities: one bivariate t and, if it drifts, a drift term.
+
+    Notes
+    -----
+    The mean position of n frames is one bivariate quantity with covariance S/n (S/n_eff with
+    correlated frames) and ν = n − 1 (n_eff − 1); along the principal axes of that covariance
+    its two components are uncorrelated, so they are two inputs ``noise_major_L`` and
+    ``noise_minor_L`` of one :class:`~budget.propagation.MultivariateT` (JCGM 102 6.5.3): drawn
+    together by Monte Carlo, counted once in ν_eff, and the budget's root-sum-of-squares stays
+    exact. A significant drift D over the frames adds ``drift_L``, rectangular ±|D|/2 along D
+    (JCGM 100 4.3.7: the still position is anywhere along the drift). The model moves the point
+    along each input's direction (:meth:`PointScatter.directions`).
+    """
+    axes = pt.principal_axes()
+    if not axes:
+        raise ValueError(f"position '{pt.label}' has no scatter")  # refused earlier, with the reason
+    variances = [v for _, v, _ in axes]
+    joint = MultivariateT(tuple(0.0 for _ in axes), np.diag(variances), pt.dof, label=pt.label)
+    out = {}
+    for (name, _, vec), dist in zip(axes, joint.components(), strict=True):
+        angle = math.degrees(math.atan2(-vec[1], vec[0])) % 180.0  # counterclockwise on the displayed image
+        out[f"noise_{name}_{pt.label}"] = _q(dist, "px", group or NOISE,
+                                             f"{pt.note}; {name} axis of the frames' scatter, at {angle:.0f}° "
+                                             "on the image; joint t with its partner axis")
+    d = math.hypot(*pt.drift_px)
+    if d > 0:
+        out[f"drift_{pt.label}"] = _q(Rectangular(-0.5 * d, 0.5 * d), "px", group or DRIFT,
+                                      f"{pt.note}; drift of {d:.3g} px over the frames, rectangular over its extent")
+    return out
 
 
 def _k1_bound(rig: RigDescription) -> float:

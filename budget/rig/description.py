@@ -12,8 +12,8 @@ from budget.imaging import optics
 
 __all__ = [
     "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
-    "VoltageSource", "Positions", "Sweep", "Data", "RigDescription", "Assumption", "point_labels",
-    "Goal", "Conformity", "RangeClaimForm",
+    "VoltageSource", "Positions", "Sweep", "Data", "Reference", "MeasuredData", "RigDescription", "Assumption",
+    "point_labels", "Goal", "Conformity", "RangeClaimForm",
 ]
 
 
@@ -56,6 +56,7 @@ class Geometry:
     pivot_offset_x_mm: float = 0.0
     pivot_offset_y_mm: float = 0.0
     zero_direction_deg: float = 90.0
+    travel: str = "counterclockwise"
     target_height_mm: float = 0.0
     target_height_u_mm: float = 0.0
     tilt_bound_deg: float | None = None
@@ -152,8 +153,35 @@ class Sweep:
 
 @dataclass(frozen=True)
 class Data:
+    """Where the measured positions are (``[data]``) and how far a reading may be from its nominal."""
+
     readings_csv: str | None = None
     pivot_csv: str | None = None
+    angle_tolerance_deg: float = 10.0
+
+
+@dataclass(frozen=True)
+class Reference:
+    """Reference angles of the readings (a rotary table, a calibrated dial) with their expanded uncertainty."""
+
+    angles_deg: tuple[float, ...]
+    U_deg: tuple[float, ...]
+    source: str = "assumed"
+
+
+@dataclass(frozen=True, eq=False)
+class MeasuredData:
+    """Located positions read from the data files, in image coordinates (x right, y down, px).
+
+    ``points`` maps a point label to its frames' positions in acquisition order, shape (n, 2);
+    ``images`` gives each frame's image file as recorded ("" when the data file names none);
+    ``files`` lists every file the data rest on as (path, SHA-256, kind, note), kind "data" or
+    "image"; the note says when an image was not found and its recorded SHA-256 is shown.
+    """
+
+    points: dict
+    images: dict
+    files: tuple[tuple[str, str, str, str], ...]
 
 
 @dataclass(frozen=True)
@@ -211,6 +239,7 @@ class RigDescription:
     positions: Positions | None
     sweep: Sweep | None
     data: Data | None = None
+    reference: Reference | None = None
     raw: dict = field(default_factory=dict, compare=False, repr=False)
     assumptions: tuple[Assumption, ...] = ()
     goal: Goal | None = None

@@ -1,11 +1,26 @@
-"""Geometry of the rig, dial to image: the ONE home of the tilt and projection model.
+"""Geometry of the rig, dial to image: the ONE home of the tilt and projection model and of the angle.
 
-Dial frame: the dial plane is z = 0 with the pivot at the origin, z towards the camera; a dial
-angle is measured from the dial's x axis. The dial is tilted by the rotation vector (wx, wy, 0)
-(Rodrigues), shifted by the pivot's offset from the optical axis, and projected by a pinhole at
-the working distance with first-order radial distortion (Brown–Conrady k1). Image coordinates
-are px from the principal point. The virtual rig (:mod:`budget.rig.model`) calls these
-functions for every trial; nothing else in the package projects a point.
+The one convention (README, "Coordinates and directions"):
+
+* **Image coordinates** are those of the image file: x to the right along a row, y down along a
+  column, in px, with the origin at the centre of the top-left pixel (pixel row i, column j has
+  its centre at x = j, y = i). Located positions, data files and this module's outputs use them.
+  The principal point is the centre of the sensor, ((pixels_x − 1)/2, (pixels_y − 1)/2).
+* **Directions** on the displayed image (``zero_direction_deg``, ``tilt_azimuth_deg``) are in
+  degrees counterclockwise from the image's +x axis as the image is displayed: 0° right, 90° up.
+* **Offsets** in the dial plane (``pivot_offset_x_mm``, ``pivot_offset_y_mm``) are along the
+  image's x (right) and y (down) axes.
+* **Readings** are angles travelled from the zero image in the rig's ``travel`` direction
+  ("clockwise" or "counterclockwise" as seen on the displayed image), positive that way.
+
+Internally the dial frame has x to the right, y up and z towards the camera (right-handed), so
+a direction on the displayed image is a dial angle; the dial is tilted by the rotation vector
+(wx, wy, 0) (Rodrigues: a positive tilt about an axis at azimuth φ lifts the dial's side at
+φ + 90° towards the camera), shifted by the pivot's offset from the optical axis, projected by a
+pinhole at the working distance with first-order radial distortion (Brown–Conrady k1), and the
+projection's y (up) is turned into the image's y (down) about the principal point. The virtual
+rig (:mod:`budget.rig.model`) calls these functions for every trial; nothing else in the package
+projects a point.
 
 Arrays of points have the points on the first axis and the trials on the last, shape
 (n_points, T): each point's values are one contiguous row, so a sum over the points is a few
@@ -21,8 +36,19 @@ import numpy as np
 from budget.rig.description import RigDescription
 from budget.rig.pivot import fit_circle
 
-__all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points",
-           "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg"]
+__all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "principal_point",
+           "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg",
+           "screen_angles_deg"]
+
+
+def travel_sign(rig: RigDescription) -> float:
+    """+1 for a pointer travelling counterclockwise on the displayed image, −1 for clockwise."""
+    return 1.0 if rig.geometry.travel == "counterclockwise" else -1.0
+
+
+def principal_point(rig: RigDescription) -> tuple[float, float]:
+    """Image coordinates of the principal point: the sensor's centre, ((W − 1)/2, (H − 1)/2)."""
+    return 0.5 * (rig.camera.pixels_x - 1), 0.5 * (rig.camera.pixels_y - 1)
 
 
 def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy: np.ndarray):
@@ -73,24 +99,28 @@ def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
 
 
 def dial_angles_deg(rig: RigDescription) -> np.ndarray:
-    """Nominal dial angles (deg, from the dial's x axis) of every located point."""
+    """Nominal directions on the displayed image (deg, counterclockwise from +x) of every located point.
+
+    A reading θ points at zero_direction ± θ (+ counterclockwise travel, − clockwise); the
+    pivot arc is centred on the readings' mid-range (or ``arc_centre_deg``, a reading angle).
+    """
     g = rig.geometry
-    z0 = g.zero_direction_deg
-    angles = [z0, *(z0 + a for a in rig.nominal_angles_deg)]
+    z0, s = g.zero_direction_deg, travel_sign(rig)
+    angles = [z0, *(z0 + s * a for a in rig.nominal_angles_deg)]
     if rig.pivot.method == "arc":
         mid = rig.pivot.arc_centre_deg
         if mid is None:
             nominal = rig.nominal_angles_deg
             mid = 0.5 * (min(0.0, *nominal) + max(0.0, *nominal))
         half = rig.pivot.arc_half_angle_deg
-        angles += list(z0 + mid + np.linspace(-half, half, rig.pivot.arc_points))
+        angles += list(z0 + s * (mid + np.linspace(-half, half, rig.pivot.arc_points)))
     elif rig.pivot.method == "mark":
         angles.append(0.0)  # placeholder: the mark's position is set in the model
     return np.array(angles, dtype=float)
 
 
 def nominal_image_points(rig: RigDescription) -> tuple[np.ndarray, np.ndarray]:
-    """Image coordinates (px from the principal point) of every located point, no errors."""
+    """Image coordinates (x right, y down, px) of every located point, no errors."""
     x, y = image_points(rig, {}, 1, dial_angles_deg(rig))
     return x[:, 0], y[:, 0]
 
@@ -114,10 +144,10 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
                  reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Noise-free image coordinates (px from the principal point) of every located point, each (n_points, T).
+    """Noise-free image coordinates (x right, y down, px) of every located point, each (n_points, T).
 
-    ``dial_deg`` are the points' nominal dial angles (:func:`dial_angles_deg`); ``reading_deg``
-    (n_readings, T), if given, replaces the readings' angles relative to the zero direction.
+    ``dial_deg`` are the points' nominal directions (:func:`dial_angles_deg`); ``reading_deg``
+    (n_readings, T), if given, replaces the readings (angles travelled from the zero image).
     ``kw`` holds the trial values (T,) of the geometric inputs (tilt, target height, mark
     offset, k1).
     """
@@ -129,7 +159,7 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     x = np.repeat(r_mm * np.cos(dial), t, axis=1)
     y = np.repeat(r_mm * np.sin(dial), t, axis=1)
     if reading_deg is not None:  # only the readings move from trial to trial
-        moved = np.radians(g.zero_direction_deg + reading_deg)
+        moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
         x[1:1 + n_read] = r_mm * np.cos(moved)
         y[1:1 + n_read] = r_mm * np.sin(moved)
     z = h  # one height per trial, the same for every target point
@@ -141,9 +171,13 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     wx, wy = tilt_vector(rig, kw, t)
     xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
     xr += g.pivot_offset_x_mm
-    yr += g.pivot_offset_y_mm
+    yr -= g.pivot_offset_y_mm  # the offset is along the image's y (down); the dial frame's y is up
     k1 = kw["k1"] if "k1" in kw else 0.0
-    return project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
+    u, v = project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
+    cx, cy = principal_point(rig)
+    u += cx
+    np.subtract(cy, v, out=v)
+    return u, v
 
 
 def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -173,20 +207,28 @@ def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.nda
     return nominal_deg + d
 
 
-def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
-    """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
-
-    ``img_x``, ``img_y`` are (n_points, T), rows following :func:`point_labels`.
+def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
+    """Angle from the vector (x0, y0) to (x, y), both in image coordinates, counterclockwise on screen.
 
     Notes
     -----
-    θ = atan2(r0 × r, r0 · r) with r0, r the zero image and the reading relative to the
-    estimated pivot (never the law of cosines, whose derivative is infinite at zero
-    deflection), on the branch nearest the nominal angle.
+    atan2(r0 × r, r0 · r) with the cross product taken in a y-up frame: with y down it is
+    y0·x − x0·y. atan2, never the law of cosines, whose derivative is infinite at zero
+    deflection. Result in (−180°, 180°].
+    """
+    return np.degrees(np.arctan2(y0 * x - x0 * y, x0 * x + y0 * y))
+
+
+def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
+    """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
+
+    Rows of ``img_x``, ``img_y`` (n_points, T; image coordinates) follow :func:`point_labels`. The angle
+    travelled from the zero image in the rig's ``travel`` direction (:func:`screen_angles_deg`
+    times :func:`travel_sign`), on the branch nearest the nominal reading.
     """
     xc, yc = estimate_pivot(rig, img_x, img_y)
     n_read = len(rig.nominal_angles_deg)
     x0, y0 = img_x[0] - xc, img_y[0] - yc
     xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc
-    angle = np.degrees(np.arctan2(x0 * ys - y0 * xs, x0 * xs + y0 * ys))
+    angle = travel_sign(rig) * screen_angles_deg(x0, y0, xs, ys)
     return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg)[:, None])

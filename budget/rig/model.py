@@ -16,7 +16,8 @@ import numpy as np
 
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
-from budget.rig.geometry import dial_angles_deg, image_points, reading_angles_deg
+from budget.rig.evaluation import as_point_scatter
+from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg
 
 __all__ = ["VirtualRig"]
 
@@ -39,9 +40,14 @@ class VirtualRig:
     (see :mod:`budget.rig.geometry`).
     """
 
-    def __init__(self, rig: RigDescription) -> None:
+    def __init__(self, rig: RigDescription, type_a: dict | None = None) -> None:
         self.rig = rig
         self.labels = point_labels(rig)
+        # input name -> (column, unit vector in the image) of the frames' principal axes and drifts
+        self.directions: dict[str, tuple[int, float, float]] = {}
+        for lab, pt in (type_a or {}).items():
+            for name, (ux, uy) in as_point_scatter(lab, pt).directions().items():
+                self.directions[name] = (self.labels.index(lab), ux, uy)
         self.n_read = len(rig.nominal_angles_deg)
         self.nominal_deg = np.array(rig.nominal_angles_deg)
         self.dial_deg = dial_angles_deg(rig)
@@ -90,6 +96,24 @@ class VirtualRig:
         for ax, arr in (("x", img_x), ("y", img_y)):
             for kind in ("quant", "lock", "noise", "resid"):  # this order of additions per point
                 _add_rows(arr, kw, self.per_point[ax, kind])
+        for key, (j, ux, uy) in self.directions.items():
+            if key in kw:
+                img_x[j] += kw[key] * ux
+                img_y[j] += kw[key] * uy
+        axial = ("noise_major_", "noise_minor_", "drift_")
+        unknown = [k for k in kw if k.startswith(axial) and k not in self.directions]
+        if unknown:  # an error along an axis the model was not told: never drop it silently
+            raise ValueError(f"VirtualRig was built without the Type A data of {unknown}; pass type_a")
+
+    def _misfit_deg(self, kw: dict, t: int) -> np.ndarray | None:
+        """Per-point discrepancies of the straight line (``misfit_Pj``, deg, (n, T)): they enter the fit
+        only; None when there are none."""
+        keys = [(i, f"misfit_P{i + 1}") for i in range(self.n_read)]
+        if not any(key in kw for _, key in keys):
+            return None
+        out = np.zeros((self.n_read, t))
+        _add_rows(out, kw, keys)
+        return out
 
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
@@ -100,10 +124,11 @@ class VirtualRig:
         true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
         img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg)
         if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
-            r = np.radians(kw["roll_deg"])
-            x0, y0 = img_x[0].copy(), img_y[0].copy()
-            img_x[0] = np.cos(r) * x0 - np.sin(r) * y0
-            img_y[0] = np.sin(r) * x0 + np.cos(r) * y0
+            r = np.radians(kw["roll_deg"])  # counterclockwise on the displayed image, about the principal point
+            cx, cy = principal_point(self.rig)
+            x0, y0 = img_x[0] - cx, cy - img_y[0]
+            img_x[0] = cx + np.cos(r) * x0 - np.sin(r) * y0
+            img_y[0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
         self._locator_errors(kw, img_x, img_y)
         angle = reading_angles_deg(self.rig, img_x, img_y)
         if self.rate != 0.0:
@@ -111,9 +136,12 @@ class VirtualRig:
         out = {f"P{i + 1}": angle[i] for i in range(self.n_read)}
         if sweep is not None:
             x = self._fit_volts(kw, t, volts)
-            slope, intercept = ols_batch(x.T, angle.T)
+            misfit = self._misfit_deg(kw, t)
+            slope, intercept = ols_batch(x.T, (angle if misfit is None else angle + misfit).T)
             out["gain"] = slope
             out["intercept"] = intercept
+            if "misfit_new" in kw:  # a rejected line's discrepancy at a new point, for predictions
+                out["line_discrepancy"] = kw["misfit_new"].copy()
         return out
 
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
@@ -123,7 +151,7 @@ class VirtualRig:
         cam = self.rig.camera
         delay = np.full((self.n_read, t), self.stamp_offset_s)
         if cam.shutter == "rolling":
-            rows = 0.5 * cam.pixels_y - img_y  # rows counted from the top of the sensor
-            delay = delay + rows * cam.row_time_us * 1e-6
+            # the row index is the image y (row 0 at the top, read first, at the timestamp)
+            delay = delay + img_y * cam.row_time_us * 1e-6
         _add_rows(delay, kw, self.per_reading["jitter_ms"], 1e-3)
         return self.rate * delay

@@ -69,6 +69,14 @@ def predict_from_sweep(rig: RigDescription, result: RunResult, *, angle_deg: flo
         unit, x_out = "V", angle_deg
         outside = max(v_lo - est_lin, est_lin - v_hi, 0.0)
         what = f"V({angle_deg:g}°)"
+    lof = result.gain_summary.lack_of_fit
+    if lof is not None and lof.significant and "line_discrepancy" in result.joint:
+        # a new point is off the rejected line by the discrepancy too (Paule & Mandel; drawn with K and θ0)
+        d = result.joint["line_discrepancy"]
+        samples = samples + d if volts is not None else samples - d / k
+        u_lin2 += lof.misfit_deg**2 if volts is not None else (lof.misfit_deg / k_est) ** 2
+        warns.append(f"Lack of fit: the sweep's straight line is rejected (χ² = {lof.chi2:.3g}, ν = {lof.dof}); "
+                     f"its discrepancy s_d = {lof.misfit_deg:.2g}° at the new point is in the interval and in u.")
     u_mc = math.sqrt(float(np.var(samples, ddof=1)) + extra**2)
     u_lin = math.sqrt(max(u_lin2, 0.0) + extra**2)
     est = float(np.mean(samples))

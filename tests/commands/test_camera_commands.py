@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import hashlib
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -92,37 +94,61 @@ def test_frames_round_trip_to_csv_and_centroids(tmp_path, capsys, kind):
     # negligible; rounding to integer ADU leaves about 1e-3 px (8-bit) -- tolerance 0.01 px.
     paths, centres = _frames(tmp_path, kind)
     out = tmp_path / "pos.csv"
-    assert main(["frames", *paths, "--roi", "10,5,20,20", "--position", "P2", "--out", str(out)]) == 0
+    assert main(["frames", "--roi", "10,5,20,20", "--position", "P2", *paths, "--out", str(out)]) == 0
     text = capsys.readouterr().out
     assert "6 frames" in text and "drift" in text.lower()
-    data = read_positions_csv(out)
+    data, images = read_positions_csv(out)
     assert list(data) == ["P2"]
     np.testing.assert_allclose(data["P2"], centres, atol=0.01)
-    assert main(["frames", *paths, "--roi", "10,5,20,20", "--json"]) == 0
-    doc = json.loads(capsys.readouterr().out)
+    # every row names its image (relative to the CSV) and that file's SHA-256
+    assert [img for img, _ in images["P2"]] == [Path(p).name for p in paths]
+    assert [sha for _, sha in images["P2"]] == [hashlib.sha256(Path(p).read_bytes()).hexdigest() for p in paths]
+    assert main(["frames", "--roi", "10,5,20,20", "--position", "P2", *paths, "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)["positions"][0]
     assert doc["n"] == 6 and doc["mean_x_px"] == pytest.approx(centres[:, 0].mean(), abs=0.01)
 
 
+def test_frames_many_positions_in_one_call_find_their_targets(tmp_path, capsys):
+    """Two positions, no --roi: each position's target is found and a window centred on it."""
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    pa, ca = _frames(tmp_path / "a", "tif")
+    pb, cb = _frames(tmp_path / "b", "tif")
+    out = tmp_path / "pos.csv"
+    assert main(["frames", "--window", "11", "--position", "Z", *pa, "--position", "P1", *pb,
+                 "--out", str(out)]) == 0
+    data, images = read_positions_csv(out)
+    assert list(data) == ["Z", "P1"]
+    np.testing.assert_allclose(data["Z"], ca, atol=0.01)
+    np.testing.assert_allclose(data["P1"], cb, atol=0.01)
+    assert images["P1"][0][0] == "b/f0.tif"
+
+
 def test_frames_errors_exit_2_and_write_nothing(tmp_path, capsys):
-    paths, _ = _frames(tmp_path, "png", n=3)
+    paths, _ = _frames(tmp_path, "png", n=4)
     out = tmp_path / "pos.csv"
     cases = [
-        (["--roi", "10,5,20"], "--roi"),
-        (["--roi", "30,20,20,20"], "roi"),
-        (["--roi", "0,0,6,6"], "no target found"),
+        (["--roi", "10,5,20", "--position", "Z", *paths], "--roi"),
+        (["--roi", "30,20,20,20", "--position", "Z", *paths], "roi"),
+        (["--roi", "0,0,6,6", "--position", "Z", *paths], "no target found"),
+        (["--position", "Z", *paths[:3]], "Position 'Z' has 3 frames"),
+        (["--window", "8", "--position", "Z", *paths], "--window"),
+        ([], "--position"),
     ]
     for extra, what in cases:
-        assert main(["frames", *paths, *extra, "--out", str(out)]) == 2
-        assert what in capsys.readouterr().err
+        assert main(["frames", *extra, "--out", str(out)]) == 2
+        err = capsys.readouterr().err
+        assert what in err and len(err.strip().splitlines()) == 1
         assert not out.exists()
     broken = tmp_path / "broken.png"
     broken.write_bytes(b"not an image")
-    assert main(["frames", str(broken), *paths, "--roi", "10,5,20,20", "--out", str(out)]) == 2
-    assert "broken.png" in capsys.readouterr().err and not out.exists()
-    assert main(["frames", str(tmp_path / "nope.png"), *paths, "--roi", "10,5,20,20"]) == 2
+    assert main(["frames", "--position", "P3", str(broken), *paths, "--roi", "10,5,20,20", "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "broken.png" in err and "Position 'P3'" in err and not out.exists()
+    assert main(["frames", "--position", "Z", str(tmp_path / "nope.png"), *paths, "--roi", "10,5,20,20"]) == 2
     assert "nope.png" in capsys.readouterr().err
     out.write_text("keep\n", encoding="utf-8")
-    assert main(["frames", *paths, "--roi", "10,5,20,20", "--out", str(out)]) == 2
+    assert main(["frames", "--position", "Z", *paths, "--roi", "10,5,20,20", "--out", str(out)]) == 2
     assert out.read_text(encoding="utf-8") == "keep\n"
 
 
@@ -130,9 +156,9 @@ def test_frames_errors_exit_2_and_write_nothing(tmp_path, capsys):
 def test_frames_refuses_a_formula_like_position(tmp_path, capsys, label):
     """The --position label went verbatim into the first cell of every CSV row, where a spreadsheet
     runs it as a formula (CWE-1236; OWASP CSV injection): refused, exit 2, nothing written."""
-    paths, _ = _frames(tmp_path, "png", n=3)
+    paths, _ = _frames(tmp_path, "png", n=4)
     out = tmp_path / "pos.csv"
-    assert main(["frames", *paths, "--roi", "10,5,20,20", "--position", label, "--out", str(out)]) == 2
+    assert main(["frames", "--roi", "10,5,20,20", "--position", label, *paths, "--out", str(out)]) == 2
     err = capsys.readouterr().err
     assert "--position" in err and len(err.strip().splitlines()) == 1
     assert not out.exists()

@@ -79,6 +79,8 @@ def check_contract(doc: dict, sweep: bool) -> None:
     """The documented JSON contract (README): keys, kinds and finite numbers."""
     assert doc["tool"] == {"name": "thetabudget", "version": __version__}
     assert isinstance(doc["input"]["path"], str) and len(doc["input"]["sha256"]) == 64
+    assert doc["mode"] in ("design", "evaluation") and isinstance(doc["input"]["data"], list)
+    assert (doc["mode"] == "design") == (doc["input"]["data"] == [] and doc["measured_data"] is None)
     assert doc["seed"] == 1 and doc["p"] == 0.95
     assert isinstance(doc["warnings"], list) and all(isinstance(w, str) for w in doc["warnings"])
     assert doc["angles"]
@@ -102,6 +104,7 @@ def check_contract(doc: dict, sweep: bool) -> None:
     assert _is_num(g["nonlinearity_percent_span"])
     assert g["chi2"] is None or _is_num(g["chi2"])  # design mode: nothing measured, null
     assert g["dof"] == len(doc["angles"]) - 2
+    assert g["lack_of_fit"] is None or {"chi2", "dof", "p_value", "significant"} <= set(g["lack_of_fit"])
 
 
 @pytest.mark.parametrize("kind", sorted(STARTERS))
@@ -109,7 +112,7 @@ def test_every_template_runs_and_matches_the_contract(json_runs, kind):
     code, out, err = json_runs[kind]
     assert code == 0, err
     doc = strict_json(out)  # stdout is only JSON, and strict JSON
-    check_contract(doc, sweep=(kind == "sweep"))
+    check_contract(doc, sweep=(kind in ("sweep", "bench")))
     assert doc["input"]["path"] == STARTERS[kind]
 
 

@@ -6,7 +6,8 @@ import tifffile
 from PIL import Image
 
 from budget.errors import BudgetInputError
-from budget.imaging.frames import frames_csv_text, locate_frames, read_frame
+from budget.imaging.frame_sets import PositionFrames, frames_csv_text, locate_positions
+from budget.imaging.frames import find_target_roi, locate_frames, read_frame
 from budget.imaging.locate import centre_of_mass, gaussian_fit
 from budget.imaging.render import expected_electrons
 from budget.report.safe_write import atomic_write
@@ -67,14 +68,14 @@ def test_threshold_method_and_whole_image(tmp_path):
 
 
 def test_drift_check(tmp_path):
-    # Welch t-test between halves (scipy.stats.ttest_ind, equal_var=False).
+    # Least-squares slope against the frame index, t test with n − 2 dof (budget.propagation.type_a).
     (tmp_path / "a").mkdir()
     still = locate_frames(_frames(tmp_path / "a", "tiff16", n=10)[0], roi=ROI)
     assert still.drift_verdict.startswith("No significant drift")
     assert still.drift_p_x > 0.05
     (tmp_path / "b").mkdir()
     moving = locate_frames(_frames(tmp_path / "b", "tiff16", n=10, drift_px=2.0)[0], roi=ROI)
-    assert moving.drift_verdict.startswith("Drift between")
+    assert moving.drift_verdict.startswith("Drift over the frames")
     assert moving.drift_x_px > 0.8 and moving.drift_p_x < 0.05
     assert moving.as_dict()["n"] == 10
 
@@ -83,16 +84,18 @@ def test_csv_columns_overwrite_and_atomic_write(tmp_path):
     paths, _, _ = _frames(tmp_path, "png8", n=4)
     res = locate_frames(paths, roi=ROI)
     out = tmp_path / "frames.csv"
+    sha = {p: "ab" * 32 for p in res.paths}
 
     def write(label, force=False):
-        text = frames_csv_text(res, position_id=label)
+        text = frames_csv_text([PositionFrames(label, res)], sha, tmp_path)
         atomic_write(out, lambda tmp: tmp.write_text(text, encoding="utf-8"), force=force)
 
     write("P3")
     lines = out.read_text().splitlines()
-    assert lines[0] == "position,frame,x_px,y_px"
+    assert lines[0] == "position,frame,x_px,y_px,image,sha256"
     assert len(lines) == 5 and lines[1].startswith("P3,1,")
     assert float(lines[2].split(",")[2]) == pytest.approx(res.x_px[1], abs=1e-6)
+    assert lines[1].split(",")[4:] == ["f000.png", "ab" * 32]  # relative to the CSV's folder
     with pytest.raises(BudgetInputError, match=r"frames\.csv.*|--force") as err:
         write("P3")
     assert "frames.csv" in str(err.value) and "--force" in str(err.value)
@@ -100,7 +103,43 @@ def test_csv_columns_overwrite_and_atomic_write(tmp_path):
     assert out.read_text().splitlines()[1].startswith("P4,1,")
     assert sorted(p.name for p in tmp_path.glob("*.csv*")) == ["frames.csv"]  # no temp left
     with pytest.raises(BudgetInputError, match="position_id"):
-        frames_csv_text(res, position_id="a,b")
+        frames_csv_text([PositionFrames("a,b", res)], sha, tmp_path)
+
+
+def test_target_found_without_roi_despite_a_hot_pixel(tmp_path):
+    """The brightest compact spot wins over a single hot pixel brighter than the spot's peak (a 3 × 3
+    box mean dilutes the hot pixel ninefold); the window is centred on the spot and the located
+    positions agree with those in a hand-set ROI (the same pixels) [derived]."""
+    paths, c, _ = _frames(tmp_path, "tiff16", n=5)
+    hot = []
+    for k, p in enumerate(paths):
+        frame = read_frame(p).copy()
+        frame[3, 45] = 65535  # far from the spot, brighter than its peak
+        q = tmp_path / f"hot{k}.tif"
+        tifffile.imwrite(q, frame)
+        hot.append(q)
+    roi = find_target_roi(np.stack([read_frame(p) for p in hot]), 11)
+    assert roi == (17, 13, 11, 11)  # centred on the pixel nearest (22.3, 17.6)
+    auto = locate_frames(hot, roi="auto", window_px=11)
+    hand = locate_frames(hot, roi=roi)
+    assert auto.roi == roi and auto.x_px == hand.x_px and auto.y_px == hand.y_px
+    assert np.max(np.abs(np.array(auto.x_px) - c[:, 0])) < 0.05
+
+
+def test_mixed_size_or_bit_depth_is_refused(tmp_path):
+    paths, _, img = _frames(tmp_path, "tiff16", n=4)
+    eight = tmp_path / "eight.png"
+    Image.fromarray(np.clip(img[0] / 256, 0, 255).astype(np.uint8)).save(eight)
+    with pytest.raises(BudgetInputError, match="eight.png.*8-bit"):
+        locate_frames([*paths, eight], roi=ROI)
+    (tmp_path / "b").mkdir()
+    other, _, _ = _frames(tmp_path / "b", "png8", n=4)
+    with pytest.raises(BudgetInputError, match="P1.*mixed size or bit depth"):
+        locate_positions([("Z", paths), ("P1", other)], window_px=9)
+    with pytest.raises(BudgetInputError, match="Position 'Z' has 3 frames"):
+        locate_positions([("Z", paths[:3])], window_px=9)
+    with pytest.raises(BudgetInputError, match="Position 'P1': the file"):
+        locate_positions([("Z", paths), ("P1", paths)], window_px=9)
 
 
 def test_bad_roi(tmp_path):

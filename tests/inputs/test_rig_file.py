@@ -202,9 +202,12 @@ def _csv_error(tmp_path: Path, text: str) -> str:
 
 
 def _good_rows() -> list[str]:
+    """Four frames per point in image coordinates (y down) about a mark at (0, 0): the zero image up
+    (zero direction 90°), readings 30° and 90° counterclockwise on the displayed image."""
     rows = []
-    for lab, (x, y) in {"Z": (0.0, 400.0), "P1": (-200.0, 346.4), "P2": (-400.0, 0.0), "M": (0.0, 0.0)}.items():
-        rows += [f"{lab},1,{x + 0.01},{y}", f"{lab},2,{x - 0.01},{y + 0.02}", f"{lab},3,{x},{y - 0.01}"]
+    for lab, (x, y) in {"Z": (0.0, -400.0), "P1": (-200.0, -346.4), "P2": (-400.0, 0.0), "M": (0.0, 0.0)}.items():
+        rows += [f"{lab},1,{x + 0.01},{y}", f"{lab},2,{x - 0.01},{y + 0.02}", f"{lab},3,{x},{y - 0.01}",
+                 f"{lab},4,{x + 0.005},{y - 0.012}"]
     return rows
 
 
@@ -232,6 +235,26 @@ def test_csv_nan_cell_names_the_row(tmp_path, cell):
     rows[2] = f"Z,3,0.0,{cell}"  # file row 4
     msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(rows) + "\n")
     assert "Row 4" in msg and "'y_px'" in msg
+
+
+def test_csv_unknown_position_and_repeated_frame(tmp_path):
+    msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(_good_rows() + ["P7,1,0,0"]) + "\n")
+    assert "P7" in msg and "does not have" in msg
+    rows = _good_rows()
+    rows[5] = rows[4]  # P1 frame 1 twice
+    msg = _csv_error(tmp_path, "position,frame,x_px,y_px\n" + "\n".join(rows) + "\n")
+    assert "P1" in msg and "frame 1 twice" in msg
+
+
+def test_csv_frames_are_taken_in_frame_order(tmp_path):
+    """The drift and autocorrelation checks need acquisition order: rows are sorted by 'frame'."""
+    from budget.inputs.data_csv import read_positions_csv
+
+    rows = _good_rows()
+    (tmp_path / "pos.csv").write_text("position,frame,x_px,y_px\n" + "\n".join(reversed(rows)) + "\n",
+                                      encoding="utf-8")
+    pts, _ = read_positions_csv(tmp_path / "pos.csv")
+    assert pts["Z"][0, 0] == pytest.approx(0.01) and pts["Z"][3, 1] == pytest.approx(-400.012)
 
 
 def test_csv_missing_position(tmp_path):

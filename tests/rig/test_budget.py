@@ -18,7 +18,7 @@ from uncertainties import covariance_matrix, ufloat, umath
 
 from budget.inputs.data_csv import read_rig_data
 from budget.inputs.rig_file import parse_rig
-from budget.propagation import StudentT, linear
+from budget.propagation import JointComponent, linear
 from budget.rig import components as comp
 from budget.rig.budget import run_budget
 from budget.rig.components import build_inputs
@@ -222,20 +222,29 @@ def evaluation(tmp_path_factory):
 
 
 def test_evaluation_type_a_is_t_with_n_minus_1_dof(evaluation):
-    """JCGM 100 4.2.3 (experimental standard deviation of the mean, s/√n, with
-    ν = n − 1) and JCGM 101 6.4.9 (scaled and shifted t): every located point's noise
-    becomes a t distribution with 4 dof for 5 frames, scale s/√n from the data."""
+    """JCGM 100 4.2.3 and C.3.6 (the mean of n observations has covariance S/n with ν = n − 1),
+    JCGM 101 6.4.9 / JCGM 102 6.5.3 (scaled and shifted t): every located point is one bivariate t
+    with 4 dof for 5 frames, carried as two inputs along the principal axes of S/n, so the two
+    axes' variances times their unit vectors rebuild S/n from the data exactly [derived]."""
     rows, ev = evaluation
     assert ev.type_a is not None
     inputs, _ = build_inputs(ev.rig, ev.type_a)
     for lab in point_labels(ev.rig):
-        xs = np.array([r[2] for r in rows if r[0] == lab])
-        for ax, vals in (("x", xs), ("y", np.array([r[3] for r in rows if r[0] == lab]))):
-            q = inputs[f"noise_{ax}_{lab}"]
-            assert isinstance(q.distribution, StudentT)
+        xy = np.array([(r[2], r[3]) for r in rows if r[0] == lab])
+        want = np.cov(xy, rowvar=False, ddof=1) / N_FRAMES
+        got = np.zeros((2, 2))
+        dirs = ev.type_a[lab].directions()
+        parents = set()
+        for axis in ("major", "minor"):
+            q = inputs[f"noise_{axis}_{lab}"]
+            assert isinstance(q.distribution, JointComponent)
             assert q.distribution.dof == N_FRAMES - 1
             assert q.evaluation == "A"
-            assert q.distribution.u == pytest.approx(vals.std(ddof=1) / math.sqrt(N_FRAMES), rel=1e-12)
+            v = np.array(dirs[f"noise_{axis}_{lab}"])
+            got += q.distribution.u**2 * np.outer(v, v)
+            parents.add(id(q.distribution.joint))
+        assert len(parents) == 1  # one joint quantity per point
+        np.testing.assert_allclose(got, want, rtol=1e-9, atol=1e-18)
 
 
 def test_evaluation_angles_come_from_the_data(evaluation):

@@ -74,7 +74,9 @@ def test_measured_angles_replace_the_nominal_ones(evaluated):
 
 
 def test_type_a_noise_is_a_t_distribution_with_n_minus_1_dof(evaluated):
-    """JCGM 100 4.2.3 and G.3: the mean of n frames has s/√n with n − 1 degrees of freedom."""
+    """JCGM 100 4.2.3 and G.3: the mean of n frames has S/n with n − 1 degrees of freedom, one
+    bivariate quantity carried along its two principal axes."""
     _, res = evaluated
-    q = res.inputs["noise_x_P1"]
-    assert q.evaluation == "A" and q.distribution.dof == 5
+    for axis in ("major", "minor"):
+        q = res.inputs[f"noise_{axis}_P1"]
+        assert q.evaluation == "A" and q.distribution.dof == 5

@@ -15,7 +15,7 @@ import pytest
 from budget.inputs.rig_file import parse_rig
 from budget.propagation import Normal, linear, monte_carlo
 from budget.rig.components import build_inputs
-from budget.rig.geometry import nominal_image_points, rotate_tilt
+from budget.rig.geometry import nominal_image_points, principal_point, rotate_tilt
 from budget.rig.model import VirtualRig
 from tests.rigdoc import merge_doc
 
@@ -261,13 +261,20 @@ def test_parallax_shift_of_target_against_mark():
     height h, pivot off-axis by c (image radius ρ = f·|c|/D): the target images at
     f(c + R p̂)/(D − h) and the mark at f·c/D, so relative to the mark the target lies at
     f·R p̂/(D − h) + ρ·h/(D − h)·ĉ: an apparent pivot shift of ρ·h/(D − h) px away from
-    the principal point. Exact projection, so tolerance is rounding (1e-9 px)."""
-    h, d, ox, oy, zero = 3.0, 500.0, 30.0, -20.0, 60.0
+    the principal point. Exact projection, so tolerance is rounding (1e-9 px).
+
+    The derivation is written in a y-up frame about the principal point, so the image points
+    (y down) are turned into it (u = x − cx, v = cy − y) and the offset's y (down the image)
+    becomes −oy there."""
+    h, d, ox, oy_down, zero = 3.0, 500.0, 30.0, 20.0, 60.0
+    oy = -oy_down
     angles = [30.0, 90.0, 200.0]
-    rig = make_rig({"geometry": {"target_height_mm": h, "pivot_offset_x_mm": ox, "pivot_offset_y_mm": oy,
-                                 "zero_direction_deg": zero},
+    rig = make_rig({"geometry": {"target_height_mm": h, "pivot_offset_x_mm": ox, "pivot_offset_y_mm": oy_down,
+                                 "zero_direction_deg": zero, "travel": "counterclockwise"},
                     "positions": {"angles_deg": angles}})
-    x, y = nominal_image_points(rig)
+    xi, yi = nominal_image_points(rig)
+    cx, cy = principal_point(rig)
+    x, y = xi - cx, cy - yi
     f = rig.focal_px
     rho = f * math.hypot(ox, oy) / d
     c_hat = np.array([ox, oy]) / math.hypot(ox, oy)

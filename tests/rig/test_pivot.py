@@ -137,27 +137,67 @@ def test_taubin_start_is_less_biased_than_kasa_on_a_short_arc():
     assert abs(taubin_bias) < 0.2 * abs(kasa_bias)
 
 
+def _moved(x, y, angle, tx, ty):
+    c, s = np.cos(angle), np.sin(angle)
+    return c * x - s * y + tx, s * x + c * y + ty
+
+
+def _cost(x, y, fit):
+    xc, yc, r = fit
+    return np.sum((np.hypot(x - xc[:, None], y - yc[:, None]) - r[:, None]) ** 2, axis=1)
+
+
 @settings(max_examples=40, deadline=None)
 @given(
     seed=st.integers(min_value=0, max_value=2**32 - 1),
     angle=st.floats(min_value=-np.pi, max_value=np.pi),
     tx=st.floats(min_value=-1e3, max_value=1e3),
     ty=st.floats(min_value=-1e3, max_value=1e3),
-    half_angle=st.floats(min_value=0.15, max_value=3.0),
+    half_angle=st.floats(min_value=0.35, max_value=3.0),
 )
 def test_rotating_and_translating_points_moves_the_centre_the_same_way(
     seed, angle, tx, ty, half_angle
 ):
-    # [derived] the geometric fit is equivariant under rigid motions of the plane.
+    """[derived] The geometric fit is equivariant under rigid motions of the plane.
+
+    Where the circle is determined by the data — an arc whose sagitta R(1 − cos α) is at least
+    ~10 σ (here R = 100, σ = 0.5, α >= 0.35 rad) — the minimum is unique and the two fits agree to
+    the solver's tolerance. Shorter arcs are in the next test.
+    """
     rng = np.random.default_rng(seed=seed)
     x, y = _arc(rng, 3, 8, half_angle, 0.5)
-    c, s = np.cos(angle), np.sin(angle)
     xc, yc, r = fit_circle(x, y)
-    xc2, yc2, r2 = fit_circle(c * x - s * y + tx, s * x + c * y + ty)
+    xc2, yc2, r2 = fit_circle(*_moved(x, y, angle, tx, ty))
+    exp_x, exp_y = _moved(xc, yc, angle, tx, ty)
     tol = 1e-8 * (1.0 + np.abs(r))
-    np.testing.assert_array_less(np.abs(xc2 - (c * xc - s * yc + tx)), tol)
-    np.testing.assert_array_less(np.abs(yc2 - (s * xc + c * yc + ty)), tol)
+    np.testing.assert_array_less(np.abs(xc2 - exp_x), tol)
+    np.testing.assert_array_less(np.abs(yc2 - exp_y), tol)
     np.testing.assert_array_less(np.abs(r2 - r), tol)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    seed=st.integers(min_value=0, max_value=2**32 - 1),
+    angle=st.floats(min_value=-np.pi, max_value=np.pi),
+    tx=st.floats(min_value=-1e3, max_value=1e3),
+    ty=st.floats(min_value=-1e3, max_value=1e3),
+    half_angle=st.floats(min_value=0.15, max_value=0.35),
+)
+def test_a_short_arc_moved_rigidly_is_fitted_equally_well(seed, angle, tx, ty, half_angle):
+    """[derived] On a short noisy arc the least-squares circle lies in a long, flat valley.
+
+    With a sagitta of only a few σ the data barely bend (the fitted radius can reach thousands of
+    px), so the centre is not determined: two fits of the same points moved rigidly may stop at
+    points of the valley tens of px apart along it (seen: 70 px at R ≈ 6000 px). What the
+    equivariance guarantees is that both are equally good fits: the sums of squared geometric
+    residuals agree. The solver's fixed Gauss–Newton steps stop short of the valley's floor by up to
+    a relative 1e-4 of the cost (seen over 3000 random arcs of this range), hence 1e-3.
+    """
+    rng = np.random.default_rng(seed=seed)
+    x, y = _arc(rng, 3, 8, half_angle, 0.5)
+    xm, ym = _moved(x, y, angle, tx, ty)
+    first, second = _cost(x, y, fit_circle(x, y)), _cost(xm, ym, fit_circle(xm, ym))
+    np.testing.assert_allclose(second, first, rtol=1e-3)
 
 
 def test_covariance_full_circle_closed_form():
