@@ -1,28 +1,36 @@
-"""Wall time of a whole rig budget (``thetabudget run``) and where it goes.
+"""Wall time of a whole rig budget (``thetabudget run``) against the floor of its own Monte Carlo.
 
 Run by hand (never as a timed test)::
 
-    python benchmarks/bench_run.py                       # the sweep template, best of 3
-    python benchmarks/bench_run.py templates/gauge_static.toml --repeat 1 --profile
+    python benchmarks/bench_run.py                       # the sweep template, best of 5
+    python benchmarks/bench_run.py --points 5 11 21 51   # sweeps of that many set points too
+    python benchmarks/bench_run.py templates/gauge_static.toml --repeat 3 --profile
 
-Rig: ``templates/gain_sweep.toml`` (demo data), in process through ``run_budget`` with
-the adaptive Monte Carlo of JCGM 101 7.9 (u stable to two significant digits). The
-phases are then timed one by one with the same engine calls ``run_budget`` makes:
-the linear method (first order, and with the second-order terms of JCGM 100 eq. 14),
-the adaptive Monte Carlo, and the one-component-at-a-time Monte Carlo of every budget
-component. Baselines for the Monte Carlo: the model alone on pre-drawn inputs for the
-same number of trials (in chunks of 10⁴, as the adaptive sequences are), and the same
-with the input draws. The aim is a few seconds on a 2-core machine.
+1. The command as a user types it, ``thetabudget run FILE --quiet --seed 1``, in a fresh
+   process, against the floor of its own Monte Carlo: a plain numpy process (same
+   interpreter) that draws the same variates (one normal or uniform variate per input of
+   that kind per trial, for the run's number of trials) and sorts its outputs (one array of
+   that many values per output). The two alternate, best of ``--repeat``, in CPU time of the
+   child process (the machine is shared: wall time includes waiting for a core) and in wall
+   time; aim (issue 14): the run ≤ 4 × the floor.
+2. The phases of ``run_budget`` in process, each with the same engine calls it makes.
+3. With ``--points``: the sweep template with that many set points (1 V to 9 V), the whole
+   ``run_budget`` in CPU seconds against the same floor measured in process; aim: 51 points
+   under 5 s.
 """
 
 from __future__ import annotations
 
 import argparse
 import cProfile
+import inspect
 import platform
 import pstats
+import resource
+import subprocess
 import sys
 import time
+import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -30,13 +38,34 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from budget.inputs.rig_file import load_rig  # noqa: E402
-from budget.propagation import linear, monte_carlo  # noqa: E402
+from budget.inputs.rig_file import load_rig, parse_rig  # noqa: E402
+from budget.propagation import Normal, linear, monte_carlo  # noqa: E402
 from budget.rig import components as comp  # noqa: E402
 from budget.rig.budget import component_mc_u, run_budget  # noqa: E402
 from budget.rig.model import VirtualRig  # noqa: E402
+from tests.rigdoc import merge_doc  # noqa: E402
 
-CHUNK = 10_000
+
+def plain_floor(n_normal: int, n_uniform: int, n_out: int, m: int) -> None:
+    """The floor of a run's own Monte Carlo in plain numpy: the same variates drawn (in blocks of
+    trials, so that they stay in the cache: the fastest plain way), one array of the trials'
+    values per output, each sorted."""
+    import numpy as np
+
+    rng = np.random.default_rng(1)
+    outputs = [np.empty(m) for _ in range(n_out)]
+    for s in range(0, m, 8192):
+        n = min(8192, m - s)
+        z = rng.standard_normal((n_normal, n))
+        rng.random((n_uniform, n))
+        for i, y in enumerate(outputs):
+            y[s:s + n] = z[i % n_normal]
+    for y in outputs:
+        y.sort()
+
+
+FLOOR = inspect.getsource(plain_floor) + "import sys\nplain_floor(*(int(a) for a in sys.argv[1:5]))\n"
+"""The floor as a program for a fresh process that imports only numpy."""
 
 
 def _best(fn, repeat: int) -> tuple[float, object]:
@@ -48,80 +77,114 @@ def _best(fn, repeat: int) -> tuple[float, object]:
     return best, out
 
 
-def _draw(inputs: dict, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
-    return {k: q.distribution.sample(rng, n) for k, q in inputs.items()}
+def _kinds(inputs: dict) -> tuple[int, int]:
+    """Inputs drawn as standard normal and as uniform variates (others count as uniform)."""
+    normal = sum(isinstance(q.distribution, Normal) for q in inputs.values())
+    return normal, len(inputs) - normal
+
+
+def floor_in_process(inputs: dict, n_out: int, trials: int) -> float:
+    """CPU seconds of :func:`plain_floor` in this process (without interpreter start)."""
+    normal, uniform = _kinds(inputs)
+    t0 = time.process_time()
+    plain_floor(normal, uniform, n_out, trials)
+    return time.process_time() - t0
+
+
+def whole_command(path: str, repeat: int) -> None:
+    rig = load_rig(path)
+    inputs, _ = comp.build_inputs(rig)
+    res = run_budget(rig, rng=np.random.default_rng(np.random.SeedSequence(1)))  # what seed 1 draws
+    trials = res.outputs[0].monte_carlo.trials
+    normal, uniform = _kinds(inputs)
+    n_out = len(res.outputs)
+    cmd = [sys.executable, "-m", "budget", "run", path, "--quiet", "--seed", "1"]
+    floor = [sys.executable, "-c", FLOOR, str(normal), str(uniform), str(n_out), str(trials)]
+    cpu: dict[str, list[float]] = {"run": [], "floor": []}
+    wall: dict[str, list[float]] = {"run": [], "floor": []}
+    for _ in range(repeat):
+        for name, argv in (("run", cmd), ("floor", floor)):
+            before = resource.getrusage(resource.RUSAGE_CHILDREN)
+            t0 = time.perf_counter()
+            subprocess.run(argv, check=True, capture_output=True)
+            wall[name].append(time.perf_counter() - t0)
+            after = resource.getrusage(resource.RUSAGE_CHILDREN)
+            cpu[name].append(after.ru_utime + after.ru_stime - before.ru_utime - before.ru_stime)
+    c_run, c_floor = min(cpu["run"]), min(cpu["floor"])
+    w_run, w_floor = min(wall["run"]), min(wall["floor"])
+    print(f"thetabudget run {Path(path).name} --quiet --seed 1 (best of {repeat}): {c_run:.2f} s CPU "
+          f"({w_run:.2f} s wall); floor ({normal} normal + {uniform} uniform variates x {trials} trials, "
+          f"{n_out} outputs sorted): {c_floor:.2f} s CPU ({w_floor:.2f} s wall); ratio {c_run / c_floor:.2f} "
+          f"CPU, {w_run / w_floor:.2f} wall (aim <= 4)")
+
+
+def phases(path: str, repeat: int, seed: int) -> None:
+    rig = load_rig(path)
+    t_total, res = _best(lambda: run_budget(rig, rng=np.random.default_rng(seed)), repeat)
+    trials = res.outputs[0].monte_carlo.trials
+    print(f"run_budget in process: {t_total:.2f} s (best of {repeat}), {trials} trials")
+    inputs, corr = comp.build_inputs(rig)
+    model = VirtualRig(rig)
+    corr_arg = corr or None
+    sweep = rig.sweep is not None
+    t: dict[str, float] = {}
+    t["linear, first order"], _ = _best(lambda: linear(model, inputs, correlation=corr_arg), repeat)
+    if not corr:
+        t["linear, with second-order terms (eq. 14)"], _ = _best(
+            lambda: linear(model, inputs, second_order=True), repeat)
+    t["Monte Carlo, adaptive"], _ = _best(lambda: monte_carlo(
+        model, inputs, rng=np.random.default_rng(seed), correlation=corr_arg,
+        joint=("gain", "intercept") if sweep else False), repeat)
+    groups: dict[str, tuple[str, ...]] = {}
+    for name, q in inputs.items():
+        groups[q.group or name] = (*groups.get(q.group or name, ()), name)
+    t[f"Monte Carlo per component ({len(groups)} x 20 000)"], _ = _best(lambda: [
+        component_mc_u(model, inputs, corr, members, rng=np.random.default_rng(seed), p=0.95)
+        for members in groups.values()], repeat)
+    for name, s in t.items():
+        print(f"  {name:<44} {s:7.3f} s {100 * s / t_total:5.1f} %")
+    rest = t_total - sum(t.values())
+    print(f"  {'rest (validation, statements, warnings)':<44} {rest:7.3f} s {100 * rest / t_total:5.1f} %")
+
+
+def sweep_points(points: list[int]) -> None:
+    doc = tomllib.loads((ROOT / "templates" / "gain_sweep.toml").read_text())
+    for n in points:
+        volts = [round(float(v), 6) for v in np.linspace(1.0, 9.0, n)]
+        rig = parse_rig(merge_doc(doc, {"sweep": {"set_points_v": volts}}))
+        inputs, _ = comp.build_inputs(rig)
+        t0, w0 = time.process_time(), time.perf_counter()
+        res = run_budget(rig, rng=np.random.default_rng(1))
+        cpu, wall = time.process_time() - t0, time.perf_counter() - w0
+        trials = res.outputs[0].monte_carlo.trials
+        floor = floor_in_process(inputs, len(res.outputs), trials)
+        print(f"{n:3d} set points, {len(inputs)} inputs, {trials} trials: run_budget {cpu:.2f} s CPU "
+              f"({wall:.2f} s wall); floor {floor:.2f} s CPU; ratio {cpu / floor:.1f}"
+              + ("  (aim: under 5 s)" if n == 51 else ""))
 
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("file", nargs="?", default=str(ROOT / "templates" / "gain_sweep.toml"))
-    ap.add_argument("--repeat", type=int, default=3, help="best of this many runs per phase")
+    ap.add_argument("--repeat", type=int, default=5, help="best of this many runs")
     ap.add_argument("--seed", type=int, default=1)
-    ap.add_argument("--profile", action="store_true", help="cProfile one whole run_budget")
+    ap.add_argument("--points", type=int, nargs="*", default=[], help="sweeps of this many set points")
+    ap.add_argument("--skip-phases", action="store_true")
+    ap.add_argument("--profile", action="store_true", help="cProfile one whole run_budget (CPU time)")
     args = ap.parse_args(argv)
-
-    rig = load_rig(args.file)
-    print(f"rig: {Path(args.file).name}; Python {platform.python_version()}, numpy {np.__version__}, "
-          f"{platform.machine()}")
-
-    t_total, res = _best(lambda: run_budget(rig, rng=np.random.default_rng(args.seed)), args.repeat)
-    trials = res.angles[0].monte_carlo.trials
-    print(f"run_budget, adaptive Monte Carlo: {t_total:.2f} s (best of {args.repeat}), {trials} trials")
-
-    inputs, corr = comp.build_inputs(rig)
-    model = VirtualRig(rig)
-    corr_arg = corr or None
-    phases: dict[str, float] = {}
-    phases["linear, first order"], _ = _best(lambda: linear(model, inputs, correlation=corr_arg), args.repeat)
-    if not corr:
-        phases["linear, second order (eq. 14)"], _ = _best(
-            lambda: linear(model, inputs, second_order=True), args.repeat)
-    t_mc, mc = _best(lambda: monte_carlo(model, inputs, rng=np.random.default_rng(args.seed),
-                                         correlation=corr_arg), args.repeat)
-    phases["Monte Carlo, adaptive"] = t_mc
-    groups: dict[str, tuple[str, ...]] = {}
-    for name, q in inputs.items():
-        groups.setdefault(q.group or name, ())
-        groups[q.group or name] += (name,)
-    per_group = {}
-    for g, members in groups.items():
-        per_group[g], _ = _best(lambda m=members: component_mc_u(model, inputs, corr, m,
-                                                                 rng=np.random.default_rng(args.seed), p=0.95),
-                                args.repeat)
-    phases[f"Monte Carlo per component ({len(groups)} x 20 000)"] = sum(per_group.values())
-    other = t_total - sum(phases.values())
-    print(f"{'phase':<44} {'s':>7} {'share':>7}")
-    for name, t in phases.items():
-        print(f"{name:<44} {t:7.3f} {100 * t / t_total:6.1f} %")
-    print(f"{'rest (summaries, non-linearity, warnings)':<44} {other:7.3f} {100 * other / t_total:6.1f} %")
-    for g, t in per_group.items():
-        print(f"  component '{g}' ({len(groups[g])} inputs): {t:.3f} s")
-
-    m_trials = mc["gain"].trials if rig.sweep is not None else mc[mc.names[0]].trials
-    rng = np.random.default_rng(args.seed)
-    chunks = [_draw(inputs, CHUNK, rng) for _ in range(m_trials // CHUNK)]
-
-    def bare_model():
-        for kw in chunks:
-            model(**kw)
-
-    def bare_draw_model():
-        r = np.random.default_rng(args.seed)
-        for _ in range(m_trials // CHUNK):
-            model(**_draw(inputs, CHUNK, r))
-
-    t_bare, _ = _best(bare_model, args.repeat)
-    t_bare_draw, _ = _best(bare_draw_model, args.repeat)
-    print(f"bare loop, model only, {m_trials} trials in chunks of {CHUNK}: {t_bare:.3f} s; "
-          f"with the draws: {t_bare_draw:.3f} s")
-    print(f"ratio engine Monte Carlo / model only: {t_mc / t_bare:.2f}; / draws + model: {t_mc / t_bare_draw:.2f}")
-
+    print(f"Python {platform.python_version()}, numpy {np.__version__}, {platform.machine()}")
+    whole_command(args.file, args.repeat)
+    if not args.skip_phases:
+        phases(args.file, max(1, args.repeat // 2), args.seed)
+    if args.points:
+        sweep_points(args.points)
     if args.profile:
-        prof = cProfile.Profile()
+        rig = load_rig(args.file)
+        prof = cProfile.Profile(time.process_time)
         prof.enable()
         run_budget(rig, rng=np.random.default_rng(args.seed))
         prof.disable()
-        pstats.Stats(prof).sort_stats("tottime").print_stats(12)
+        pstats.Stats(prof).sort_stats("tottime").print_stats(15)
     return 0
 
 

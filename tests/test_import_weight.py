@@ -6,11 +6,15 @@ Common practice (a guard against import-time creep, as click and similar CLIs te
 import subprocess
 import sys
 
+import pytest
+
+from tests.paths import TEMPLATES
+
 HEAVY = ("scipy", "pandas", "matplotlib", "openpyxl", "rich")
 
 
 def _modules_after(statement: str) -> set[str]:
-    code = f"import sys; {statement}; print(' '.join(sorted(sys.modules)))"
+    code = f"import sys\n{statement}\nprint(' '.join(sorted(sys.modules)))"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     return set(out.stdout.split())
 
@@ -23,3 +27,23 @@ def test_import_budget_is_light():
 def test_cli_parser_is_light():
     loaded = _modules_after("import budget.cli; budget.cli.build_parser()")
     assert not [m for m in HEAVY if m in loaded]
+
+
+RUN_HEAVY = ("scipy", "pandas", "matplotlib", "openpyxl")
+"""What a plain ``run`` (console report only) must not import: it needs numpy, and rich for the
+console table. Coverage factors and normal quantiles come from
+``budget.propagation.quantiles``; the locator model's erf from ``math`` (``imaging/spot.py``)."""
+
+
+@pytest.mark.parametrize("template", ["gain_sweep.toml", "gauge_static.toml", "moving_pointer.toml"])
+def test_run_imports_no_heavy_module(template):
+    # The command as a user types it, in a fresh interpreter (a short Monte Carlo to keep it quick).
+    argv = ["run", str(TEMPLATES / template), "--quiet", "--seed", "1", "--trials", "2000"]
+    loaded = _modules_after(
+        "import contextlib, io\n"
+        "from budget.cli import main\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        f"    rc = main({argv!r})\n"
+        "assert rc == 0, rc"
+    )
+    assert not [m for m in RUN_HEAVY if m in loaded], sorted(m for m in loaded if m.split(".")[0] in RUN_HEAVY)

@@ -34,7 +34,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from budget.errors import field_error
-from budget.imaging.special import erf
+from budget.imaging.special import erf, j1
 
 __all__ = [
     "INTEGER_HALF_WIDTH_PX",
@@ -308,8 +308,6 @@ def disk_locking_amplitude(diameter_px: ArrayLike, blur_sigma_px: ArrayLike) -> 
     spot's marginal profile. For a uniform disk of radius a blurred by a Gaussian of σ_b:
     F(k)/F(0) = 2J1(2πka)/(2πka)·exp(−2π²k²σ_b²).
     """
-    from scipy.special import j1
-
     d = _check_positive(diameter_px, "diameter_px", "disk_locking_amplitude")
     b = _check_non_negative(blur_sigma_px, "blur_sigma_px", "disk_locking_amplitude")
     x = np.pi * d

@@ -27,6 +27,7 @@ from budget.propagation.montecarlo import (
     MultiMonteCarloResult,
     coverage_intervals,
     monte_carlo,
+    monte_carlo_u,
     numerical_tolerance,
 )
 from budget.propagation.quantities import InputQuantity
@@ -36,7 +37,7 @@ from budget.propagation.validation import Validation, validate
 __all__ = [
     "Arcsine", "CurvilinearTrapezoid", "Distribution", "Normal", "Rectangular", "StudentT",
     "Trapezoidal", "Triangular", "MultivariateT", "JointComponent",
-    "InputQuantity", "linear", "monte_carlo", "validate",
+    "InputQuantity", "linear", "monte_carlo", "monte_carlo_u", "validate",
     "LinearResult", "MultiLinearResult", "Row", "GroupRow", "MonteCarloResult",
     "MultiMonteCarloResult", "Validation", "coverage_factor", "coverage_intervals",
     "numerical_tolerance", "round_pair", "statement", "interval_statement",

@@ -12,12 +12,13 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from budget.errors import field_error
 from budget.propagation.joint import collapse_joint, joint_correlation, joint_groups
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
+from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
+from budget.propagation.stencils import axis_points, pair_values, second_order_terms
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
 
@@ -113,11 +114,11 @@ class MultiLinearResult:
 
 
 def coverage_factor(p: float, nu_eff: float) -> float:
-    """k = t_p(ν_eff) (JCGM 100 G.3.4, Table G.2); the normal quantile for ν = ∞."""
-    q = 0.5 * (1.0 + p)
-    if math.isinf(nu_eff):
-        return float(stats.norm.ppf(q))
-    return float(stats.t.ppf(q, nu_eff))
+    """k = t_p(ν_eff) (JCGM 100 G.3.4, Table G.2); the normal quantile for ν = ∞.
+
+    Computed without scipy by :func:`budget.propagation.quantiles.t_quantile`.
+    """
+    return t_quantile(float(p), float(nu_eff))
 
 
 def check_p(p: float) -> float:
@@ -154,67 +155,6 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
     if nu < 1.0:
         return float(nu)
     return float(math.floor(nu * (1.0 + WS_RTOL)))
-
-
-_STEPS = np.array([-2.0, -1.0, 1.0, 2.0])
-PAIR_CHUNK_VALUES = 2_000_000
-"""Input values per model call when evaluating the pair stencil of the second-order terms."""
-
-
-def _axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
-    """x0 moved by −2h, −h, +h, +2h along each input in turn: shape (4n, n)."""
-    n = x0.size
-    col = np.repeat(np.arange(n), 4)
-    pts = np.tile(x0, (4 * n, 1))
-    pts[np.arange(4 * n), col] += np.tile(_STEPS, n) * h[col]
-    return pts
-
-
-def _pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
-                 ii: np.ndarray, jj: np.ndarray) -> dict[str, np.ndarray]:
-    """Model values at x0 ± h2_i e_i ± h2_j e_j for the pairs (ii, jj): {output: (P, 2, 2)}."""
-    n = x0.size
-    a = np.array([-1.0, -1.0, 1.0, 1.0])
-    b = np.array([-1.0, 1.0, -1.0, 1.0])
-    per_call = max(1, PAIR_CHUNK_VALUES // (4 * n))
-    parts: dict[str, list[np.ndarray]] = {}
-    for start in range(0, ii.size, per_call):
-        i, j = ii[start:start + per_call], jj[start:start + per_call]
-        m = i.size
-        pts = np.tile(x0, (4 * m, 1))
-        rows = np.arange(4 * m)
-        ci, cj = np.repeat(i, 4), np.repeat(j, 4)
-        pts[rows, ci] += np.tile(a, m) * h2[ci]
-        pts[rows, cj] += np.tile(b, m) * h2[cj]
-        out = evaluate(model, {nm: pts[:, k] for k, nm in enumerate(names)}, 4 * m)
-        for key, v in out.items():
-            parts.setdefault(key, []).append(v.reshape(m, 2, 2))
-    return {key: np.concatenate(v) for key, v in parts.items()}
-
-
-def _second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
-                        cu: np.ndarray) -> float:
-    """The double sum of JCGM 100 eq. (14) from central differences with steps h = STEP2·u.
-
-    ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
-    ``pairs`` f at x0 ± h_i ± h_j, shape (P, 2, 2) indexed [sign of i, sign of j]; ``cu``
-    the first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
-    matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/STEP2²), so no power of a tiny or huge
-    u is ever formed on its own and nothing under- or overflows.
-    """
-    r = STEP2
-    fm2, fm1, fp1, fp2 = diag.T
-    d2 = (fp1 - 2.0 * f0 + fm1) / r**2  # ∂²f/∂x_i² · u_i²
-    d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * r**3)  # ∂³f/∂x_i³ · u_i³
-    total = float(np.sum(0.5 * d2**2 + cu * d3))
-    if ii.size:
-        g = pairs
-        dij = (g[:, 1, 1] - g[:, 1, 0] - g[:, 0, 1] + g[:, 0, 0]) / (4.0 * r**2)  # · u_i u_j
-        # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis stencil)
-        dijj = ((g[:, 1, 1] - 2.0 * fp1[ii] + g[:, 1, 0]) - (g[:, 0, 1] - 2.0 * fm1[ii] + g[:, 0, 0])) \
-            / (2.0 * r**3)
-        total += float(np.sum(0.5 * dij**2 + cu[ii] * dijj))
-    return total
 
 
 def _groups(
@@ -306,7 +246,7 @@ def linear(
     h = STEP * u
     n_in = len(names)
     h2 = STEP2 * u
-    blocks = [x0[None, :], _axis_points(x0, h)] + ([_axis_points(x0, h2)] if second_order else [])
+    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2)] if second_order else [])
     pts = np.vstack(blocks)
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
     out_names = list(out)
@@ -316,9 +256,8 @@ def linear(
         fm2, fm1, fp1, fp2 = first[on].T
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
     if second_order:
-        ii, jj = np.nonzero(~np.eye(n_in, dtype=bool))
-        pair_f = _pair_values(model, names, x0, h2, ii, jj) if ii.size else \
-            {on: np.empty((0, 2, 2)) for on in out_names}
+        ii, jj, pair_f = pair_values(model, names, x0, h2) if n_in > 1 else \
+            (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((0, 2, 2)) for on in out_names})
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T
@@ -331,7 +270,7 @@ def linear(
         u2_2 = 0.0
         if second_order:
             diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
-            u2_2 = _second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu)
+            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu, STEP2)
         u_c2 = u1_2 + u2_2
         if u_c2 < 0:
             u_c2 = 0.0

@@ -1,20 +1,22 @@
 """Propagation of distributions by Monte Carlo (JCGM 101:2008 clause 7).
 
-Inputs are sampled in chunks so that memory stays bounded by the outputs kept
-(one float per trial and output), not by the inputs: 10⁷ trials of a ten-input
-model never hold all input samples at once.
+Inputs are sampled in chunks and the outputs streamed (:mod:`budget.propagation.streaming`),
+so memory stays bounded by the outputs kept: one float per trial and output, sorted in
+place for the intervals, plus a trial-order copy of the outputs asked for (``joint``).
+10⁷ trials of a ten-input model never hold all input samples at once, nor a matrix of every
+output of every trial.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Collection, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from budget.errors import field_error
-from budget.propagation.distributions import Normal
+from budget.propagation.distributions import Normal, Rectangular
 from budget.propagation.joint import draw_joint, joint_groups
 from budget.propagation.lpu import check_p
 from budget.propagation.model import (
@@ -26,12 +28,17 @@ from budget.propagation.model import (
     evaluate,
 )
 from budget.propagation.quantities import as_quantities
+from budget.propagation.streaming import Accumulator, Derived, Moments
 
-__all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "coverage_intervals",
-           "numerical_tolerance"]
+__all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "monte_carlo_u",
+           "coverage_intervals", "numerical_tolerance"]
 
-CHUNK_VALUES = 2_000_000
-"""Input values drawn per model call (chunk size × number of inputs)."""
+CHUNK_VALUES = 262_144
+"""Input values drawn per model call (chunk size × number of inputs): small enough that a
+model's arrays of one chunk stay in the processor's cache, large enough that a call's own
+cost is spread over many trials."""
+MIN_CHUNK = 1000
+"""Fewest trials per model call, however many inputs."""
 MAX_TRIALS = 10_000_000
 """Upper bound of the adaptive procedure; reaching it is reported as a warning."""
 MAX_VALUES = 100_000_000
@@ -39,6 +46,7 @@ MAX_VALUES = 100_000_000
 
 
 def _check_size(trials: int, outputs: int) -> None:
+    """Refuse, before the columns of the outputs are allocated, more values than :data:`MAX_VALUES`."""
     if trials * outputs > MAX_VALUES:
         raise field_error("trials", f"at most {MAX_VALUES // outputs:,} for a model with {outputs} outputs "
                           f"(trials × outputs <= {MAX_VALUES:,}, the memory the results take)", trials)
@@ -69,7 +77,11 @@ class MonteCarloResult:
 
 @dataclass(frozen=True)
 class MultiMonteCarloResult:
-    """Monte Carlo for several outputs: per-output results and their joint covariance."""
+    """Monte Carlo for several outputs: per-output results and their joint covariance.
+
+    ``joint`` holds, in trial order, the outputs asked for with ``monte_carlo(joint=...)``
+    (all of them by default) and the per-trial values of ``derived``.
+    """
 
     results: dict[str, MonteCarloResult]
     names: tuple[str, ...]
@@ -87,6 +99,17 @@ class MultiMonteCarloResult:
         return correlation_from_covariance(self.covariance)
 
 
+def _symmetric_ranks(m: int, p: float) -> tuple[int, int]:
+    """q and r of JCGM 101 7.7.2 for M = m values (r 1-based); M >= q + 1 is required."""
+    pm = p * m
+    q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
+    if q >= m:  # y_(r+q) with r >= 1 needs M >= q + 1
+        raise field_error("sorted_y", f"at least {q + 1} values for p = {p:g} (JCGM 101 7.7.2)",
+                          f"{m} values")
+    r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
+    return q, max(r, 1)
+
+
 def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[float, float]]:
     """Probabilistically symmetric and shortest coverage intervals of sorted values.
 
@@ -99,13 +122,7 @@ def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, flo
     :class:`budget.errors.BudgetInputError`.
     """
     m = sorted_y.size
-    pm = p * m
-    q = int(pm) if float(pm).is_integer() else int(pm + 0.5)
-    if q >= m:  # y_(r+q) with r >= 1 needs M >= q + 1
-        raise field_error("sorted_y", f"at least {q + 1} values for p = {p:g} (JCGM 101 7.7.2)",
-                          f"{m} values")
-    r = (m - q) // 2 if (m - q) % 2 == 0 else int((m - q + 1) / 2)
-    r = max(r, 1)
+    q, r = _symmetric_ranks(m, p)
     symmetric = (float(sorted_y[r - 1]), float(sorted_y[r + q - 1]))
     widths = sorted_y[q:] - sorted_y[: m - q]
     rs = int(np.argmin(widths))
@@ -135,6 +152,8 @@ class _Sampler:
         self.joint = joint_groups(self.dists)  # drawn together (JCGM 102 6.5.3)
         self.corr_idx: list[int] = []
         self.factor = None
+        self.normal: list[int] = []
+        self.uniform: list[int] = []
         if r is not None:
             involved = [i for i in range(len(self.names)) if np.any(r[i, np.arange(len(r)) != i] != 0)]
             for i in involved:
@@ -146,6 +165,15 @@ class _Sampler:
                     )
             self.corr_idx = involved
             self.factor = correlated_factor(r[np.ix_(involved, involved)])
+        # Uncorrelated normal and rectangular inputs are drawn together, one call each
+        # (JCGM 101 6.4.7, 6.4.3: μ + σz and a + (b − a)u from standard variates).
+        for i, d in enumerate(self.dists):
+            if i not in self.corr_idx and type(d) in (Normal, Rectangular):
+                (self.normal if type(d) is Normal else self.uniform).append(i)
+        self.loc = np.array([[self.dists[i].mean] for i in self.normal])
+        self.scale = np.array([[self.dists[i].sd] for i in self.normal])
+        self.low = np.array([[self.dists[i].low] for i in self.uniform])
+        self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
 
     def draw(self, rng: np.random.Generator, size: int) -> dict[str, np.ndarray]:
         out: dict[str, np.ndarray] = draw_joint(rng, size, self.names, self.dists, self.joint)
@@ -154,30 +182,30 @@ class _Sampler:
             for col, i in enumerate(self.corr_idx):
                 d = self.dists[i]
                 out[self.names[i]] = d.mean + d.sd * z[:, col]
+        if self.normal:
+            z = rng.standard_normal(size=(len(self.normal), size))
+            z *= self.scale
+            z += self.loc
+            out.update((self.names[i], row) for i, row in zip(self.normal, z, strict=True))
+        if self.uniform:
+            u = rng.random(size=(len(self.uniform), size))
+            u *= self.width
+            u += self.low
+            out.update((self.names[i], row) for i, row in zip(self.uniform, u, strict=True))
         for i, nm in enumerate(self.names):
             if nm not in out:
                 out[nm] = self.dists[i].sample(rng, size)
         return out
 
 
-def _run(model: Model, sampler: _Sampler, rng: np.random.Generator, trials: int,
-         chunk: int) -> dict[str, list[np.ndarray]]:
-    parts: dict[str, list[np.ndarray]] = {}
-    done = 0
-    while done < trials:
-        n = min(chunk, trials - done)
-        out = evaluate(model, sampler.draw(rng, n), n)
-        _check_size(trials, len(out))
-        for k, v in out.items():
-            parts.setdefault(k, []).append(v)
-        done += n
-    return parts
-
-
 def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
-    s = np.sort(y)
-    (lo, hi), _ = coverage_intervals(s, p)
-    return float(y.mean()), float(y.std(ddof=1)), lo, hi
+    """Mean, u and the probabilistically symmetric interval of one sequence (JCGM 101 7.9.4 b-d).
+
+    The interval needs two order statistics, so the values are partitioned, not sorted.
+    """
+    q, r = _symmetric_ranks(y.size, p)
+    part = np.partition(y, (r - 1, r + q - 1))
+    return float(y.mean()), float(y.std(ddof=1)), float(part[r - 1]), float(part[r + q - 1])
 
 
 def monte_carlo(
@@ -191,6 +219,8 @@ def monte_carlo(
     n_dig: int = 2,
     max_trials: int = MAX_TRIALS,
     progress: Callable[[int], None] | None = None,
+    joint: bool | Collection[str] = True,
+    derived: Derived | None = None,
 ) -> MonteCarloResult | MultiMonteCarloResult:
     """Propagate the input distributions through ``model`` by Monte Carlo.
 
@@ -214,13 +244,20 @@ def monte_carlo(
         Cap of the adaptive procedure.
     progress : callable, optional
         Called with the number of trials done so far.
+    joint : bool or collection of str
+        Outputs of a multi-output model also kept in trial order in ``joint`` (True: all,
+        False: none); the intervals and covariance never need them.
+    derived : mapping, optional
+        ``{name: f(outputs) -> array}``: one more value per trial computed from each chunk's
+        outputs (a mapping of output arrays), kept in trial order in ``joint``.
 
     Notes
     -----
     Estimate and u from all M values (7.6, u with M − 1); intervals per 7.7 and
     7.8. Adaptive: sequences of M = max(J, 10⁴) trials with J the least integer
     ≥ 100/(1 − p), until twice the standard deviation of each sequence average
-    (y, u, y_low, y_high) is at most δ of 7.9.2 for every output (7.9.4).
+    (y, u, y_low, y_high) is at most δ of 7.9.2 for every output (7.9.4). Means and
+    the covariance are accumulated chunk by chunk (:class:`streaming.Moments`).
     """
     p = check_p(p)
     q = as_quantities(inputs)
@@ -230,61 +267,123 @@ def monte_carlo(
     sampler = _Sampler(q, r)
     j_min = math.ceil(100.0 / (1.0 - p) - 1e-9)
     seed = getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
-    chunk = max(1000, CHUNK_VALUES // max(1, len(q)))
+    chunk = max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q)))
     warns: list[str] = []
     if trials is not None:
         if not isinstance(trials, int | np.integer) or trials < j_min:
             raise field_error("trials", f"an integer >= {j_min} (100/(1-p), JCGM 101 7.9.4)", trials)
-        parts = _run(model, sampler, rng, int(trials), chunk)
+        acc = Accumulator(int(trials), joint, derived)
+        done = 0
+        while done < trials:
+            n = min(chunk, int(trials) - done)
+            out = evaluate(model, sampler.draw(rng, n), n)
+            if not done:
+                _check_size(int(trials), len(out))
+            acc.add(out)
+            done += n
         if progress:
             progress(int(trials))
         converged, adaptive = True, False
     else:
+        acc = Accumulator(None, joint, derived)
         seq = max(j_min, 10_000)
-        per_call = max(1, min(10, chunk // seq))  # at most 10 sequences drawn per model call
-        parts = {}
         stats: dict[str, list[tuple[float, float, float, float]]] = {}
         converged, adaptive, h = False, True, 0
         while h * seq < max_trials and not converged:
-            n_seq = min(per_call, (max_trials - h * seq) // seq) or 1
-            out = evaluate(model, sampler.draw(rng, n_seq * seq), n_seq * seq)
-            max_trials = min(max_trials, max(seq, MAX_VALUES // len(out) // seq * seq))
-            for k, v in out.items():
-                parts.setdefault(k, []).append(v)
-                for s in range(n_seq):
-                    stats.setdefault(k, []).append(_summaries(v[s * seq:(s + 1) * seq], p))
-            # JCGM 101 7.9.4 h): the criterion is checked after every sequence, so a batch
-            # drawn in one model call is cut back to the first sequence that meets it.
-            for _ in range(n_seq):
-                h += 1
-                if h >= 2 and all(_stable(np.array(stats[k][:h]), n_dig) for k in stats):
-                    converged = True
-                    break
+            # One sequence (7.9.4 b), drawn and streamed in chunks; its summaries (c, d) from
+            # its own values, then the criterion after every sequence (f-h).
+            parts: dict[str, list[np.ndarray]] = {}
+            done = 0
+            while done < seq:
+                n = min(chunk, seq - done)
+                out = evaluate(model, sampler.draw(rng, n), n)
+                if not h and not done:  # the outputs kept must fit: the procedure stops there
+                    max_trials = min(max_trials, max(seq, MAX_VALUES // len(out) // seq * seq))
+                acc.add(out)
+                for k, v in out.items():
+                    parts.setdefault(k, []).append(v)
+                done += n
+            for k, v in parts.items():
+                stats.setdefault(k, []).append(_summaries(np.concatenate(v), p))
+            h += 1
+            converged = h >= 2 and all(_stable(np.array(st), n_dig) for st in stats.values())
             if progress:
                 progress(h * seq)
-        if converged:
-            parts = {k: [np.concatenate(v)[: h * seq]] for k, v in parts.items()}
         if not converged:
             warns.append(
                 f"The adaptive Monte Carlo procedure did not stabilize {n_dig} significant "
                 f"digits within {max_trials} trials (JCGM 101 7.9)."
             )
-    joint = {k: np.concatenate(v) for k, v in parts.items()}
+    m = acc.moments.n
+    cov = np.atleast_2d(acc.moments.covariance())
     results: dict[str, MonteCarloResult] = {}
-    for k, y in joint.items():
-        s = np.sort(y)
+    for i, k in enumerate(acc.names):
+        s = acc.sorted_values(k)
         sym, short = coverage_intervals(s, p)
         results[k] = MonteCarloResult(
-            output=k, estimate=float(y.mean()), u=float(y.std(ddof=1)), interval=sym,
-            shortest=short, trials=int(y.size), p=p, seed=seed, adaptive=adaptive,
+            output=k, estimate=float(acc.moments.mean[i]), u=math.sqrt(max(float(cov[i, i]), 0.0)),
+            interval=sym, shortest=short, trials=m, p=p, seed=seed, adaptive=adaptive,
             converged=converged, samples=s, warnings=tuple(warns),
         )
-    names = tuple(joint)
-    if names == (SINGLE,):
+    if acc.names == (SINGLE,):
         return results[SINGLE]
-    cov = np.atleast_2d(np.cov(np.vstack([joint[k] for k in names])))
-    return MultiMonteCarloResult(results=results, names=names, covariance=cov,
-                                 trials=int(joint[names[0]].size), seed=seed, joint=joint)
+    return MultiMonteCarloResult(results=results, names=acc.names, covariance=cov,
+                                 trials=m, seed=seed, joint=acc.joint_values())
+
+
+def monte_carlo_u(
+    model: Model,
+    inputs: Mapping,
+    trials: int,
+    *,
+    rng: np.random.Generator,
+    correlation: Mapping[tuple[str, str], float] | None = None,
+) -> dict[str, float]:
+    """Standard uncertainty of every output from ``trials`` Monte Carlo trials, and nothing else.
+
+    Parameters
+    ----------
+    model : callable
+        Vectorized model, as for :func:`monte_carlo`.
+    inputs : mapping
+        Input names to :class:`Distribution` or :class:`InputQuantity`.
+    trials : int
+        Number of trials M (at least 2).
+    rng : numpy.random.Generator
+        Source of random numbers.
+    correlation : mapping, optional
+        ``{(a, b): r}`` between Normal inputs.
+
+    Returns
+    -------
+    dict
+        ``{output name: u}`` (the model's single output is named ``"y"``).
+
+    Notes
+    -----
+    Same sampling as :func:`monte_carlo` with fixed trials (the same draws from the same
+    generator state), but no output value is kept and nothing is sorted: for figures that
+    need only u(y) = s with M − 1 (JCGM 101 7.6), such as one budget component at a time.
+    """
+    q = as_quantities(inputs)
+    if not isinstance(rng, np.random.Generator):
+        raise field_error("rng", "a numpy.random.Generator", rng)
+    if not isinstance(trials, int | np.integer) or trials < 2:
+        raise field_error("trials", "an integer >= 2", trials)
+    sampler = _Sampler(q, correlation_matrix(list(q), correlation))
+    chunk = max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q)))
+    moments: Moments | None = None
+    names: tuple[str, ...] = ()
+    done = 0
+    while done < trials:
+        n = min(chunk, int(trials) - done)
+        out = evaluate(model, sampler.draw(rng, n), n)
+        if moments is None:
+            names, moments = tuple(out), Moments(len(out))
+        moments.add([out[k] for k in names])
+        done += n
+    cov = moments.covariance()
+    return {k: math.sqrt(max(float(cov[i, i]), 0.0)) for i, k in enumerate(names)}
 
 
 def _stable(seq_stats: np.ndarray, n_dig: int) -> bool:

@@ -12,7 +12,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from budget.errors import field_error
 
@@ -119,6 +118,8 @@ def _lag1(e: np.ndarray) -> tuple[float, float, float]:
     so ρ̂ = (n r1 + 1)/(n − 3). Under white noise r1 has mean ≈ −1/n and variance ≈ 1/n
     (large-sample result, value from memory): z = (r1 + 1/n)√n against the normal.
     """
+    from scipy import stats  # here, not at import: a design run never needs scipy
+
     n = e.size
     den = float(np.sum(e * e))
     if den == 0.0:
@@ -131,6 +132,8 @@ def _lag1(e: np.ndarray) -> tuple[float, float, float]:
 
 def _slope(v: np.ndarray) -> tuple[float, float, np.ndarray]:
     """Least-squares slope of v against 0…n−1, its two-sided p-value (t, n − 2 dof), the residuals."""
+    from scipy import stats  # here, not at import: a design run never needs scipy
+
     n = v.size
     k = np.arange(n, dtype=float) - 0.5 * (n - 1)
     b = float(np.sum(k * (v - v.mean())) / np.sum(k * k))
@@ -206,5 +209,7 @@ def variance_ratio_interval(nu: float, p: float = 0.95) -> tuple[float, float]:
     νs²/σ² ~ χ²_ν for normal observations, so s²/σ² lies in
     [χ²_ν((1 − p)/2)/ν, χ²_ν((1 + p)/2)/ν] with probability p (scipy.stats.chi2.ppf).
     """
+    from scipy import stats  # here, not at import: a design run never needs scipy
+
     lo, hi = stats.chi2.ppf([(1.0 - p) / 2.0, (1.0 + p) / 2.0], nu)
     return float(lo / nu), float(hi / nu)

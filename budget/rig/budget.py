@@ -23,6 +23,7 @@ from budget.propagation import (
     interval_statement,
     linear,
     monte_carlo,
+    monte_carlo_u,
     statement,
     validate,
 )
@@ -41,12 +42,17 @@ GROUP_TRIALS = 20_000
 
 
 def _fixed_model(model, inputs: dict[str, InputQuantity], keep: tuple[str, ...]):
-    """The model with every input outside ``keep`` held at its estimate."""
-    means = {k: q.distribution.mean for k, q in inputs.items() if k not in keep}
+    """The model with every input outside ``keep`` held at its estimate.
+
+    The held inputs are read-only broadcast views of their estimates (no array is filled per
+    call; a model that wrote into its inputs would fail loudly).
+    """
+    means = np.array([q.distribution.mean for k, q in inputs.items() if k not in keep])
+    held = [k for k in inputs if k not in keep]
 
     def wrapped(**kw):
         n = len(next(iter(kw.values())))
-        full = {k: np.full(n, v) for k, v in means.items()}
+        full = dict(zip(held, np.broadcast_to(means[:, None], (means.size, n)), strict=True))
         full.update(kw)
         return model(**full)
 
@@ -64,9 +70,7 @@ def component_mc_u(model, inputs: dict[str, InputQuantity], corr: dict, members:
     sub = {k: inputs[k] for k in members}
     sub_corr = {pair: r for pair, r in corr.items() if pair[0] in sub and pair[1] in sub} or None
     trials = max(GROUP_TRIALS, math.ceil(100.0 / (1.0 - p) - 1e-9))
-    res = monte_carlo(_fixed_model(model, inputs, members), sub, p, trials, rng=rng,
-                      correlation=sub_corr)
-    return {name: res[name].u for name in res.names}
+    return monte_carlo_u(_fixed_model(model, inputs, members), sub, trials, rng=rng, correlation=sub_corr)
 
 
 def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) -> tuple[ComponentLine, ...]:
@@ -137,13 +141,25 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     )
 
 
-def _nonlinearity_pct(rig: RigDescription, joint: dict[str, np.ndarray], n: int) -> tuple[float, float]:
-    """Largest |residual| of the straight line as % of the angle span, from the joint samples."""
-    y = np.column_stack([joint[f"P{i + 1}"] for i in range(n)])
+NONLINEARITY = "nonlinearity_pct"
+"""Per-trial value the sweep's Monte Carlo keeps beside its outputs (``derived``)."""
+
+
+def _nonlinearity_per_trial(rig: RigDescription) -> Callable[[dict[str, np.ndarray]], np.ndarray]:
+    """Largest |residual| of each trial's straight line as % of its angle span, from a chunk's outputs."""
     x = np.array(rig.sweep.set_points_v)
-    _, _, res = ols_batch_residuals(x, y)
-    span = np.ptp(y, axis=1)
-    nl = 100.0 * np.max(np.abs(res), axis=1) / span
+    names = [f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))]
+
+    def per_trial(out: dict[str, np.ndarray]) -> np.ndarray:
+        y = np.column_stack([out[k] for k in names])
+        _, _, res = ols_batch_residuals(x, y)
+        return 100.0 * np.max(np.abs(res), axis=1) / np.ptp(y, axis=1)
+
+    return per_trial
+
+
+def _nonlinearity_pct(nl: np.ndarray) -> tuple[float, float]:
+    """Mean and 95th percentile over the trials of the per-trial non-linearity."""
     return float(nl.mean()), float(np.quantile(nl, 0.95))
 
 
@@ -219,7 +235,14 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             inputs = {**inputs, **checks.misfit_inputs(rig, lof)}
             lin = linear(model, inputs, p=p, correlation=corr_arg)
     lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
-    mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress)
+    # Kept in trial order: what predict propagates further ((K, θ0), and a rejected line's
+    # discrepancy at a new point), and each trial's non-linearity; the intervals, histograms and
+    # correlations need no trial order.
+    sweep = rig.sweep is not None
+    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()))
+    mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress,
+                     joint=keep if sweep else False,
+                     derived={NONLINEARITY: _nonlinearity_per_trial(rig)} if sweep else None)
     groups: dict[str, tuple[str, ...]] = {}
     for name, q in inputs.items():
         groups.setdefault(q.group or name, ())
@@ -246,7 +269,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         corr_lin = lin.correlation[ig, ii]
         jg, ji = mc.names.index("gain"), mc.names.index("intercept")
         corr_mc = float(mc.correlation[jg, ji])
-        nl_mean, nl_95 = _nonlinearity_pct(rig, mc.joint, len(rig.nominal_angles_deg))
+        nl_mean, nl_95 = _nonlinearity_pct(mc.joint[NONLINEARITY])
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
                               correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
                               nonlinearity_p95_pct=nl_95, chi2=lof.chi2 if lof is not None else None,
@@ -270,7 +293,8 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
-        locator_notes=notes, joint=mc.joint, assumptions=rig.assumptions,
+        locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != NONLINEARITY},
+        assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
     )
 

@@ -13,7 +13,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats
 
 from budget.fit import straight_line
 from budget.propagation import InputQuantity, MultivariateT, Normal
@@ -81,6 +80,8 @@ def lack_of_fit(rig: RigDescription, u_own: list[float], measured: tuple[float, 
     p = P(χ²_ν > χ²) (scipy.stats.chi2.sf); the line is rejected when χ² > χ²_ν(0.95)
     (ISO/TS 28037:2010, validation of the model by the χ² test).
     """
+    from scipy import stats  # here, not at import: a design run never needs scipy
+
     x = np.array(rig.sweep.set_points_v)
     y = np.array(measured)
     u = np.array(u_own)

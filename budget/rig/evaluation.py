@@ -268,6 +268,6 @@ def measured_angles_deg(rig: RigDescription, data: dict[str, np.ndarray]) -> np.
     """Angles of the readings about the pivot, relative to the zero image, from mean positions (image coordinates)."""
     mean = {k: np.asarray(v).mean(axis=0) for k, v in data.items()}
     labels = point_labels(rig)
-    img_x = np.array([[mean[k][0] for k in labels]])
-    img_y = np.array([[mean[k][1] for k in labels]])
-    return reading_angles_deg(rig, img_x, img_y)[0]
+    img_x = np.array([[mean[k][0]] for k in labels])  # (n_points, 1): one trial
+    img_y = np.array([[mean[k][1]] for k in labels])
+    return reading_angles_deg(rig, img_x, img_y)[:, 0]

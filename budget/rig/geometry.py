@@ -21,6 +21,10 @@ pinhole at the working distance with first-order radial distortion (Brown–Conr
 projection's y (up) is turned into the image's y (down) about the principal point. The virtual
 rig (:mod:`budget.rig.model`) calls these functions for every trial; nothing else in the package
 projects a point.
+
+Arrays of points have the points on the first axis and the trials on the last, shape
+(n_points, T): each point's values are one contiguous row, so a sum over the points is a few
+vector additions and a point's coordinate is a contiguous slice.
 """
 
 from __future__ import annotations
@@ -53,18 +57,30 @@ def rotate_tilt(x: np.ndarray, y: np.ndarray, z: np.ndarray, wx: np.ndarray, wy:
     The dial plane tilted by β = |w| about the in-plane axis at azimuth
     atan2(wy, wx). In the orthographic limit a dial angle θ is seen at θ′ with
     tan(θ′ − φ) = cos β·tan(θ − φ) [derived].
+
+    Notes
+    -----
+    R = cos β·I + (sin β/β)[w]× + ((1 − cos β)/β²) w wᵀ; its entries are formed once per
+    rotation (the shape of ``wx``) and applied to every point, e.g. x′ = R00 x + R01 y + R02 z.
     """
-    beta2 = wx * wx + wy * wy
-    beta = np.sqrt(beta2)
+    beta = np.sqrt(wx * wx + wy * wy)
     c = np.cos(beta)
     a = np.sinc(beta / np.pi)  # sin β / β, exact at β = 0
     b = 0.5 * np.sinc(beta / (2 * np.pi)) ** 2  # (1 − cos β)/β²
-    dot = wx * x + wy * y
-    # w × v with w = (wx, wy, 0)
-    cx, cy, cz = wy * z, -wx * z, wx * y - wy * x
-    return (c * x + a * cx + b * wx * dot,
-            c * y + a * cy + b * wy * dot,
-            c * z + a * cz)
+    bxy = b * wx * wy
+    awx, awy = a * wx, a * wy
+    # Accumulated in place, left to right as written: x′ = (R00 x + R01 y) + R02 z, etc.
+    xr = (c + b * wx * wx) * x
+    tmp = np.multiply(bxy, y)
+    xr += tmp
+    xr += awy * z
+    yr = bxy * x
+    yr += np.multiply(c + b * wy * wy, y, out=tmp)
+    yr -= awx * z
+    zr = awx * y
+    zr -= np.multiply(awy, x, out=tmp)
+    zr += c * z
+    return xr, yr, zr
 
 
 def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
@@ -73,7 +89,8 @@ def project(x, y, z, *, focal_px: float, distance_mm: float, k1=0.0):
     Radial lens distortion x_d = x(1 + k1·r²) on normalized coordinates
     (Brown–Conrady, first radial term).
     """
-    s = focal_px / (distance_mm - z)
+    s = np.subtract(distance_mm, z)
+    np.divide(focal_px, s, out=s)
     u, v = s * x, s * y
     if np.any(k1 != 0.0):
         r2 = (u * u + v * v) / focal_px**2
@@ -105,7 +122,7 @@ def dial_angles_deg(rig: RigDescription) -> np.ndarray:
 def nominal_image_points(rig: RigDescription) -> tuple[np.ndarray, np.ndarray]:
     """Image coordinates (x right, y down, px) of every located point, no errors."""
     x, y = image_points(rig, {}, 1, dial_angles_deg(rig))
-    return x[0], y[0]
+    return x[:, 0], y[:, 0]
 
 
 def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
@@ -127,55 +144,67 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
                  reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Noise-free image coordinates (x right, y down, px) of every located point, each (T, n_points).
+    """Noise-free image coordinates (x right, y down, px) of every located point, each (n_points, T).
 
     ``dial_deg`` are the points' nominal directions (:func:`dial_angles_deg`); ``reading_deg``
-    (T, n_readings), if given, replaces the readings (angles travelled from the zero image).
-    ``kw`` holds the trial values of the geometric inputs (tilt, target height, mark offset, k1).
+    (n_readings, T), if given, replaces the readings (angles travelled from the zero image).
+    ``kw`` holds the trial values (T,) of the geometric inputs (tilt, target height, mark
+    offset, k1).
     """
     g = rig.geometry
     n_read = len(rig.nominal_angles_deg)
     r_mm = g.pointer_radius_mm
-    h = kw.get("target_height_mm", np.full(t, g.target_height_mm))[:, None]
-    dial = np.broadcast_to(np.radians(dial_deg), (t, dial_deg.size)).copy()
-    if reading_deg is not None:
-        dial[:, 1:1 + n_read] = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
-    x = r_mm * np.cos(dial)
-    y = r_mm * np.sin(dial)
-    z = np.broadcast_to(h, dial.shape).copy()
+    h = kw.get("target_height_mm", np.full(t, g.target_height_mm))
+    dial = np.radians(dial_deg)[:, None]
+    x = np.repeat(r_mm * np.cos(dial), t, axis=1)
+    y = np.repeat(r_mm * np.sin(dial), t, axis=1)
+    if reading_deg is not None:  # only the readings move from trial to trial
+        moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
+        x[1:1 + n_read] = r_mm * np.cos(moved)
+        y[1:1 + n_read] = r_mm * np.sin(moved)
+    z = h  # one height per trial, the same for every target point
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
-        x[:, -1] = kw.get("mark_offset_x_mm", 0.0)
-        y[:, -1] = kw.get("mark_offset_y_mm", 0.0)
-        z[:, -1] = 0.0
+        x[-1] = kw.get("mark_offset_x_mm", 0.0)
+        y[-1] = kw.get("mark_offset_y_mm", 0.0)
+        z = np.broadcast_to(h, x.shape).copy()
+        z[-1] = 0.0
     wx, wy = tilt_vector(rig, kw, t)
-    xr, yr, zr = rotate_tilt(x, y, z, wx[:, None], wy[:, None])
-    xr = xr + g.pivot_offset_x_mm
-    yr = yr - g.pivot_offset_y_mm  # the offset is along the image's y (down); the dial frame's y is up
-    k1 = kw["k1"][:, None] if "k1" in kw else 0.0
+    xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
+    xr += g.pivot_offset_x_mm
+    yr -= g.pivot_offset_y_mm  # the offset is along the image's y (down); the dial frame's y is up
+    k1 = kw["k1"] if "k1" in kw else 0.0
     u, v = project(xr, yr, zr, focal_px=rig.focal_px, distance_mm=g.working_distance_mm, k1=k1)
     cx, cy = principal_point(rig)
-    return cx + u, cy - v
+    u += cx
+    np.subtract(cy, v, out=v)
+    return u, v
 
 
 def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The pivot as the user finds it from the located points, each (T,).
 
-    Columns of ``img_x``, ``img_y`` (T, n_points) follow :func:`point_labels`. A mark is the
+    Rows of ``img_x``, ``img_y`` (n_points, T) follow :func:`point_labels`. A mark is the
     pivot; otherwise a circle is fitted (:func:`budget.rig.pivot.fit_circle`) to the zero
     image and the readings, or to the pivot-arc points.
     """
     method = rig.pivot.method
     if method == "mark":
-        return img_x[:, -1], img_y[:, -1]
+        return img_x[-1], img_y[-1]
     n_read = len(rig.nominal_angles_deg)
-    cols = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
-    xc, yc, _ = fit_circle(img_x[:, cols], img_y[:, cols])
+    rows = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
+    xc, yc, _ = fit_circle(img_x[rows], img_y[rows], axis=0)
     return xc, yc
 
 
 def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.ndarray:
-    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal."""
-    return nominal_deg + (angle_deg - nominal_deg + 180.0) % 360.0 - 180.0
+    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal.
+
+    The offset from the nominal loses no digits when no turn is added (the usual case): it is
+    not shifted by 180° and back.
+    """
+    d = angle_deg - nominal_deg
+    d -= 360.0 * np.round(d / 360.0)
+    return nominal_deg + d
 
 
 def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
@@ -191,16 +220,15 @@ def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
 
 
 def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
-    """The readings' angles about the estimated pivot relative to the zero image, (T, n) deg.
+    """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
 
-    Columns of ``img_x``, ``img_y`` (image coordinates) follow :func:`point_labels`. The angle
+    Rows of ``img_x``, ``img_y`` (n_points, T; image coordinates) follow :func:`point_labels`. The angle
     travelled from the zero image in the rig's ``travel`` direction (:func:`screen_angles_deg`
     times :func:`travel_sign`), on the branch nearest the nominal reading.
     """
     xc, yc = estimate_pivot(rig, img_x, img_y)
     n_read = len(rig.nominal_angles_deg)
-    rx, ry = img_x - xc[:, None], img_y - yc[:, None]
-    x0, y0 = rx[:, :1], ry[:, :1]
-    xs, ys = rx[:, 1:1 + n_read], ry[:, 1:1 + n_read]
+    x0, y0 = img_x[0] - xc, img_y[0] - yc
+    xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc
     angle = travel_sign(rig) * screen_angles_deg(x0, y0, xs, ys)
-    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg))
+    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg)[:, None])

@@ -22,12 +22,22 @@ from budget.rig.geometry import dial_angles_deg, image_points, principal_point, 
 __all__ = ["VirtualRig"]
 
 
+def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
+    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous)."""
+    for row, key in keys:
+        if key in kw:
+            arr[row] += kw[key] * scale if scale != 1.0 else kw[key]
+
+
 class VirtualRig:
     """The measurement model of one rig as a vectorized callable.
 
     Called with keyword arrays named like :func:`budget.rig.components.build_inputs`
     (every array of one length T), it returns ``{"P1": angle_deg, …}`` and, for a
     sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
+
+    Inside, arrays over points or readings are (n, T): one contiguous row per point
+    (see :mod:`budget.rig.geometry`).
     """
 
     def __init__(self, rig: RigDescription, type_a: dict | None = None) -> None:
@@ -46,96 +56,88 @@ class VirtualRig:
         m = rig.motion
         self.rate = m.rate_deg_per_s if m.state == "moving" else 0.0
         self.stamp_offset_s = 0.5 * cam.exposure_ms * 1e-3 if m.timestamp == "start" else 0.0
+        readings = range(self.n_read)
+        self.per_reading = {name: [(i, f"{name}_P{i + 1}") for i in readings]
+                            for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
+        self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
+                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "resid")}
 
     # ---- pieces of the chain -------------------------------------------------------
-    def _true_reading_angles(self, kw: dict, t: int) -> np.ndarray:
-        """True pointer angles of the readings relative to the zero image, (T, n) deg."""
-        rig = self.rig
-        if rig.sweep is None:
-            return np.broadcast_to(np.array(rig.nominal_angles_deg), (t, self.n_read))
-        return rig.sweep.nominal_gain_deg_per_v * self._actual_volts(kw, t)
-
     def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
-        """Voltage at the pointer for each set point, (T, n) V."""
+        """Voltage at the pointer for each set point, (n, T) V."""
         rig = self.rig
         s = rig.source
-        v = np.broadcast_to(np.array(rig.sweep.set_points_v), (t, self.n_read)).copy()
+        v = np.repeat(np.array(rig.sweep.set_points_v)[:, None], t, axis=1)
         for name in ("lsb_mv", "inl_mv", "vnoise_mv"):
-            for i in range(self.n_read):
-                key = f"{name}_P{i + 1}"
-                if key in kw:
-                    v[:, i] += kw[key] * 1e-3
+            _add_rows(v, kw, self.per_reading[name], 1e-3)
         if "source_gain_pct" in kw:
-            v *= (1.0 + kw["source_gain_pct"] * 1e-2)[:, None]
+            v *= 1.0 + kw["source_gain_pct"] * 1e-2
         if "source_offset_mv" in kw:
-            v += (kw["source_offset_mv"] * 1e-3)[:, None]
+            v += kw["source_offset_mv"] * 1e-3
         if "source_zout_ohm" in kw and s.load_resistance_ohm is not None:
             rl = s.load_resistance_ohm
-            v *= (rl / (rl + kw["source_zout_ohm"]))[:, None]
+            v *= rl / (rl + kw["source_zout_ohm"])
         return v
 
     def _fit_volts(self, kw: dict, t: int, v_actual: np.ndarray) -> np.ndarray:
-        """The x values of the user's fit: commanded set points or the meter's readings."""
+        """The x values of the user's fit: commanded set points (n,) or the meter's readings (n, T)."""
         rig = self.rig
         if rig.source is None or rig.source.readback == "commanded":
             return np.array(rig.sweep.set_points_v)
         x = v_actual.copy()
         if "dmm_gain_pct" in kw:
-            x *= (1.0 + kw["dmm_gain_pct"] * 1e-2)[:, None]
+            x *= 1.0 + kw["dmm_gain_pct"] * 1e-2
         if "dmm_offset_mv" in kw:
-            x += (kw["dmm_offset_mv"] * 1e-3)[:, None]
-        for i in range(self.n_read):
-            key = f"dmm_res_mv_P{i + 1}"
-            if key in kw:
-                x[:, i] += kw[key] * 1e-3
+            x += kw["dmm_offset_mv"] * 1e-3
+        _add_rows(x, kw, self.per_reading["dmm_res_mv"], 1e-3)
         return x
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
-        for j, lab in enumerate(self.labels):
-            for ax, arr in (("x", img_x), ("y", img_y)):
-                for kind in ("quant", "lock", "noise", "resid"):
-                    key = f"{kind}_{ax}_{lab}"
-                    if key in kw:
-                        arr[:, j] += kw[key]
+        for ax, arr in (("x", img_x), ("y", img_y)):
+            for kind in ("quant", "lock", "noise", "resid"):  # this order of additions per point
+                _add_rows(arr, kw, self.per_point[ax, kind])
         for key, (j, ux, uy) in self.directions.items():
             if key in kw:
-                img_x[:, j] += kw[key] * ux
-                img_y[:, j] += kw[key] * uy
+                img_x[j] += kw[key] * ux
+                img_y[j] += kw[key] * uy
         axial = ("noise_major_", "noise_minor_", "drift_")
         unknown = [k for k in kw if k.startswith(axial) and k not in self.directions]
         if unknown:  # an error along an axis the model was not told: never drop it silently
             raise ValueError(f"VirtualRig was built without the Type A data of {unknown}; pass type_a")
 
-    def _misfit_deg(self, kw: dict, t: int) -> np.ndarray:
-        """Per-point discrepancies of the straight line (``misfit_Pj``, deg): they enter the fit only."""
-        out = np.zeros((t, self.n_read))
-        for i in range(self.n_read):
-            key = f"misfit_P{i + 1}"
-            if key in kw:
-                out[:, i] = kw[key]
+    def _misfit_deg(self, kw: dict, t: int) -> np.ndarray | None:
+        """Per-point discrepancies of the straight line (``misfit_Pj``, deg, (n, T)): they enter the fit
+        only; None when there are none."""
+        keys = [(i, f"misfit_P{i + 1}") for i in range(self.n_read)]
+        if not any(key in kw for _, key in keys):
+            return None
+        out = np.zeros((self.n_read, t))
+        _add_rows(out, kw, keys)
         return out
 
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         t = len(next(iter(kw.values()))) if kw else 1
         kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
-        true_deg = self._true_reading_angles(kw, t)
-        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg,
-                                    reading_deg=true_deg if self.rig.sweep is not None else None)
-        img_x, img_y = img_x.copy(), img_y.copy()
+        sweep = self.rig.sweep
+        volts = self._actual_volts(kw, t) if sweep is not None else None
+        true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
+        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg)
         if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
             r = np.radians(kw["roll_deg"])  # counterclockwise on the displayed image, about the principal point
             cx, cy = principal_point(self.rig)
-            x0, y0 = img_x[:, 0] - cx, cy - img_y[:, 0]
-            img_x[:, 0] = cx + np.cos(r) * x0 - np.sin(r) * y0
-            img_y[:, 0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
+            x0, y0 = img_x[0] - cx, cy - img_y[0]
+            img_x[0] = cx + np.cos(r) * x0 - np.sin(r) * y0
+            img_y[0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
         self._locator_errors(kw, img_x, img_y)
         angle = reading_angles_deg(self.rig, img_x, img_y)
-        angle = angle + self._timing_deg(kw, t, img_y[:, 1:1 + self.n_read])
-        out = {f"P{i + 1}": angle[:, i] for i in range(self.n_read)}
-        if self.rig.sweep is not None:
-            x = self._fit_volts(kw, t, self._actual_volts(kw, t))
-            slope, intercept = ols_batch(x, angle + self._misfit_deg(kw, t))
+        if self.rate != 0.0:
+            angle += self._timing_deg(kw, t, img_y[1:1 + self.n_read])
+        out = {f"P{i + 1}": angle[i] for i in range(self.n_read)}
+        if sweep is not None:
+            x = self._fit_volts(kw, t, volts)
+            misfit = self._misfit_deg(kw, t)
+            slope, intercept = ols_batch(x.T, (angle if misfit is None else angle + misfit).T)
             out["gain"] = slope
             out["intercept"] = intercept
             if "misfit_new" in kw:  # a rejected line's discrepancy at a new point, for predictions
@@ -145,14 +147,11 @@ class VirtualRig:
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
         if self.rate == 0.0:
-            return np.zeros((t, self.n_read))
+            return np.zeros((self.n_read, t))
         cam = self.rig.camera
-        delay = np.full((t, self.n_read), self.stamp_offset_s)
+        delay = np.full((self.n_read, t), self.stamp_offset_s)
         if cam.shutter == "rolling":
             # the row index is the image y (row 0 at the top, read first, at the timestamp)
             delay = delay + img_y * cam.row_time_us * 1e-6
-        for i in range(self.n_read):
-            key = f"jitter_ms_P{i + 1}"
-            if key in kw:
-                delay[:, i] += kw[key] * 1e-3
+        _add_rows(delay, kw, self.per_reading["jitter_ms"], 1e-3)
         return self.rate * delay

@@ -29,23 +29,27 @@ _NEWTON_STEPS = 12
 
 
 def _taubin_normalized(xn: NDArray, yn: NDArray) -> tuple[NDArray, NDArray, NDArray]:
-    """Taubin fit of rows already centred and scaled so that mean(x^2 + y^2) = 1.
+    """Taubin fit of points already centred and scaled so that mean(x^2 + y^2) = 1.
 
-    The circle A z + B x + C y + D = 0 (z = x^2 + y^2) minimising the mean squared algebraic
-    distance under Taubin's constraint 4 A^2 mean(z) + B^2 + C^2 = 1.  For centred data
-    D = -A mean(z), and (2 A sqrt(mean z), B, C) is the eigenvector of the smallest eigenvalue
-    of the 3x3 moment matrix S of [(z - mean z) / (2 sqrt(mean z)), x, y] (Chernov 2010,
-    ch. 5, Taubin fit).  The eigenvalue is the smallest root of det(S - lambda I), found by
-    Newton's method from 0, which converges monotonically because S is positive
-    semi-definite; the centre then follows from the x and y rows of (S - lambda I) v = 0.
+    ``xn``, ``yn`` have shape (n, m): point i of every row is the contiguous row ``xn[i]``, so
+    each mean over the points is n - 1 vector additions.  The circle A z + B x + C y + D = 0
+    (z = x^2 + y^2) minimising the mean squared algebraic distance under Taubin's constraint
+    4 A^2 mean(z) + B^2 + C^2 = 1.  For centred data D = -A mean(z), and (2 A sqrt(mean z),
+    B, C) is the eigenvector of the smallest eigenvalue of the 3x3 moment matrix S of
+    [(z - mean z) / (2 sqrt(mean z)), x, y] (Chernov 2010, ch. 5, Taubin fit).  The eigenvalue
+    is the smallest root of det(S - lambda I), found by Newton's method from 0, which converges
+    monotonically because S is positive semi-definite; the centre then follows from the x and
+    y rows of (S - lambda I) v = 0.
     """
-    xx = np.mean(xn * xn, axis=-1)
-    yy = np.mean(yn * yn, axis=-1)
-    xy = np.mean(xn * yn, axis=-1)
-    z = xn * xn + yn * yn
-    s01 = 0.5 * np.mean(xn * z, axis=-1)  # mean(z0 x), z0 = (z - 1) / 2
-    s02 = 0.5 * np.mean(yn * z, axis=-1)
-    s00 = 0.25 * (np.mean(z * z, axis=-1) - 1.0)
+    n = xn.shape[0]
+    xx = np.einsum("ij,ij->j", xn, xn) / n
+    yy = np.einsum("ij,ij->j", yn, yn) / n
+    xy = np.einsum("ij,ij->j", xn, yn) / n
+    z = xn * xn
+    z += yn * yn
+    s01 = 0.5 * np.einsum("ij,ij->j", xn, z) / n  # mean(z0 x), z0 = (z - 1) / 2
+    s02 = 0.5 * np.einsum("ij,ij->j", yn, z) / n
+    s00 = 0.25 * (np.einsum("ij,ij->j", z, z) / n - 1.0)
     c2 = s00 + xx + yy
     c1 = s00 * xx - s01 * s01 + s00 * yy - s02 * s02 + xx * yy - xy * xy
     c0 = (s00 * (xx * yy - xy * xy) - s01 * (s01 * yy - xy * s02)
@@ -64,24 +68,37 @@ def _taubin_normalized(xn: NDArray, yn: NDArray) -> tuple[NDArray, NDArray, NDAr
 
 def _gauss_newton(xn: NDArray, yn: NDArray, a: NDArray, b: NDArray, r: NDArray,
                   iterations: int) -> tuple[NDArray, NDArray, NDArray]:
-    """Fixed number of Gauss-Newton steps on sum (|p_i - c| - R)^2, all rows at once."""
-    n = xn.shape[-1]
+    """Fixed number of Gauss-Newton steps on sum (|p_i - c| - R)^2, all rows at once.
+
+    Points on the first axis, shape (n, m), as in :func:`_taubin_normalized`; four work
+    arrays of that shape are reused by every step, and each sum of products over the points
+    is one ``einsum`` pass.
+    """
+    n = xn.shape[0]
+    ux = np.empty_like(xn)
+    uy = np.empty_like(yn)
+    d = np.empty_like(xn)
+    t = np.empty_like(xn)
     for _ in range(iterations):  # rows escaping to infinity give inf/nan, without warnings
-        dx = xn - a[:, None]
-        dy = yn - b[:, None]
-        inv = 1.0 / np.sqrt(dx * dx + dy * dy)
-        ux = dx * inv
-        uy = dy * inv
-        d = dx * ux + dy * uy - r[:, None]
-        # J_i = -[ux, uy, 1]; the step solves (J^T J) delta = -J^T d = g.
-        sxx = np.sum(ux * ux, axis=-1)
+        np.subtract(xn, a, out=ux)
+        np.subtract(yn, b, out=uy)
+        np.multiply(ux, ux, out=d)
+        d += np.multiply(uy, uy, out=t)
+        np.sqrt(d, out=d)  # |p_i - c|
+        ux /= d  # cos phi_i
+        uy /= d  # sin phi_i
+        d -= r  # |p_i - c| - R
+        # J_i = -[ux, uy, 1]; the step solves (J^T J) delta = -J^T d = g.  (The residuals are
+        # summed as such: sum(ux d) rewritten as sum(x - a) - R sum(ux) cancels badly when the
+        # centre is far away, on a short arc.)
+        sxx = np.einsum("ij,ij->j", ux, ux)
         syy = n - sxx
-        sxy = np.sum(ux * uy, axis=-1)
-        sx = np.sum(ux, axis=-1)
-        sy = np.sum(uy, axis=-1)
-        gx = np.sum(ux * d, axis=-1)
-        gy = np.sum(uy * d, axis=-1)
-        gr = np.sum(d, axis=-1)
+        sxy = np.einsum("ij,ij->j", ux, uy)
+        sx = ux.sum(axis=0)
+        sy = uy.sum(axis=0)
+        gx = np.einsum("ij,ij->j", ux, d)
+        gy = np.einsum("ij,ij->j", uy, d)
+        gr = d.sum(axis=0)
         # Symmetric 3x3 solve by the adjugate (cofactors of [[sxx, sxy, sx], [., syy, sy],
         # [., ., n]]).
         k00 = syy * n - sy * sy
@@ -98,18 +115,23 @@ def _gauss_newton(xn: NDArray, yn: NDArray, a: NDArray, b: NDArray, r: NDArray,
 
 
 def fit_circle(
-    x: ArrayLike, y: ArrayLike, *, iterations: int = 4
+    x: ArrayLike, y: ArrayLike, *, iterations: int = 4, axis: int = -1
 ) -> tuple[NDArray, NDArray, NDArray]:
     """Fit a circle to every row of points: Taubin start, then geometric Gauss-Newton steps.
 
     Parameters
     ----------
-    x, y : array_like, shape (..., n)
-        Point coordinates; the last axis holds the n >= 3 points of one track, leading axes
+    x, y : array_like, shape (..., n) or, with ``axis=0``, (n, ...)
+        Point coordinates; axis ``axis`` holds the n >= 3 points of one track, the other axes
         are trials.  Any length unit (pixels, mm); the result is in the same unit.
     iterations : int, optional
         Number of Gauss-Newton steps of the orthogonal-distance refinement (default 4;
         0 returns the Taubin fit).
+    axis : int, optional
+        The axis of the points: -1 (default) or 0.  The fit works with the points on the
+        first axis, each point's values contiguous, so that every sum over the points is a
+        few vector additions; ``axis=0`` with a C-contiguous array (as the virtual rig passes
+        it) needs no copy.
 
     Returns
     -------
@@ -119,7 +141,8 @@ def fit_circle(
     Raises
     ------
     BudgetInputError
-        If x and y differ in shape, n < 3, or iterations is not a non-negative integer.
+        If x and y differ in shape, n < 3, iterations is not a non-negative integer, or axis
+        is not 0 or -1.
 
     Notes
     -----
@@ -152,28 +175,31 @@ def fit_circle(
     ya = np.asarray(y, dtype=float)
     if xa.shape != ya.shape:
         raise field_error("y", f"an array of the same shape as x {xa.shape}", ya.shape, _WHERE_FIT)
-    if xa.ndim < 1 or xa.shape[-1] < 3:
-        raise field_error("x", "an array whose last axis holds at least 3 points", xa.shape,
+    if isinstance(axis, bool) or axis not in (0, -1):
+        raise field_error("axis", "0 or -1", axis, _WHERE_FIT)
+    if xa.ndim < 1 or xa.shape[axis] < 3:
+        raise field_error("x", f"an array whose axis {axis} holds at least 3 points", xa.shape,
                           _WHERE_FIT)
     if isinstance(iterations, bool) or not isinstance(iterations, (int, np.integer)) \
             or iterations < 0:
         raise field_error("iterations", "an integer >= 0", iterations, _WHERE_FIT)
-    lead = xa.shape[:-1]
-    n = xa.shape[-1]
-    xr = xa.reshape(-1, n)
-    yr = ya.reshape(-1, n)
-    xm = xr.mean(axis=-1, keepdims=True)
-    ym = yr.mean(axis=-1, keepdims=True)
-    dx = xr - xm
-    dy = yr - ym
-    scale = np.sqrt(np.mean(dx * dx + dy * dy, axis=-1, keepdims=True))
-    xn = dx / scale
-    yn = dy / scale
+    if axis == -1:  # points to the front, one contiguous row per point
+        xa, ya = np.moveaxis(xa, -1, 0), np.moveaxis(ya, -1, 0)
+    n = xa.shape[0]
+    lead = xa.shape[1:]
+    xr = np.ascontiguousarray(xa).reshape(n, -1)
+    yr = np.ascontiguousarray(ya).reshape(n, -1)
+    xm = xr.mean(axis=0)
+    ym = yr.mean(axis=0)
+    xn = xr - xm
+    yn = yr - ym
+    s = np.sqrt((np.einsum("ij,ij->j", xn, xn) + np.einsum("ij,ij->j", yn, yn)) / n)
+    xn /= s
+    yn /= s
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         a, b, r = _taubin_normalized(xn, yn)
         a, b, r = _gauss_newton(xn, yn, a, b, r, iterations)
-    s = scale[:, 0]
-    xc = (xm[:, 0] + s * a).reshape(lead)
-    yc = (ym[:, 0] + s * b).reshape(lead)
+    xc = (xm + s * a).reshape(lead)
+    yc = (ym + s * b).reshape(lead)
     r = (s * r).reshape(lead)
     return xc, yc, r

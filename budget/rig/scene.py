@@ -29,12 +29,12 @@ def true_points(rig: RigDescription, reading_deg=None) -> dict[str, tuple[float,
 
     ``reading_deg`` (one per reading) replaces the nominal readings, e.g. a curved response.
     """
-    readings = None if reading_deg is None else np.asarray(reading_deg, dtype=float)[None, :]
-    if readings is not None and readings.shape[1] != len(rig.nominal_angles_deg):
+    readings = None if reading_deg is None else np.asarray(reading_deg, dtype=float)[:, None]
+    if readings is not None and readings.shape[0] != len(rig.nominal_angles_deg):
         raise BudgetInputError(f"reading_deg must give {len(rig.nominal_angles_deg)} readings; "
-                               f"got {readings.shape[1]}.")
-    x, y = image_points(rig, {}, 1, dial_angles_deg(rig), reading_deg=readings)
-    return {lab: (float(x[0, j]), float(y[0, j])) for j, lab in enumerate(point_labels(rig))}
+                               f"got {readings.shape[0]}.")
+    x, y = image_points(rig, {}, 1, dial_angles_deg(rig), reading_deg=readings)  # (n_points, 1)
+    return {lab: (float(x[j, 0]), float(y[j, 0])) for j, lab in enumerate(point_labels(rig))}
 
 
 def _target(rig: RigDescription) -> dict:

@@ -2,11 +2,22 @@
 
 import numpy as np
 from scipy.special import erf as scipy_erf
+from scipy.special import j1 as scipy_j1
 
-from budget.imaging.special import erf
+from budget.imaging.special import erf, j1
 
 
 def test_erf_equals_scipy_to_double_precision():
     x = np.concatenate([np.linspace(-8, 8, 4001), np.random.default_rng(1).normal(0, 2, (30, 7)).ravel()])
     assert np.allclose(erf(x), scipy_erf(x), rtol=4e-16, atol=4e-16)
     assert erf(np.zeros((2, 3))).shape == (2, 3) and erf(0.5) == scipy_erf(0.5)
+
+
+
+def test_j1_equals_scipy_from_small_to_large_arguments():
+    # DLMF 10.9.2 by the periodic trapezoidal rule; scipy.special.j1 is the reference. The
+    # absolute error grows slowly with x (more nodes summed); J1 itself is ~√(2/πx) there.
+    for x in (np.linspace(1e-6, 50.0, 1001), np.geomspace(50.0, 2e4, 400), np.linspace(0.1, 300.0, 5000)):
+        assert np.allclose(j1(x), scipy_j1(x), rtol=0, atol=1e-13)
+    assert j1(np.zeros((2, 3))).shape == (2, 3)
+    assert abs(float(j1(3.0)) - float(scipy_j1(3.0))) < 1e-15

@@ -102,9 +102,9 @@ def test_positive_tilt_lifts_the_side_ninety_degrees_counterclockwise_of_its_axi
     x0, y0 = nominal_image_points(rig)
     ym = y0[-1]
     up, down = 0, 1  # Z points up; P1 (180° counterclockwise) points down
-    assert ym - y[0, up] > ym - y0[up]  # farther up
-    assert y[0, down] - ym < y0[down] - ym  # nearer below
+    assert ym - y[up, 0] > ym - y0[up]  # farther up (image_points: points first, one trial)
+    assert y[down, 0] - ym < y0[down] - ym  # nearer below
     d, r = rig.geometry.working_distance_mm, rig.geometry.pointer_radius_mm
     b = math.radians(beta)
     want = rig.focal_px * r * math.cos(b) / (d - r * math.sin(b))
-    assert ym - y[0, up] == pytest.approx(want, rel=1e-12)
+    assert ym - y[up, 0] == pytest.approx(want, rel=1e-12)

@@ -1,0 +1,123 @@
+"""Finite-difference stencils of the linear method (JCGM 100 clause 5): the points along each
+input, the pair stencil of the second-order terms, and their double sum (eq. 14).
+
+Every point goes to the model in vectorized calls; the pair stencil in tiles of inputs so that a
+call's arrays stay in the processor's cache and only the inputs a tile moves are materialized.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from budget.propagation.model import Model, evaluate
+
+__all__ = ["axis_points", "pair_values", "second_order_terms", "PAIR_CHUNK_VALUES"]
+
+_STEPS = np.array([-2.0, -1.0, 1.0, 2.0])
+PAIR_CHUNK_VALUES = 262_144
+"""Inputs × points per model call when evaluating the pair stencil of the second-order terms
+(at least 1000 points a call): a call's arrays stay in the processor's cache."""
+
+
+def axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
+    """x0 moved by −2h, −h, +h, +2h along each input in turn: shape (4n, n)."""
+    n = x0.size
+    col = np.repeat(np.arange(n), 4)
+    pts = np.tile(x0, (4 * n, 1))
+    pts[np.arange(4 * n), col] += np.tile(_STEPS, n) * h[col]
+    return pts
+
+
+def _pair_batches(n: int, per_call: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The unordered pairs i < j of n inputs in batches of about ``per_call``, tile by tile.
+
+    A tile pairs a block of inputs with another block, so a batch moves few inputs and every
+    other input reaches the model as one repeated value.
+    """
+    b = max(1, math.isqrt(per_call))
+    blocks = [np.arange(s, min(n, s + b)) for s in range(0, n, b)]
+    batches: list[tuple[np.ndarray, np.ndarray]] = []
+    cur_i: list[np.ndarray] = []
+    cur_j: list[np.ndarray] = []
+    count = 0
+    for k, rows in enumerate(blocks):
+        for cols in blocks[k:]:
+            ii, jj = np.meshgrid(rows, cols, indexing="ij")
+            keep = ii < jj
+            cur_i.append(ii[keep])
+            cur_j.append(jj[keep])
+            count += int(keep.sum())
+            if count >= per_call:
+                batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
+                cur_i, cur_j, count = [], [], 0
+    if count:
+        batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
+    return batches
+
+
+def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """Model values at x0 ± h2_i e_i ± h2_j e_j for every pair i < j: (ii, jj, {output: (P, 2, 2)}).
+
+    Each pair is evaluated once (the stencil of (j, i) is that of (i, j) with its two sign
+    axes swapped). An input moved in a batch reaches the model as one contiguous array, every
+    other input as its estimate repeated (a read-only broadcast view).
+    """
+    n = x0.size
+    a = np.array([-1.0, -1.0, 1.0, 1.0])
+    b = np.array([-1.0, 1.0, -1.0, 1.0])
+    per_call = max(250, PAIR_CHUNK_VALUES // (4 * n))
+    parts: dict[str, list[np.ndarray]] = {}
+    batches = _pair_batches(n, per_call)
+    for i, j in batches:
+        m = i.size
+        moved = np.union1d(i, j)
+        row = np.full(n, -1)
+        row[moved] = np.arange(moved.size)
+        pts = np.repeat(x0[moved][:, None], 4 * m, axis=1)  # one row per moved input
+        cols = np.arange(4 * m)
+        ci, cj = np.repeat(i, 4), np.repeat(j, 4)
+        pts[row[ci], cols] += np.tile(a, m) * h2[ci]
+        pts[row[cj], cols] += np.tile(b, m) * h2[cj]
+        still = np.broadcast_to(x0[:, None], (n, 4 * m))
+        points = {nm: pts[r] if r >= 0 else still[k] for k, (nm, r) in enumerate(zip(names, row.tolist(), strict=True))}
+        out = evaluate(model, points, 4 * m)
+        for key, v in out.items():
+            parts.setdefault(key, []).append(v.reshape(m, 2, 2))
+    ii = np.concatenate([i for i, _ in batches]) if batches else np.empty(0, dtype=int)
+    jj = np.concatenate([j for _, j in batches]) if batches else np.empty(0, dtype=int)
+    return ii, jj, {key: np.concatenate(v) for key, v in parts.items()}
+
+
+def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
+                       cu: np.ndarray, r: float) -> float:
+    """The double sum of JCGM 100 eq. (14) from central differences with steps h = r·u.
+
+    ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
+    ``pairs`` f at x0 ± h_i ± h_j for the pairs i < j (``ii``, ``jj``), shape (P, 2, 2) indexed
+    [sign of i, sign of j], each giving the terms of (i, j) and of (j, i); ``cu`` the
+    first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
+    matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/r²), so no power of a tiny or huge
+    u is ever formed on its own and nothing under- or overflows. The terms are summed in
+    the order of the ordered pairs (i, j), i ≠ j, row by row.
+    """
+    fm2, fm1, fp1, fp2 = diag.T
+    d2 = (fp1 - 2.0 * f0 + fm1) / r**2  # ∂²f/∂x_i² · u_i²
+    d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * r**3)  # ∂³f/∂x_i³ · u_i³
+    total = float(np.sum(0.5 * d2**2 + cu * d3))
+    if ii.size:
+        n = diag.shape[0]
+        g00, g01, g10, g11 = pairs[:, 0, 0], pairs[:, 0, 1], pairs[:, 1, 0], pairs[:, 1, 1]
+        dij = (g11 - g10 - g01 + g00) / (4.0 * r**2)  # · u_i u_j
+        dji = (g11 - g01 - g10 + g00) / (4.0 * r**2)
+        # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis
+        # stencil); ∂³f/∂x_j∂x_i² · u_j u_i²: second difference in i at x_j ± h_j.
+        dijj = ((g11 - 2.0 * fp1[ii] + g10) - (g01 - 2.0 * fm1[ii] + g00)) / (2.0 * r**3)
+        djii = ((g11 - 2.0 * fp1[jj] + g01) - (g10 - 2.0 * fm1[jj] + g00)) / (2.0 * r**3)
+        terms = np.zeros((n, n))
+        terms[ii, jj] = 0.5 * dij**2 + cu[ii] * dijj
+        terms[jj, ii] = 0.5 * dji**2 + cu[jj] * djii
+        total += float(np.sum(terms[~np.eye(n, dtype=bool)]))
+    return total

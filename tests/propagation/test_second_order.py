@@ -1,0 +1,74 @@
+"""Second-order terms of JCGM 100 eq. (14): each pair of inputs is evaluated once, and the
+results are those of the implementation that evaluated every ordered pair.
+
+The reference values below were computed by that implementation (commit f736538, which
+evaluated the stencil of (i, j) and of (j, i) separately) on the JCGM 100 H.1 end gauge, the
+JCGM 101 9.3 mass calibration, a five-input two-output model with every kind of input, and the
+sweep template; tolerance 1e-6 relative (issue 14). The sweep's values moved at 3e-7 between
+that commit and this one because the virtual rig's ten-point sums are now taken in another
+order; the second-order term itself is a difference of differences of the model at steps of
+5 % of u and carries that rounding.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from budget.inputs.rig_file import load_rig
+from budget.propagation import Normal, Rectangular, StudentT, Triangular, linear
+from budget.reference_cases import MODELS, case_inputs, load_cases
+from budget.rig import components as comp
+from budget.rig.model import VirtualRig
+from tests.paths import TEMPLATES
+
+CASES = {c.id: c for c in load_cases()}
+
+
+def _mixed(a, b, c, d, e):
+    return {"q": a * b / c + np.sin(d) * e, "r": np.exp(0.3 * a) * np.hypot(b, e) - c * d**2}
+
+
+MIXED_INPUTS = {"a": Normal(1.2, 0.05), "b": Rectangular(2.0, 2.6), "c": Triangular(0.8, 1.2),
+                "d": Normal(0.7, 0.1), "e": StudentT(mean=3.0, scale=0.2, dof=7)}
+
+
+@pytest.mark.parametrize(("case_id", "u", "u2"), [
+    ("jcgm100-H.1", 33.8116992884298, 11.843975648206648),
+    ("jcgm101-9.3", 0.07496393702501469, 0.052149706790641105),
+])
+def test_reference_cases_keep_their_second_order_values(case_id, u, u2):
+    case = CASES[case_id]
+    res = linear(MODELS[case.model], case_inputs(case), p=case.p, second_order=True)
+    assert res.u == pytest.approx(u, rel=1e-6)
+    assert res.u_second_order == pytest.approx(u2, rel=1e-6)
+
+
+def test_mixed_model_keeps_its_second_order_values():
+    res = linear(_mixed, MIXED_INPUTS, second_order=True)
+    assert res["q"].u == pytest.approx(0.4243802958070632, rel=1e-6)
+    assert res["q"].u_second_order == pytest.approx(0.060336198894064365, rel=1e-6)
+    assert res["r"].u == pytest.approx(0.3205068812704625, rel=1e-6)
+    assert res["r"].u_second_order == pytest.approx(0.01861273925058803, rel=1e-6)
+
+
+def test_sweep_template_keeps_its_second_order_u():
+    rig = load_rig(TEMPLATES / "gain_sweep.toml")
+    inputs, _ = comp.build_inputs(rig)
+    res = linear(VirtualRig(rig), inputs, second_order=True)
+    for name, u in (("P1", 0.011874288819775626), ("P4", 0.03703071879526923),
+                    ("gain", 0.008732031650880299), ("intercept", 0.01542688649263149)):
+        assert res[name].u == pytest.approx(u, rel=1e-6), name
+
+
+def test_each_pair_is_evaluated_once():
+    # n inputs: 1 + 4n + 4n axis points, then 4 points per unordered pair, n(n − 1)/2 pairs.
+    n = len(MIXED_INPUTS)
+    calls: list[int] = []
+
+    def counted(**kw):
+        calls.append(len(next(iter(kw.values()))))
+        return _mixed(**kw)
+
+    linear(counted, MIXED_INPUTS, second_order=True)
+    assert sum(calls) == 1 + 8 * n + 4 * n * (n - 1) // 2
