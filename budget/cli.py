@@ -23,7 +23,7 @@ from budget import __version__
 from budget.commands.new import KINDS
 from budget.errors import BudgetComputationError, BudgetInputError, BudgetWarning
 
-__all__ = ["main", "build_parser", "MAX_TRIALS", "MAX_RENDERS"]
+__all__ = ["main", "build_parser", "MAX_TRIALS", "MAX_RENDERS", "MAX_FRAMES"]
 
 MAX_TRIALS = 10_000_000
 """Most Monte Carlo trials a command takes (``--trials``): the adaptive procedure's own cap (JCGM 101 7.9,

@@ -78,20 +78,34 @@ def check_promise(o: Outcome, *, inputs: tuple[str, ...] = ()) -> None:
         assert o.after == o.before, f"{what}: files changed on a refusal"
     if "--force" not in o.argv:  # nothing replaced without --force
         assert not o.changed, f"{what}: replaced {sorted(o.changed)}"
+    kinds = _written_as(o.argv)
     for name in o.new_files:
-        check_inert(Path(name), o.after[name][0], what)
+        check_inert(Path(name), o.after[name][0], what, kinds)
 
 
-def check_inert(name: Path, data: bytes, what: str = "") -> None:
+_OPTION_KIND = {"--xlsx": "xlsx", "--csv": "csv", "--out": "csv", "--md": "md", "--rig-out": "toml"}
+
+
+def _written_as(argv: list[str]) -> dict[str, str]:
+    """The format each output option writes, by the file's name (a user may name a CSV ``x.md``)."""
+    return {Path(v).name: _OPTION_KIND[a] for a, v in zip(argv, argv[1:], strict=False) if a in _OPTION_KIND}
+
+
+def check_inert(name: Path, data: bytes, what: str = "", kinds: dict[str, str] | None = None) -> None:
     """A written file holds no formula built from input text (xlsx, CSV) and no control character (text)."""
-    if name.suffix == ".xlsx":
+    kind = (kinds or {}).get(name.name) or name.suffix.lstrip(".")
+    if data.startswith(b"PK\x03\x04"):
+        kind = "xlsx"
+    elif data.startswith(b"\x89PNG"):
+        return
+    if kind == "xlsx":
         check_workbook(data, what)
-    elif name.suffix == ".csv":
+    elif kind == "csv":
         text = data.decode("utf-8-sig")
         for row in csv.reader(io.StringIO(text, newline="")):
             for cell in row:
                 assert not is_risky(cell) or _number(cell), f"{what}: CSV cell {cell!r}"
-    elif name.suffix in (".md", ".toml"):
+    elif kind in ("md", "toml"):
         text = data.decode("utf-8")
         assert not re.search("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]", text), f"{what}: control character in {name}"
 
@@ -114,7 +128,7 @@ def check_workbook(data: bytes, what: str = "") -> None:
             for cell in row:
                 if cell.data_type == "f":  # the budget's own: cell arithmetic, its functions, no text but ∞
                     assert re.search(r"\$?[A-Z]{1,3}\$?[0-9]+", str(cell.value)) or \
-                        re.fullmatch(r"=SQRT\([0-9]+\)", str(cell.value)), f"{what}: {cell.value!r}"  # a divisor
+                        re.fullmatch(r"=(SQRT\([0-9]+\)|0)", str(cell.value)), f"{what}: {cell.value!r}"  # constants
                     names = set(re.findall(r"([A-Za-z_][A-Za-z0-9_.]*)\(", str(cell.value)))
                     assert names <= FORMULA_FUNCTIONS, f"{what}: {ws.title}!{cell.coordinate} = {cell.value!r}"
                     literals = set(re.findall(r'"[^"]*"', str(cell.value)))

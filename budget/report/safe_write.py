@@ -133,9 +133,9 @@ def check_targets(paths: Iterable[Path], force: bool, *, inputs: Iterable[Path] 
     Raises
     ------
     BudgetInputError
-        Naming the first offending path: an existing file without ``force``, a folder, a dangling
-        symbolic link, a missing or read-only folder, a name too long, two outputs on one path, or
-        an output that is an input.
+        Naming the first offending path: an existing file without ``force``, a folder, a device or
+        pipe, a dangling symbolic link, a missing or read-only folder, a name too long, two outputs
+        on one path, or an output that is an input.
     """
     ins = [Path(p) for p in inputs]
     in_keys = {_identity(p) for p in ins if "\x00" not in str(p)}
@@ -147,6 +147,8 @@ def check_targets(paths: Iterable[Path], force: bool, *, inputs: Iterable[Path] 
             raise _refuse(p, "is a symbolic link to a missing file; remove it or give another name")
         if p.is_dir():
             raise _refuse(p, "is a folder; give a file name")
+        if p.exists() and not p.is_file():  # a device, a pipe, a socket: never replaced, even with --force
+            raise _refuse(p, "is not a regular file (a device, pipe or socket); give a file name")
         parent = p.parent
         if not parent.exists():
             raise BudgetInputError(f"The folder '{parent}' of the output file '{p}' does not exist.")

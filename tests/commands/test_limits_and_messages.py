@@ -51,6 +51,10 @@ def test_a_size_past_its_limit_is_refused_with_the_limit(tmp_path, argv, limit):
     _refused(argv, tmp_path, limit)
 
 
+def test_the_trials_limit_is_the_adaptive_procedures_cap():
+    assert MAX_TRIALS == montecarlo.MAX_TRIALS
+
+
 def test_trials_times_outputs_is_limited_before_drawing(tmp_path, monkeypatch):
     monkeypatch.setattr(montecarlo, "MAX_VALUES", 50_000)
     o = _refused(["run", SWEEP, "--trials", "20000", "--seed", "1", "--quiet"], tmp_path, "'trials'", "at most 4,545")
@@ -150,3 +154,18 @@ def test_template_runs_raise_no_library_warning(tmp_path):
                  ["verify-locator", BENCH, "--renders", "60", "--seed", "1"]):
         o = call(argv, tmp_path)
         assert o.code == 0 and o.err == "" and o.warnings == [], (argv, o.err, o.warnings)
+
+
+def test_a_terminal_that_cannot_show_the_text_gets_escapes_not_a_traceback(tmp_path):
+    """° and ν on an ASCII-only stdout: backslash escapes (the text is still there), exit 0."""
+    import os
+    import subprocess
+    import sys
+
+    from tests.paths import ROOT
+
+    env = {**os.environ, "PYTHONIOENCODING": "ascii", "PYTHONPATH": str(ROOT)}
+    p = subprocess.run([sys.executable, "-m", "budget", "check", str(GAUGE)], capture_output=True, text=True,
+                       env=env, cwd=tmp_path, timeout=120)
+    assert p.returncode == 0 and p.stderr == "", p.stderr
+    assert "\\u03bd" in p.stdout or "\\xb0" in p.stdout or "\\u" in p.stdout
