@@ -45,8 +45,8 @@ most of them, and in a text file or on a terminal they are commands, not text.""
 
 _PENDING: set[Path] = set()
 """Temporary files that exist right now (removed by :func:`remove_pending` on a signal)."""
-_TEMP_SUFFIX = ".0123abcd.tmp."
-"""As long as the name a temporary file adds to its destination's (a leading dot, a token, .tmp)."""
+_TEMP_EXTRA = len(".") + len(".0123abcd.tmp")
+"""Bytes a temporary file's name adds to its destination's: a leading dot, a token of 8 hex digits, .tmp."""
 
 
 def is_risky(text: str) -> bool:
@@ -172,8 +172,8 @@ def _check_name_length(p: Path) -> None:
         limit = os.pathconf(p.parent, "PC_NAME_MAX")
     except (OSError, ValueError, AttributeError):  # pragma: no cover - no pathconf on this system
         limit = 255
-    if len(os.fsencode(p.name)) + len(_TEMP_SUFFIX) > limit:
-        raise _refuse(p, f"has a file name too long for this folder (at most {limit - len(_TEMP_SUFFIX)} bytes)")
+    if len(os.fsencode(p.name)) + _TEMP_EXTRA > limit:
+        raise _refuse(p, f"has a file name too long for this folder (at most {limit - _TEMP_EXTRA} bytes)")
 
 
 def _unwritable(p: Path, exc: OSError) -> BudgetInputError:

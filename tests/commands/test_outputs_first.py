@@ -39,6 +39,7 @@ def _cases(ws: dict[str, Path], d: Path) -> dict[str, tuple[list, str]]:
         "run onto its data file": (["run", rig, *RUN, "--csv", ws["data"], "--force"], "is an input"),
         "run onto an image": (["run", rig, *RUN, "--md", ws["image"], "--force"], "is an input"),
         "run plots is a file": (["run", rig, *RUN, "--plots", ws["data"]], "not a folder"),
+        "run name too long": (["run", rig, *RUN, "--md", d / ("a" * 250 + ".md")], "too long"),
         "run onto a device (--force)": (["run", rig, *RUN, "--md", "/dev/null", "--force"], "not a regular file"),
         "run onto a pipe (--force)": (["run", rig, *RUN, "--csv", d / "fifo", "--force"], "not a regular file"),
         "run plots in missing folder": (["run", rig, *RUN, "--plots", missing], "does not exist"),
@@ -66,7 +67,7 @@ def _cases(ws: dict[str, Path], d: Path) -> dict[str, tuple[list, str]]:
 
 CASES = ["run missing folder", "run folder as file", "run two on one path", "run dangling link",
          "run onto the rig file", "run onto its data file", "run onto an image", "run plots is a file",
-         "run plots in missing folder", "run onto a device (--force)", "run onto a pipe (--force)",
+         "run plots in missing folder", "run name too long", "run onto a device (--force)", "run onto a pipe (--force)",
          "choose missing folder", "choose folder as file (--force)",
          "choose two on one path", "choose onto its cameras file", "choose onto the choose file",
          "choose dangling link", "choose plots is a file", "frames missing folder", "frames folder as file (--force)",
