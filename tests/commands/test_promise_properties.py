@@ -228,7 +228,7 @@ def _toml_bytes(doc: dict, draw_bytes: bytes) -> bytes:
     return data
 
 
-@settings(max_examples=70, **PROFILE)
+@settings(max_examples=50, **PROFILE)
 @given(doc=rig_documents(), damage=st.binary(max_size=8),
        command=st.sampled_from(["run", "run", "run", "check", "predict", "verify-locator", "advise"]))
 @example(doc={**TEMPLATE_DOCS["bench_sweep.toml"],
