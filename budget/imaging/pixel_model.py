@@ -1,0 +1,335 @@
+"""The located position's error from the expected pixel values: one vectorized model for every locator.
+
+Every figure is computed from what the camera records, not from a closed form about an idealised
+spot: the expected electrons of every pixel of the window (pixel-integrated Gaussian spot, uniform
+disk blurred by a Gaussian, either streaked by motion during the exposure), their noise (shot, read,
+background) and the ADC (rounding to whole counts, clipped at 0 and at the top code), on a grid of
+sub-pixel phases. The error of one located position along x then splits into
+
+* a part fixed by the sub-pixel phase (pixel-locking, window truncation, deterministic quantization,
+  the integer locator's whole pixel): the same in every frame, so averaging frames does not remove it;
+* a part that changes from frame to frame (noise), which averaging divides by the frames averaged.
+
+Both are averaged over the phase (uniform over a pixel in x and y, midpoint rule). Functions take
+numpy arrays over candidates (shape (C,)): ``choose`` evaluates every candidate camera in one call,
+``run``/``check``/``verify-locator`` one rig (C = 1).
+
+Derivations [derived]:
+
+* Centre of mass in a window of pixels (i, j) with weights w = I − b (b the known background, ADU):
+  x̂ = Σ j·w / Σ w. Its mean is taken as the centre of mass of the expected weights, its variance
+  by the first-order (delta-method) rule Σ (j − x̄)²·var(I_ij) / (Σ w)²; for a linear camera this is
+  Thompson, Larson & Webb 2002 (Biophys. J. 82:2775) eq. (14)'s photon term plus the window's
+  background term, as :func:`budget.imaging.spot.com_variance`.
+* ADC: a pixel of X electrons (normal, mean μ, variance μ + r², the Poisson shot noise in its normal
+  limit) reads R = round(X/g) clipped to [0, 2^bits − 1]. E[R] = Σ_{k≥1} P(X/g ≥ k − ½) and
+  E[R²] = Σ_{k≥1} (2k − 1)·P(X/g ≥ k − ½), exact for any noise. Where the noise is at least
+  ``EXACT_BELOW`` counts these equal μ/g and (μ + r²)/g² + 1/12 (JCGM 100 F.2.2.1) to within
+  e^(−2π²s²)/π < 2e-5 counts (the dither series of rounding), so the linear form is used; below, the exact sums:
+  rounding is then deterministic and does not average away, and a dark pixel adds no noise.
+* Integer locator (brightest pixel): P(pixel k is the largest) = ∫ φ_k(v)·Π_{l≠k} Φ_l(v) dv for
+  independent normal pixel values (trapezoidal rule on a fine grid); the error is E[j] − δ (fixed)
+  and Var[j] (changing) per phase. When the images are averaged before locating, the pixel variance
+  is divided by the frames and the result is one located position per reading.
+* Motion blur: the spot moves ``streak_px`` along x during the exposure (along the arc: the
+  tangential direction, the one the angle depends on); the profile is the spot convolved with a
+  uniform segment, for a Gaussian in closed form with ∫Φ = uΦ(u/σ) + σφ(u/σ).
+* Disk of diameter d blurred by σ_b: its projection on x is a semicircle law (Wigner), CDF
+  ½ + (x√(a² − x²) + a²·asin(x/a))/(πa²) for |x| < a; the blur enters by Gauss–Hermite quadrature
+  (24 nodes), the streak by Gauss–Legendre (12 nodes). The disk is modelled through its column sums
+  (the centre of mass along x of any target is that of its column sums), which is exact for the
+  centre of mass and a least-squares fit in the linear camera regime; the brightest pixel and the
+  exact ADC of a disk use the separable product of its two projections (an approximation, stated
+  in the notes of the rig's locator model).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from budget.imaging.special import phi_cdf
+
+__all__ = ["EXACT_BELOW", "LocatorTerms", "adu_moments", "locator_terms", "profile_1d", "PHASES"]
+
+PHASES = 8
+"""Sub-pixel phases per axis (midpoint rule over one pixel)."""
+
+EXACT_BELOW = 0.75
+"""Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
+
+_HERMITE = np.polynomial.hermite.hermgauss(24)
+_LEGENDRE = np.polynomial.legendre.leggauss(12)
+_INT_HALF = 3  # the brightest pixel is looked for within ±3 px of the nearest pixel
+_V_NODES = 96
+
+
+@dataclass(frozen=True)
+class LocatorTerms:
+    """Per candidate (arrays (C,)), one axis of one located position, px or px²."""
+
+    fixed_var: np.ndarray  # mean square over the phase of the error that every frame repeats
+    fixed_peak: np.ndarray  # largest |fixed error| over the phase
+    noise_var: np.ndarray  # frame-to-frame variance of one frame's position, mean over the phase
+    random_var: np.ndarray  # the changing part per reading after averaging the frames
+    exact_adc: np.ndarray  # bool: rounding modelled exactly somewhere in the window
+
+    @property
+    def total_var(self) -> np.ndarray:
+        """Variance of one reading's located position per axis, px²."""
+        return self.fixed_var + self.random_var
+
+
+def _cdf_gauss_streak(u: np.ndarray, sigma: np.ndarray, streak: np.ndarray) -> np.ndarray:
+    """CDF of a Gaussian (σ) convolved with a uniform segment of length L (L = 0: the Gaussian)."""
+    z = u / sigma
+    plain = phi_cdf(z)
+    if not np.any(streak > 0):
+        return plain
+    half = 0.5 * streak
+    L = np.where(streak > 0, streak, 1.0)
+
+    def integral(v):  # ∫ Φ(v/σ) dv
+        return v * phi_cdf(v / sigma) + sigma * np.exp(-0.5 * (v / sigma) ** 2) / math.sqrt(2.0 * math.pi)
+
+    smeared = (integral(u + half) - integral(u - half)) / L
+    return np.where(streak > 1e-3 * sigma, smeared, plain)
+
+
+def _cdf_semicircle(x: np.ndarray, a: np.ndarray) -> np.ndarray:
+    """CDF of the projection of a uniform disk of radius a on one axis."""
+    t = np.clip(x / a, -1.0, 1.0)
+    return 0.5 + (t * np.sqrt(1.0 - t * t) + np.arcsin(t)) / math.pi
+
+
+def _cdf_disk(u: np.ndarray, radius: np.ndarray, blur: np.ndarray, streak: np.ndarray) -> np.ndarray:
+    """CDF of a disk's projection blurred by a Gaussian (σ_b) and streaked by L, by quadrature."""
+    hx, hw = _HERMITE
+    lx, lw = _LEGENDRE
+    out = np.zeros(np.broadcast(u, radius, blur, streak).shape)
+    for xh, wh in zip(hx, hw, strict=True):
+        for xl, wl in zip(lx, lw, strict=True):
+            shift = math.sqrt(2.0) * blur * xh + 0.5 * streak * xl
+            out += (wh / math.sqrt(math.pi)) * (0.5 * wl) * _cdf_semicircle(u - shift, radius)
+    return out
+
+
+def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
+               streak: np.ndarray) -> np.ndarray:
+    """Fraction of the signal in each pixel column ``offsets`` for a centre at ``phase``.
+
+    ``sigma``, ``disk``, ``streak`` have the leading shape of ``phase`` (broadcast); pixel j covers
+    [j − ½, j + ½]; the result has ``phase``'s shape plus the offsets' axis.
+    """
+    j = offsets.reshape((1,) * phase.ndim + (-1,))
+    ph = phase[..., None]
+    s, d, L = sigma[..., None], disk[..., None], streak[..., None]
+    if shape == "disk":
+        hi = _cdf_disk(j + 0.5 - ph, 0.5 * d, s, L)
+        lo = _cdf_disk(j - 0.5 - ph, 0.5 * d, s, L)
+    else:
+        hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
+        lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
+    return hi - lo
+
+
+def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mean and variance (ADU, ADU²) of a pixel's reading; and where the rounding was exact.
+
+    Notes
+    -----
+    See the module notes: the exact sums over the ADC thresholds where the noise is below
+    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
+    """
+    mu_e, read_e, gain, top = np.broadcast_arrays(mu_e, read_e, gain, top)
+    x = mu_e / gain
+    s = np.sqrt(mu_e + read_e**2) / gain
+    mean = np.minimum(x, top).astype(float)
+    var = s**2 + 1.0 / 12.0
+    exact = s < EXACT_BELOW
+    if np.any(exact):
+        xe, se, te = x[exact], np.maximum(s[exact], 1e-9), top[exact]
+        band = int(math.ceil(8.0 * float(se.max()))) + 1
+        k0 = np.floor(xe)
+        below = np.clip(k0 - band - 1, 0.0, te)  # thresholds k = 1 … below: always passed
+        m1 = below.copy()
+        m2 = below**2
+        for o in range(-band, band + 1):
+            k = k0 + o
+            ok = (k >= 1) & (k <= te)
+            p = np.where(ok, 1.0 - phi_cdf((k - 0.5 - xe) / se), 0.0)
+            m1 += p
+            m2 += (2.0 * k - 1.0) * p
+        mean[exact] = m1
+        var[exact] = np.maximum(m2 - m1**2, 0.0)
+    return mean, var, exact
+
+
+def _phases(n: int) -> np.ndarray:
+    return (np.arange(n) + 0.5) / n - 0.5
+
+
+def _as_c(value, c: int) -> np.ndarray:
+    return np.broadcast_to(np.asarray(value, dtype=float), (c,)).astype(float)
+
+
+def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e, gain_e_per_adu, bit_depth,
+                  window_px, shape: str = "spot", disk_px=0.0, streak_px=0.0, frames: int = 1,
+                  averaged: str = "positions", phases: int = PHASES) -> LocatorTerms:
+    """The error terms of a located position per axis for arrays of candidates (see the module notes).
+
+    Parameters
+    ----------
+    method : {"integer", "centroid", "fit"}
+    sigma_px : array_like
+        Gaussian spot σ (for a disk: the blur of its edge), px.
+    signal_e, background_e, read_noise_e, gain_e_per_adu, bit_depth, window_px : array_like
+        Light and camera; ``window_px`` odd, centred on the pixel nearest the centre (the brightest
+        pixel of the expected image; re-centring on the centroid lands on the same pixel).
+    shape : {"spot", "disk"}; disk_px : array_like
+        Target shape and disk diameter, px.
+    streak_px : array_like
+        Motion during the exposure along x, px.
+    frames : int; averaged : {"positions", "images"}
+        Frames per reading and what is averaged.
+
+    Returns
+    -------
+    LocatorTerms
+    """
+    c = int(np.broadcast(np.asarray(sigma_px), np.asarray(signal_e), np.asarray(gain_e_per_adu),
+                         np.asarray(window_px), np.asarray(streak_px), np.asarray(disk_px)).size)
+    sig, sgn = _as_c(sigma_px, c), _as_c(signal_e, c)
+    bg, rd, g = _as_c(background_e, c), _as_c(read_noise_e, c), _as_c(gain_e_per_adu, c)
+    top = 2.0 ** _as_c(bit_depth, c) - 1.0
+    win = _as_c(window_px, c).astype(int)
+    disk, streak = _as_c(disk_px, c), _as_c(streak_px, c)
+    ph = _phases(phases)
+    if method == "integer":
+        return _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph)
+    return _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph)
+
+
+_CHUNK_VALUES = 1 << 21
+"""Pixel values formed at once when the rounding is exact (16 MB per array)."""
+
+
+def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
+    """Centre of mass (and the first-order figures of a fit) in a window on the nearest pixel."""
+    c, p = sig.size, ph.size
+    fixed, peak, noise = np.zeros(c), np.zeros(c), np.zeros(c)
+    exact = np.sqrt(bg + rd**2) / g < EXACT_BELOW  # the darkest pixel decides
+    args = (sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph)
+    lin = np.flatnonzero(~exact)
+    if lin.size:
+        fixed[lin], peak[lin], noise[lin] = _window_linear(*(a[lin] if isinstance(a, np.ndarray) and a.shape == (c,)
+                                                             else a for a in args))
+    ex = np.flatnonzero(exact)
+    if ex.size:
+        span = p * p * (2 * (int(win[ex].max()) // 2) + 1) ** 2
+        step = max(1, _CHUNK_VALUES // span)
+        for s0 in range(0, ex.size, step):
+            part = ex[s0:s0 + step]
+            fixed[part], peak[part], noise[part] = _window_exact(
+                *(a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args))
+    if method == "fit":
+        sa2 = sig**2 + 1.0 / 12.0 + streak**2 / 12.0
+        # the background variance per pixel: what the ADC leaves of the dark pixels' noise
+        dark = adu_moments(bg, rd, g, top)[1] * g**2
+        noise = sa2 / sgn * (16.0 / 9.0 + 8.0 * np.pi * sa2 * dark / sgn)
+        fixed, peak = np.zeros(c), np.zeros(c)
+    # to first order the centre of mass of the mean image is the mean of the centres of mass
+    return LocatorTerms(fixed, peak, noise, noise / frames, exact)
+
+
+def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
+    """Linear camera: the column sums of a separable expected image (1-D in each axis)."""
+    c, p = sig.size, ph.size
+    half = int(win.max()) // 2
+    j = np.arange(-half, half + 1, dtype=float)
+    inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
+    grid = np.broadcast_to(ph, (c, p))
+    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None]) * inside
+    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1))) * inside
+    rows = py.sum(axis=2)  # (C, Py)
+    sx = px.sum(axis=2)  # (C, Px)
+    xbar = (px * j).sum(axis=2) / sx
+    bias = xbar - ph[None, :]
+    dev2 = (j[None, None, :] - xbar[..., None]) ** 2 * inside  # (C, Px, J)
+    wn = (win.astype(float))[:, None, None]
+    per_col_dark = (wn * (bg + rd**2)[:, None, None] / g[:, None, None] ** 2 + wn / 12.0)  # (C, 1, 1)
+    spot_term = (dev2 * px).sum(axis=2)[:, :, None] * (sgn / g**2)[:, None, None] * rows[:, None, :]
+    dark_term = dev2.sum(axis=2)[:, :, None] * per_col_dark
+    weight = (sgn / g)[:, None, None] * sx[:, :, None] * rows[:, None, :]
+    noise = (spot_term + dark_term) / weight**2
+    return np.mean(bias**2, axis=1), np.max(np.abs(bias), axis=1), np.mean(noise, axis=(1, 2))
+
+
+def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
+    """Rounding modelled exactly: every pixel of the window at every phase in x and y."""
+    c, p = sig.size, ph.size
+    half = int(win.max()) // 2
+    j = np.arange(-half, half + 1, dtype=float)
+    inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
+    grid = np.broadcast_to(ph, (c, p))
+    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None])
+    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
+    e5 = (slice(None), None, None, None, None)
+    mu = sgn[e5] * py[:, None, :, :, None] * px[:, :, None, None, :] + bg[e5]  # (C, Px, Py, Jy, Jx)
+    mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
+    mask = inside[:, :, None, :, None] & inside[:, :, None, None, :]  # (C, 1, 1, Jy, Jx)
+    w = np.where(mask, mean - (bg / g)[e5], 0.0)
+    v = np.where(mask, var, 0.0)
+    col = w.sum(axis=3)  # (C, Px, Py, Jx)
+    total = col.sum(axis=3)
+    xbar = (col * j).sum(axis=3) / total
+    bias = xbar - ph[None, :, None]
+    dev2 = (j[None, None, None, :] - xbar[..., None]) ** 2
+    noise = (v.sum(axis=3) * dev2).sum(axis=3) / total**2
+    return np.mean(bias**2, axis=(1, 2)), np.max(np.abs(bias), axis=(1, 2)), np.mean(noise, axis=(1, 2))
+
+
+def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
+    """The brightest pixel: its probabilities under normal pixel noise, per phase."""
+    c, p = sig.size, ph.size
+    j = np.arange(-_INT_HALF, _INT_HALF + 1, dtype=float)
+    grid = np.broadcast_to(ph, (c, p))
+    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None])
+    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
+    mu = sgn[:, None, None, None, None] * py[:, None, :, :, None] * px[:, :, None, None, :] \
+        + bg[:, None, None, None, None]  # (C, Px, Py, Jy, Jx)
+    mean, var, exact = adu_moments(mu, rd[:, None, None, None, None], g[:, None, None, None, None],
+                                   top[:, None, None, None, None])
+    if averaged == "images":
+        var = var / frames
+    sd = np.sqrt(np.maximum(var, 1e-18))
+    m = mean.reshape(c, p, p, -1)
+    s = sd.reshape(c, p, p, -1)
+    lo = (m + 0.0).max(axis=3) - 6.0 * s.max(axis=3)
+    hi = (m + 6.0 * s).max(axis=3)
+    t = np.linspace(0.0, 1.0, _V_NODES)
+    vv = lo[..., None] + (hi - lo)[..., None] * t  # (C, P, P, V)
+    z = (vv[..., None, :] - m[..., None]) / s[..., None]  # (C, P, P, K, V)
+    cdf = np.clip(phi_cdf(z), 1e-300, 1.0)
+    dens = np.exp(-0.5 * z**2) / (math.sqrt(2 * math.pi) * s[..., None])
+    prod = np.exp(np.log(cdf).sum(axis=3, keepdims=True))
+    integrand = dens * prod / cdf
+    prob = np.trapezoid(integrand, vv[..., None, :], axis=4) if hasattr(np, "trapezoid") else \
+        np.trapz(integrand, vv[..., None, :], axis=4)
+    prob = prob / prob.sum(axis=3, keepdims=True)
+    jx = np.broadcast_to(j[None, :], (j.size, j.size)).ravel()
+    ex = (prob * jx).sum(axis=3)
+    vx = np.maximum((prob * jx**2).sum(axis=3) - ex**2, 0.0)
+    err = ex - ph[None, :, None]
+    if averaged == "images" or frames == 1:
+        fixed = np.mean(err**2 + vx, axis=(1, 2)) if averaged == "images" else np.mean(err**2, axis=(1, 2))
+        rand = np.zeros(c) if averaged == "images" else np.mean(vx, axis=(1, 2))
+    else:
+        fixed = np.mean(err**2, axis=(1, 2))
+        rand = np.mean(vx, axis=(1, 2)) / frames
+    noise = np.mean(vx, axis=(1, 2))
+    peak = np.max(np.abs(err), axis=(1, 2))
+    return LocatorTerms(fixed, peak, noise, rand, exact.reshape(c, -1).any(axis=1))
