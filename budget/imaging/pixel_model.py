@@ -135,6 +135,57 @@ def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.
     return hi - lo
 
 
+def _h_integral(t: np.ndarray, a: np.ndarray) -> np.ndarray:
+    """∫₀ᵗ √(a² − u²) du for |t| <= a."""
+    r = np.clip(t / a, -1.0, 1.0)
+    return 0.5 * a * a * (r * np.sqrt(1.0 - r * r) + np.arcsin(r))
+
+
+def _disk_corner(x: np.ndarray, y: np.ndarray, a: np.ndarray) -> np.ndarray:
+    """G(x, y) = ∫_{−a}^{x} clip(y, −h(t), h(t)) dt, h(t) = √(a² − t²): the disk's area below y
+    left of x minus half its chord lengths; differences of G give a rectangle's share of the disk."""
+    xc = np.clip(x, -a, a)
+    xb = np.sqrt(np.maximum(a * a - y * y, 0.0))
+    sgn = np.sign(y)
+    outer = _h_integral(np.minimum(xc, -xb), a) - _h_integral(-a, a) \
+        + np.where(xc > xb, _h_integral(xc, a) - _h_integral(xb, a), 0.0)
+    return sgn * outer + y * (np.clip(xc, -xb, xb) + xb)
+
+
+def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
+             streak: np.ndarray) -> np.ndarray:
+    """Fraction of the signal on each pixel (jy, jx) of the grid ``j`` around the nearest pixel.
+
+    Arrays ``sigma``, ``disk``, ``streak`` are (C,), the phases (P,); the result is (C, Px, Py, Jy, Jx).
+    A spot is the product of its two projections; a disk is not separable: the share of a
+    pixel is the exact area of the disk in it (differences of :func:`_disk_corner`), blurred by
+    Gauss–Hermite quadrature over the Gaussian (10 × 10 nodes) and, if streaked, Gauss–Legendre along x.
+    """
+    c, p = sigma.size, phx.size
+    if shape != "disk":
+        grid = np.broadcast_to(phx, (c, p))
+        px = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=streak[:, None])
+        py = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
+        return py[:, None, :, :, None] * px[:, :, None, None, :]
+    hx, hw = np.polynomial.hermite.hermgauss(10)
+    lx, lw = _LEGENDRE if np.any(streak > 0) else (np.zeros(1), np.full(1, 2.0))
+    e5 = (slice(None), None, None, None, None)
+    a, sg, L = 0.5 * disk[e5], sigma[e5], streak[e5]
+    # pixel edges relative to the disk's centre, (C, Px, Py, Jy, Jx)
+    x0 = j[None, None, None, None, :] - 0.5 - phx[None, :, None, None, None]
+    y0 = j[None, None, None, :, None] - 0.5 - phy[None, None, :, None, None]
+    out = np.zeros(np.broadcast(x0, y0, a).shape)
+    for bx, wx in zip(hx, hw, strict=True):
+        for xl, wl in zip(lx, lw, strict=True):
+            sx = x0 - math.sqrt(2.0) * sg * bx - 0.5 * L * xl
+            for by, wy in zip(hx, hw, strict=True):
+                sy = y0 - math.sqrt(2.0) * sg * by
+                area = (_disk_corner(sx + 1, sy + 1, a) - _disk_corner(sx, sy + 1, a)
+                        - _disk_corner(sx + 1, sy, a) + _disk_corner(sx, sy, a))
+                out += (wx * wy / math.pi) * (0.5 * wl) * area
+    return out / (math.pi * a * a)
+
+
 def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.ndarray
                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Mean and variance (ADU, ADU²) of a pixel's reading; and where the rounding was exact.
@@ -178,7 +229,7 @@ def _as_c(value, c: int) -> np.ndarray:
 
 def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e, gain_e_per_adu, bit_depth,
                   window_px, shape: str = "spot", disk_px=0.0, streak_px=0.0, frames: int = 1,
-                  averaged: str = "positions", phases: int = PHASES) -> LocatorTerms:
+                  averaged: str = "positions", window_at: str = "brightest", phases: int = PHASES) -> LocatorTerms:
     """The error terms of a located position per axis for arrays of candidates (see the module notes).
 
     Parameters
@@ -195,6 +246,12 @@ def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e
         Motion during the exposure along x, px.
     frames : int; averaged : {"positions", "images"}
         Frames per reading and what is averaged.
+    window_at : {"brightest", "centroid"}
+        The window centred on each frame's brightest pixel, or re-centred on the pixel nearest a
+        first centroid (which is the pixel nearest the centre). On a flat-topped target (a disk, a
+        streak) the brightest pixel wanders over the top from frame to frame and a window that does
+        not hold the target from every such pixel clips it: modelled with the brightest pixel's
+        probabilities (linear camera; with exact rounding the window is taken on the nearest pixel).
 
     Returns
     -------
@@ -210,23 +267,24 @@ def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e
     ph = _phases(phases)
     if method == "integer":
         return _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph)
-    return _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph)
+    return _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at)
 
 
 _CHUNK_VALUES = 1 << 21
 """Pixel values formed at once when the rounding is exact (16 MB per array)."""
 
 
-def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
+def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph,
+            window_at) -> LocatorTerms:
     """Centre of mass (and the first-order figures of a fit) in a window on the nearest pixel."""
     c, p = sig.size, ph.size
-    fixed, peak, noise = np.zeros(c), np.zeros(c), np.zeros(c)
+    fixed, peak, noise, wander = np.zeros(c), np.zeros(c), np.zeros(c), np.zeros(c)
     exact = np.sqrt(bg + rd**2) / g < EXACT_BELOW  # the darkest pixel decides
     args = (sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph)
     lin = np.flatnonzero(~exact)
     if lin.size:
-        fixed[lin], peak[lin], noise[lin] = _window_linear(*(a[lin] if isinstance(a, np.ndarray) and a.shape == (c,)
-                                                             else a for a in args))
+        sub = [a[lin] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
+        fixed[lin], peak[lin], noise[lin], wander[lin] = _window_linear(*sub, window_at)
     ex = np.flatnonzero(exact)
     if ex.size:
         span = p * p * (2 * (int(win[ex].max()) // 2) + 1) ** 2
@@ -241,44 +299,62 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
         dark = adu_moments(bg, rd, g, top)[1] * g**2
         noise = sa2 / sgn * (16.0 / 9.0 + 8.0 * np.pi * sa2 * dark / sgn)
         fixed, peak = np.zeros(c), np.zeros(c)
-    # to first order the centre of mass of the mean image is the mean of the centres of mass
-    return LocatorTerms(fixed, peak, noise, noise / frames, exact)
+    # to first order the centre of mass of the mean image is the mean of the centres of mass; the
+    # window's wandering with the brightest pixel is per frame (positions) or per mean image (images)
+    if averaged == "images":
+        return LocatorTerms(fixed, peak, noise + wander, noise / frames + wander, exact)
+    return LocatorTerms(fixed, peak, noise + wander, (noise + wander) / frames, exact)
 
 
-def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
-    """Linear camera: the column sums of a separable expected image (1-D in each axis)."""
+def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at):
+    """Linear camera: the column and row sums of a separable expected image, for every window centre
+    the brightest pixel can take (offsets ox, oy from the nearest pixel) or the nearest pixel alone."""
     c, p = sig.size, ph.size
     half = int(win.max()) // 2
-    j = np.arange(-half, half + 1, dtype=float)
-    inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
+    extent = 5.0 * sig + 0.5 * disk + 0.5 * streak
+    wanders = window_at == "brightest" and bool(np.any(((disk > 1.0) | (streak > 1.0)) & (win // 2 < extent + 3)))
+    k = _INT_HALF if wanders else 0
+    j = np.arange(-half - k, half + k + 1, dtype=float)
+    o = np.arange(-k, k + 1, dtype=float)
+    inside = (np.abs(j[None, None, :] - o[None, :, None]) <= (win // 2)[:, None, None])[:, None]  # (C, 1, O, J)
     grid = np.broadcast_to(ph, (c, p))
-    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None]) * inside
-    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1))) * inside
-    rows = py.sum(axis=2)  # (C, Py)
-    sx = px.sum(axis=2)  # (C, Px)
-    xbar = (px * j).sum(axis=2) / sx
-    bias = xbar - ph[None, :]
-    dev2 = (j[None, None, :] - xbar[..., None]) ** 2 * inside  # (C, Px, J)
-    wn = (win.astype(float))[:, None, None]
-    per_col_dark = (wn * (bg + rd**2)[:, None, None] / g[:, None, None] ** 2 + wn / 12.0)  # (C, 1, 1)
-    spot_term = (dev2 * px).sum(axis=2)[:, :, None] * (sgn / g**2)[:, None, None] * rows[:, None, :]
-    dark_term = dev2.sum(axis=2)[:, :, None] * per_col_dark
-    weight = (sgn / g)[:, None, None] * sx[:, :, None] * rows[:, None, :]
-    noise = (spot_term + dark_term) / weight**2
-    return np.mean(bias**2, axis=1), np.max(np.abs(bias), axis=1), np.mean(noise, axis=(1, 2))
+    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None])
+    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
+    px, py = px[:, :, None, :] * inside, py[:, :, None, :] * inside  # (C, P, O, J)
+    rows = py.sum(axis=3)  # (C, Py, Oy)
+    sx = px.sum(axis=3)  # (C, Px, Ox)
+    xbar = (px * j).sum(axis=3) / sx
+    bias = xbar - ph[None, :, None]  # (C, Px, Ox)
+    dev2 = (j - xbar[..., None]) ** 2 * inside  # (C, Px, Ox, J)
+    wn = win.astype(float)
+    per_col_dark = wn * (bg + rd**2) / g**2 + wn / 12.0  # (C,)
+    e5 = (slice(None), None, None, None, None)
+    a_term = (dev2 * px).sum(axis=3)[:, :, None, :, None] * (sgn / g**2)[e5] * rows[:, None, :, None, :]
+    d_term = dev2.sum(axis=3)[:, :, None, :, None] * per_col_dark[e5]
+    weight = (sgn / g)[e5] * sx[:, :, None, :, None] * rows[:, None, :, None, :]
+    noise = (a_term + d_term) / weight**2  # (C, Px, Py, Ox, Oy)
+    if not wanders:
+        b = bias[:, :, 0]
+        return np.mean(b**2, axis=1), np.max(np.abs(b), axis=1), np.mean(noise, axis=(1, 2, 3, 4)), np.zeros(c)
+    div = frames if averaged == "images" else 1
+    prob, jx, jy = _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
+    kk = 2 * k + 1
+    prob = prob.reshape(c, p, p, kk, kk).transpose(0, 1, 2, 4, 3)  # (C, Px, Py, Ox, Oy)
+    px_o = prob.sum(axis=4)  # (C, Px, Py, Ox)
+    mean_b = (px_o * bias[:, :, None, :]).sum(axis=3)  # (C, Px, Py)
+    var_b = np.maximum((px_o * bias[:, :, None, :] ** 2).sum(axis=3) - mean_b**2, 0.0)
+    mean_n = (prob * noise).sum(axis=(3, 4))
+    return (np.mean(mean_b**2, axis=(1, 2)), np.max(np.abs(mean_b), axis=(1, 2)), np.mean(mean_n, axis=(1, 2)),
+            np.mean(var_b, axis=(1, 2)))
 
 
 def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
     """Rounding modelled exactly: every pixel of the window at every phase in x and y."""
-    c, p = sig.size, ph.size
     half = int(win.max()) // 2
     j = np.arange(-half, half + 1, dtype=float)
     inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
-    grid = np.broadcast_to(ph, (c, p))
-    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None])
-    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
     e5 = (slice(None), None, None, None, None)
-    mu = sgn[e5] * py[:, None, :, :, None] * px[:, :, None, None, :] + bg[e5]  # (C, Px, Py, Jy, Jx)
+    mu = sgn[e5] * image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) + bg[e5]
     mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
     mask = inside[:, :, None, :, None] & inside[:, :, None, None, :]  # (C, 1, 1, Jy, Jx)
     w = np.where(mask, mean - (bg / g)[e5], 0.0)
@@ -292,23 +368,17 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     return np.mean(bias**2, axis=(1, 2)), np.max(np.abs(bias), axis=(1, 2)), np.mean(noise, axis=(1, 2))
 
 
-def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
-    """The brightest pixel: its probabilities under normal pixel noise, per phase."""
+def _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, var_div, ph):
+    """P(the brightest pixel is at offset (jy, jx) from the nearest pixel), (C, Px, Py, K·K), and the offsets."""
     c, p = sig.size, ph.size
     j = np.arange(-_INT_HALF, _INT_HALF + 1, dtype=float)
-    grid = np.broadcast_to(ph, (c, p))
-    px = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=streak[:, None])
-    py = profile_1d(j, grid, shape=shape, sigma=sig[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
-    mu = sgn[:, None, None, None, None] * py[:, None, :, :, None] * px[:, :, None, None, :] \
-        + bg[:, None, None, None, None]  # (C, Px, Py, Jy, Jx)
-    mean, var, exact = adu_moments(mu, rd[:, None, None, None, None], g[:, None, None, None, None],
-                                   top[:, None, None, None, None])
-    if averaged == "images":
-        var = var / frames
-    sd = np.sqrt(np.maximum(var, 1e-18))
+    e5 = (slice(None), None, None, None, None)
+    mu = sgn[e5] * image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) + bg[e5]
+    mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
+    sd = np.sqrt(np.maximum(var / var_div, 1e-18))
     m = mean.reshape(c, p, p, -1)
     s = sd.reshape(c, p, p, -1)
-    lo = (m + 0.0).max(axis=3) - 6.0 * s.max(axis=3)
+    lo = m.max(axis=3) - 6.0 * s.max(axis=3)
     hi = (m + 6.0 * s).max(axis=3)
     t = np.linspace(0.0, 1.0, _V_NODES)
     vv = lo[..., None] + (hi - lo)[..., None] * t  # (C, P, P, V)
@@ -316,20 +386,26 @@ def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph
     cdf = np.clip(phi_cdf(z), 1e-300, 1.0)
     dens = np.exp(-0.5 * z**2) / (math.sqrt(2 * math.pi) * s[..., None])
     prod = np.exp(np.log(cdf).sum(axis=3, keepdims=True))
-    integrand = dens * prod / cdf
-    prob = np.trapezoid(integrand, vv[..., None, :], axis=4) if hasattr(np, "trapezoid") else \
-        np.trapz(integrand, vv[..., None, :], axis=4)
+    f = dens * prod / cdf
+    dv = (hi - lo)[..., None] / (_V_NODES - 1)
+    prob = (f.sum(axis=4) - 0.5 * (f[..., 0] + f[..., -1])) * dv  # trapezoidal rule
     prob = prob / prob.sum(axis=3, keepdims=True)
-    jx = np.broadcast_to(j[None, :], (j.size, j.size)).ravel()
+    jy = np.repeat(j, j.size)
+    jx = np.tile(j, j.size)
+    return prob, jx, jy
+
+
+def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
+    """The brightest pixel: its probabilities under normal pixel noise, per phase."""
+    c = sig.size
+    div = frames if averaged == "images" else 1
+    prob, jx, _ = _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
     ex = (prob * jx).sum(axis=3)
     vx = np.maximum((prob * jx**2).sum(axis=3) - ex**2, 0.0)
     err = ex - ph[None, :, None]
-    if averaged == "images" or frames == 1:
-        fixed = np.mean(err**2 + vx, axis=(1, 2)) if averaged == "images" else np.mean(err**2, axis=(1, 2))
-        rand = np.zeros(c) if averaged == "images" else np.mean(vx, axis=(1, 2))
+    exact = np.sqrt(bg + rd**2) / g < EXACT_BELOW
+    if averaged == "images":  # one located position per reading, from the mean image
+        fixed, rand = np.mean(err**2 + vx, axis=(1, 2)), np.zeros(c)
     else:
-        fixed = np.mean(err**2, axis=(1, 2))
-        rand = np.mean(vx, axis=(1, 2)) / frames
-    noise = np.mean(vx, axis=(1, 2))
-    peak = np.max(np.abs(err), axis=(1, 2))
-    return LocatorTerms(fixed, peak, noise, rand, exact.reshape(c, -1).any(axis=1))
+        fixed, rand = np.mean(err**2, axis=(1, 2)), np.mean(vx, axis=(1, 2)) / frames
+    return LocatorTerms(fixed, np.max(np.abs(err), axis=(1, 2)), np.mean(vx, axis=(1, 2)), rand, exact)
