@@ -34,13 +34,10 @@ Derivations [derived]:
 * Motion blur: the spot moves ``streak_px`` along x during the exposure (along the arc: the
   tangential direction, the one the angle depends on); the profile is the spot convolved with a
   uniform segment, for a Gaussian in closed form with ∫Φ = uΦ(u/σ) + σφ(u/σ).
-* Disk of diameter d blurred by σ_b: its projection on x is a semicircle law (Wigner), CDF
-  ½ + (x√(a² − x²) + a²·asin(x/a))/(πa²) for |x| < a; the blur enters by Gauss–Hermite quadrature
-  (24 nodes), the streak by Gauss–Legendre (12 nodes). The disk is modelled through its column sums
-  (the centre of mass along x of any target is that of its column sums), which is exact for the
-  centre of mass and a least-squares fit in the linear camera regime; the brightest pixel and the
-  exact ADC of a disk use the separable product of its two projections (an approximation, stated
-  in the notes of the rig's locator model).
+* Disk of diameter d blurred by σ_b: not separable, but its blur and the pixel's area are, so a
+  pixel's share is ∫∫_disk K_x(x)·K_y(y) dx dy, K the pixel's box convolved with the Gaussian
+  (and, along x, the streak): closed form along each chord, Gauss–Legendre across the disk
+  (:func:`budget.imaging.pixels.image_2d`); its column sums, :func:`budget.imaging.pixels.profile_1d`.
 """
 
 from __future__ import annotations
@@ -50,18 +47,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from budget.imaging.pixels import EXACT_BELOW, adu_moments, image_2d, profile_1d
 from budget.imaging.special import phi_cdf
 
-__all__ = ["EXACT_BELOW", "LocatorTerms", "adu_moments", "locator_terms", "profile_1d", "PHASES"]
+__all__ = ["LocatorTerms", "locator_terms", "PHASES"]
 
 PHASES = 8
 """Sub-pixel phases per axis (midpoint rule over one pixel)."""
 
-EXACT_BELOW = 0.75
-"""Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
-
-_HERMITE = np.polynomial.hermite.hermgauss(24)
-_LEGENDRE = np.polynomial.legendre.leggauss(12)
 _INT_HALF = 3  # the brightest pixel is looked for within ±3 px of the nearest pixel
 _V_NODES = 96
 
@@ -80,143 +73,6 @@ class LocatorTerms:
     def total_var(self) -> np.ndarray:
         """Variance of one reading's located position per axis, px²."""
         return self.fixed_var + self.random_var
-
-
-def _cdf_gauss_streak(u: np.ndarray, sigma: np.ndarray, streak: np.ndarray) -> np.ndarray:
-    """CDF of a Gaussian (σ) convolved with a uniform segment of length L (L = 0: the Gaussian)."""
-    z = u / sigma
-    plain = phi_cdf(z)
-    if not np.any(streak > 0):
-        return plain
-    half = 0.5 * streak
-    L = np.where(streak > 0, streak, 1.0)
-
-    def integral(v):  # ∫ Φ(v/σ) dv
-        return v * phi_cdf(v / sigma) + sigma * np.exp(-0.5 * (v / sigma) ** 2) / math.sqrt(2.0 * math.pi)
-
-    smeared = (integral(u + half) - integral(u - half)) / L
-    return np.where(streak > 1e-3 * sigma, smeared, plain)
-
-
-def _cdf_semicircle(x: np.ndarray, a: np.ndarray) -> np.ndarray:
-    """CDF of the projection of a uniform disk of radius a on one axis."""
-    t = np.clip(x / a, -1.0, 1.0)
-    return 0.5 + (t * np.sqrt(1.0 - t * t) + np.arcsin(t)) / math.pi
-
-
-def _cdf_disk(u: np.ndarray, radius: np.ndarray, blur: np.ndarray, streak: np.ndarray) -> np.ndarray:
-    """CDF of a disk's projection blurred by a Gaussian (σ_b) and streaked by L, by quadrature."""
-    hx, hw = _HERMITE
-    lx, lw = _LEGENDRE
-    out = np.zeros(np.broadcast(u, radius, blur, streak).shape)
-    for xh, wh in zip(hx, hw, strict=True):
-        for xl, wl in zip(lx, lw, strict=True):
-            shift = math.sqrt(2.0) * blur * xh + 0.5 * streak * xl
-            out += (wh / math.sqrt(math.pi)) * (0.5 * wl) * _cdf_semicircle(u - shift, radius)
-    return out
-
-
-def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
-               streak: np.ndarray) -> np.ndarray:
-    """Fraction of the signal in each pixel column ``offsets`` for a centre at ``phase``.
-
-    ``sigma``, ``disk``, ``streak`` have the leading shape of ``phase`` (broadcast); pixel j covers
-    [j − ½, j + ½]; the result has ``phase``'s shape plus the offsets' axis.
-    """
-    j = offsets.reshape((1,) * phase.ndim + (-1,))
-    ph = phase[..., None]
-    s, d, L = sigma[..., None], disk[..., None], streak[..., None]
-    if shape == "disk":
-        hi = _cdf_disk(j + 0.5 - ph, 0.5 * d, s, L)
-        lo = _cdf_disk(j - 0.5 - ph, 0.5 * d, s, L)
-    else:
-        hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
-        lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
-    return hi - lo
-
-
-def _h_integral(t: np.ndarray, a: np.ndarray) -> np.ndarray:
-    """∫₀ᵗ √(a² − u²) du for |t| <= a."""
-    r = np.clip(t / a, -1.0, 1.0)
-    return 0.5 * a * a * (r * np.sqrt(1.0 - r * r) + np.arcsin(r))
-
-
-def _disk_corner(x: np.ndarray, y: np.ndarray, a: np.ndarray) -> np.ndarray:
-    """G(x, y) = ∫_{−a}^{x} clip(y, −h(t), h(t)) dt, h(t) = √(a² − t²): the disk's area below y
-    left of x minus half its chord lengths; differences of G give a rectangle's share of the disk."""
-    xc = np.clip(x, -a, a)
-    xb = np.sqrt(np.maximum(a * a - y * y, 0.0))
-    sgn = np.sign(y)
-    outer = _h_integral(np.minimum(xc, -xb), a) - _h_integral(-a, a) \
-        + np.where(xc > xb, _h_integral(xc, a) - _h_integral(xb, a), 0.0)
-    return sgn * outer + y * (np.clip(xc, -xb, xb) + xb)
-
-
-def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
-             streak: np.ndarray) -> np.ndarray:
-    """Fraction of the signal on each pixel (jy, jx) of the grid ``j`` around the nearest pixel.
-
-    Arrays ``sigma``, ``disk``, ``streak`` are (C,), the phases (P,); the result is (C, Px, Py, Jy, Jx).
-    A spot is the product of its two projections; a disk is not separable: the share of a
-    pixel is the exact area of the disk in it (differences of :func:`_disk_corner`), blurred by
-    Gauss–Hermite quadrature over the Gaussian (10 × 10 nodes) and, if streaked, Gauss–Legendre along x.
-    """
-    c, p = sigma.size, phx.size
-    if shape != "disk":
-        grid = np.broadcast_to(phx, (c, p))
-        px = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=streak[:, None])
-        py = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
-        return py[:, None, :, :, None] * px[:, :, None, None, :]
-    hx, hw = np.polynomial.hermite.hermgauss(10)
-    lx, lw = _LEGENDRE if np.any(streak > 0) else (np.zeros(1), np.full(1, 2.0))
-    e5 = (slice(None), None, None, None, None)
-    a, sg, L = 0.5 * disk[e5], sigma[e5], streak[e5]
-    # pixel edges relative to the disk's centre, (C, Px, Py, Jy, Jx)
-    x0 = j[None, None, None, None, :] - 0.5 - phx[None, :, None, None, None]
-    y0 = j[None, None, None, :, None] - 0.5 - phy[None, None, :, None, None]
-    out = np.zeros(np.broadcast(x0, y0, a).shape)
-    for bx, wx in zip(hx, hw, strict=True):
-        for xl, wl in zip(lx, lw, strict=True):
-            sx = x0 - math.sqrt(2.0) * sg * bx - 0.5 * L * xl
-            for by, wy in zip(hx, hw, strict=True):
-                sy = y0 - math.sqrt(2.0) * sg * by
-                area = (_disk_corner(sx + 1, sy + 1, a) - _disk_corner(sx, sy + 1, a)
-                        - _disk_corner(sx + 1, sy, a) + _disk_corner(sx, sy, a))
-                out += (wx * wy / math.pi) * (0.5 * wl) * area
-    return out / (math.pi * a * a)
-
-
-def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.ndarray
-                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Mean and variance (ADU, ADU²) of a pixel's reading; and where the rounding was exact.
-
-    Notes
-    -----
-    See the module notes: the exact sums over the ADC thresholds where the noise is below
-    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
-    """
-    mu_e, read_e, gain, top = np.broadcast_arrays(mu_e, read_e, gain, top)
-    x = mu_e / gain
-    s = np.sqrt(mu_e + read_e**2) / gain
-    mean = np.minimum(x, top).astype(float)
-    var = s**2 + 1.0 / 12.0
-    exact = s < EXACT_BELOW
-    if np.any(exact):
-        xe, se, te = x[exact], np.maximum(s[exact], 1e-9), top[exact]
-        band = int(math.ceil(8.0 * float(se.max()))) + 1
-        k0 = np.floor(xe)
-        below = np.clip(k0 - band - 1, 0.0, te)  # thresholds k = 1 … below: always passed
-        m1 = below.copy()
-        m2 = below**2
-        for o in range(-band, band + 1):
-            k = k0 + o
-            ok = (k >= 1) & (k <= te)
-            p = np.where(ok, 1.0 - phi_cdf((k - 0.5 - xe) / se), 0.0)
-            m1 += p
-            m2 += (2.0 * k - 1.0) * p
-        mean[exact] = m1
-        var[exact] = np.maximum(m2 - m1**2, 0.0)
-    return mean, var, exact
 
 
 def _phases(n: int) -> np.ndarray:

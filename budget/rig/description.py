@@ -82,6 +82,7 @@ class Target:
 class Locator:
     method: str = "centroid"
     window_px: int = 9
+    window_at: str = "brightest"
     source: str = "assumed"
 
 
@@ -98,6 +99,7 @@ class Pivot:
 @dataclass(frozen=True)
 class Frames:
     per_reading: int = 1
+    averaged: str = "positions"
     source: str = "assumed"
 
 
