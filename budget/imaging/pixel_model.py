@@ -260,8 +260,12 @@ def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph
     vx = np.maximum((prob * jx**2).sum(axis=3) - ex**2, 0.0)
     err = ex - ph[None, :, None]
     exact = np.sqrt(bg + rd**2) / g < EXACT_BELOW
+    # E[(E[j] − δ)²] = E[δ²] − 2E[δ·E[j]] + E[E[j]²] with E[δ²] = 1/12 exactly: the midpoint rule
+    # would integrate the sawtooth −δ of a bright spot only to (1 − 1/P²)/12
+    dx = ph[None, :, None]
+    mean_sq = 1.0 / 12.0 + np.mean(ex**2 - 2.0 * dx * ex, axis=(1, 2))
     if averaged == "images":  # one located position per reading, from the mean image
-        fixed, rand = np.mean(err**2 + vx, axis=(1, 2)), np.zeros(c)
+        fixed, rand = mean_sq + np.mean(vx, axis=(1, 2)), np.zeros(c)
     else:
-        fixed, rand = np.mean(err**2, axis=(1, 2)), np.mean(vx, axis=(1, 2)) / frames
+        fixed, rand = mean_sq, np.mean(vx, axis=(1, 2)) / frames
     return LocatorTerms(fixed, np.max(np.abs(err), axis=(1, 2)), np.mean(vx, axis=(1, 2)), rand, exact)
