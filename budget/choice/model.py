@@ -16,7 +16,7 @@ from statistics import NormalDist
 import numpy as np
 
 from budget.choice.design import PointGradients, design_geometry
-from budget.imaging import optics, spot
+from budget.imaging import optics, pixel_model, spot
 from budget.inputs.choose_file import ChooseSpec
 
 __all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates",
@@ -215,26 +215,23 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     signal = lt["signal_e_per_ms"] * scale * t_ms
     bg = lt["background_e_per_um2_per_ms"] * cand.pitch_um**2 * scale * t_ms
     gain = cand.full_well_e / (2.0**cand.bit_depth - 1.0)
-    b2 = bg + cand.read_noise_e**2 + spot.adc_variance_e2(gain)
     window = np.full(sigma.shape, lo["window_px"], dtype=int) if lo["window_px"] else \
         np.maximum(3, 2 * np.ceil((8.0 * sigma + 1.0 - 1.0) / 2.0).astype(int) + 1)
     method = lo["method"]
+    disk = tg["shape"] == "disk"
+    light = dict(method=method, sigma_px=np.sqrt(s_diff**2 + t_spot**2) if disk else sigma, signal_e=signal,
+                 background_e=bg, read_noise_e=cand.read_noise_e, gain_e_per_adu=gain, bit_depth=cand.bit_depth,
+                 window_px=window, shape=tg["shape"], disk_px=np.broadcast_to(disk_px, sigma.shape),
+                 frames=lo["frames_per_reading"], averaged=lo["frames_averaged"], window_at=lo["window_at"])
+    still = pixel_model.locator_terms(streak_px=0.0, **light)
+    blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
+    moving = pixel_model.locator_terms(streak_px=blur, **light) if omega > 0 else still
     zero = np.zeros(sigma.shape)
-    quant, lock, noise = zero, zero, zero
-    if method == "integer":
-        quant = np.full(sigma.shape, spot.integer_quantization_variance())
-    elif method == "fit":
-        noise = spot.mortensen_variance(sigma, 1.0, signal, b2)
-    else:
-        noise = spot.com_variance(sigma, signal, b2, window)
-        if tg["shape"] == "disk":
-            amp = spot.disk_locking_amplitude(disk_px, np.sqrt(s_diff**2 + t_spot**2))
-        else:
-            amp = spot.pixel_locking_amplitude(sigma)
-        amp = amp + truncation_by_window(sigma, window)
-        lock = amp**2 / 2.0
-    noise_px = np.sqrt(noise)
-    noise = noise / lo["frames_per_reading"]
+    fixed = "quant" if method == "integer" else "lock"
+    parts = {"quant": zero, "lock": zero, fixed: moving.fixed_var, "noise": moving.random_var}
+    quant, lock, noise = parts["quant"], parts["lock"], parts["noise"]
+    pivot_var = still.total_var  # the pivot's points are imaged still
+    noise_px = np.sqrt(moving.noise_var)
     resid = lo["distortion_residual_rms_px"] ** 2 / 2.0
     # geometry sums
     g2 = np.sum(geo.grad**2, axis=2)  # (O, n)
@@ -250,7 +247,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     var_mark = geo.mark[:, None] * mark_b**2 / 3.0 / sc["pointer_radius_mm"] ** 2
     var_timing = geo.timing[:, None] * np.full(r_px.shape, (omega * mo["jitter_ms"] * 1e-3) ** 2)
     var = np.stack([quant * s_read * inv_r2, lock * s_read * inv_r2, noise * s_read * inv_r2,
-                    (quant + lock + noise) * s_piv * inv_r2 + var_mark, var_skew,
+                    pivot_var * s_piv * inv_r2 + var_mark, var_skew,
                     resid * (s_read + s_piv) * inv_r2, var_timing])  # (K, O, C) rad² or (rad/V)²
     var = var * _DEG**2
     k = NormalDist().inv_cdf(0.5 * (1.0 + spec.goal["p"]))
@@ -271,7 +268,6 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     # checks
     dof = optics.depth_of_field_mm(cand.f_number, lo["coc_px"] * pitch_mm, m)
     dof_need = sc["dial_diameter_mm"] * math.sin(beta) + sc["target_height_mm"]
-    blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
     fr_need = abs(mo["rate_deg_per_s"]) / mo["sample_step_deg"]
     fr_ok = cand.max_frame_rate_hz >= fr_need
     dof_ok = dof >= dof_need

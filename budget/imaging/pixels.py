@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-from budget.imaging.special import phi_cdf
+from budget.imaging.special import phi_cdf, phi_coarse
 
 __all__ = ["EXACT_BELOW", "adu_moments", "image_2d", "profile_1d"]
 
@@ -124,19 +124,22 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     mean = np.minimum(x, top).astype(float)
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
-    if np.any(exact):
-        xe, se, te = x[exact], np.maximum(s[exact], 1e-9), top[exact]
-        band = int(math.ceil(8.0 * float(se.max()))) + 1
-        k0 = np.floor(xe)
-        below = np.clip(k0 - band - 1, 0.0, te)  # thresholds k = 1 … below: always passed
+    # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain
+    for lo_s, hi_s, band in ((0.0, 0.15, 1), (0.15, 0.3, 2), (0.3, 0.5, 3), (0.5, EXACT_BELOW, 4)):
+        group = exact & (s >= lo_s) & (s < hi_s)
+        if not np.any(group):
+            continue
+        xe, se, te = x[group], np.maximum(s[group], 1e-9), top[group]
+        k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
+        below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
         m1 = below.copy()
         m2 = below**2
-        for o in range(-band, band + 1):
+        for o in range(-band + 1, band + 1):
             k = k0 + o
             ok = (k >= 1) & (k <= te)
-            p = np.where(ok, 1.0 - phi_cdf((k - 0.5 - xe) / se), 0.0)
+            p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
             m1 += p
             m2 += (2.0 * k - 1.0) * p
-        mean[exact] = m1
-        var[exact] = np.maximum(m2 - m1**2, 0.0)
+        mean[group] = m1
+        var[group] = np.maximum(m2 - m1**2, 0.0)
     return mean, var, exact
