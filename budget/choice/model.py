@@ -152,7 +152,8 @@ def truncation_by_window(sigma: np.ndarray, window: np.ndarray) -> np.ndarray:
 
 
 def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients | None = None, *,
-                       distance_mm: np.ndarray | None = None, exposure_ms: float | None = None) -> Prediction:
+                       distance_mm: np.ndarray | None = None, exposure_ms: float | None = None,
+                       exact_adc: bool = True) -> Prediction:
     """Predicted budget of every candidate at once.
 
     Parameters
@@ -167,6 +168,10 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
         lens at the farthest, where it is fitted to the dial; :func:`distance_bounds`).
     exposure_ms : float, optional
         Exposure wanted (default ``[light] exposure_ms``), shortened against saturation and blur.
+    exact_adc : bool
+        False: the ADC's rounding as g²/12 of added noise (a screening figure, fast; the working-distance
+        search uses it); True: rounding exact where the noise is below 0.75 count
+        (:func:`budget.imaging.pixel_model.locator_terms`).
 
     Returns
     -------
@@ -174,12 +179,12 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
 
     Notes
     -----
-    Per located point and axis (px²): integer locator (1/2)²/3 (JCGM 100 F.2.2.1); pixel-locking
-    arcsine of amplitude A, A²/2 (JCGM 101 6.4.6), A = e^(−2π²σ²)/π plus the window truncation
-    (:mod:`budget.imaging.spot`), or for a disk |2J1(2πa)/(2πa)|·e^(−2π²σ_b²)/π; centroid
-    noise from the light budget: centre of mass (σ² + 1/12)/N + b²W²(W² − 1)/(12N²) (Thompson,
-    Larson & Webb 2002 photon term plus the window's background), least-squares fit Mortensen
-    et al. 2010, divided by the frames averaged; distortion residual RMS²/2. An angle error is
+    Per located point and axis (px²): the locator model of the rig
+    (:func:`budget.imaging.pixel_model.locator_terms`, the same function ``run`` uses), evaluated over
+    all candidates at once: the error fixed by the sub-pixel phase (integer locator: "pixel
+    quantization"; otherwise "pixel-locking") and the noise per reading after the frames are averaged;
+    readings of a moving pointer are streaked by the motion blur, the pivot's points are still;
+    distortion residual RMS²/2. An angle error is
     δθ = Σ g_i·δp_i/R_px (:func:`design_geometry`), so each row is (per-point variance)·Σ|g_i|²/R_px².
     Tilt: rectangular ±β per axis, first-order terms only (the on-axis β²/4 term has zero
     sensitivity at β = 0, JCGM 100 5.1.2 note). Timing: ω·jitter per reading; a rolling shutter
@@ -222,7 +227,8 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     light = dict(method=method, sigma_px=np.sqrt(s_diff**2 + t_spot**2) if disk else sigma, signal_e=signal,
                  background_e=bg, read_noise_e=cand.read_noise_e, gain_e_per_adu=gain, bit_depth=cand.bit_depth,
                  window_px=window, shape=tg["shape"], disk_px=np.broadcast_to(disk_px, sigma.shape),
-                 frames=lo["frames_per_reading"], averaged=lo["frames_averaged"], window_at=lo["window_at"])
+                 frames=lo["frames_per_reading"], averaged=lo["frames_averaged"], window_at=lo["window_at"],
+                 exact_adc=exact_adc)
     still = pixel_model.locator_terms(streak_px=0.0, **light)
     blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
     moving = pixel_model.locator_terms(streak_px=blur, **light) if omega > 0 else still

@@ -85,7 +85,8 @@ def _as_c(value, c: int) -> np.ndarray:
 
 def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e, gain_e_per_adu, bit_depth,
                   window_px, shape: str = "spot", disk_px=0.0, streak_px=0.0, frames: int = 1,
-                  averaged: str = "positions", window_at: str = "brightest", phases: int = PHASES) -> LocatorTerms:
+                  averaged: str = "positions", window_at: str = "brightest", phases: int = PHASES,
+                  exact_adc: bool = True) -> LocatorTerms:
     """The error terms of a located position per axis for arrays of candidates (see the module notes).
 
     Parameters
@@ -108,6 +109,9 @@ def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e
         streak) the brightest pixel wanders over the top from frame to frame and a window that does
         not hold the target from every such pixel clips it: modelled with the brightest pixel's
         probabilities (linear camera; with exact rounding the window is taken on the nearest pixel).
+    exact_adc : bool
+        False: the linear camera (rounding as g²/12 of added noise) everywhere, a screening figure
+        (``choose`` searches working distances with it and reports the exact one).
 
     Returns
     -------
@@ -125,7 +129,8 @@ def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e
     ph = _phases(phases)
     if method == "integer":
         return _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph[ph > 0])
-    return _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at)
+    return _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at,
+                   exact_adc)
 
 
 _CHUNK_VALUES = 1 << 21
@@ -133,11 +138,11 @@ _CHUNK_VALUES = 1 << 21
 
 
 def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph,
-            window_at) -> LocatorTerms:
+            window_at, exact_adc=True) -> LocatorTerms:
     """Centre of mass (and the first-order figures of a fit) in a window on the nearest pixel."""
     c, p = sig.size, ph.size
     fixed, peak, noise, wander = np.zeros(c), np.zeros(c), np.zeros(c), np.zeros(c)
-    exact = np.sqrt(bg + rd**2) / g < EXACT_BELOW  # the darkest pixel decides
+    exact = (np.sqrt(bg + rd**2) / g < EXACT_BELOW) & exact_adc  # the darkest pixel decides
     args = (sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph)
     lin = np.flatnonzero(~exact)
     if lin.size:
@@ -167,12 +172,55 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
 
 
 def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at):
-    """Linear camera: the column and row sums of a separable expected image, for every window centre
-    the brightest pixel can take (offsets ox, oy from the nearest pixel) or the nearest pixel alone."""
-    c, p = sig.size, ph.size
-    half = int(win.max()) // 2
+    """Linear camera: mean square bias, largest bias, frame noise and the window's wandering."""
     extent = 5.0 * sig + 0.5 * disk + 0.5 * streak
     wanders = window_at == "brightest" and bool(np.any(((disk > 1.0) | (streak > 1.0)) & (win // 2 < extent + 3)))
+    if not wanders and shape == "spot" and not np.any(streak > 0) and sig.size > _MEMO_FROM:
+        f, pk, c1, c2 = _spot_coefficients(sig, win, ph)
+    else:
+        f, pk, c1, c2, *wander = _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames,
+                                             averaged, ph, wanders)
+        if wander:
+            return f, pk, c1, wander[0]
+    b2 = bg + rd**2 + g**2 / 12.0
+    return f, pk, c1 / sgn + c2 * b2 / sgn**2, np.zeros(sig.size)
+
+
+_MEMO_FROM = 64
+"""Candidates from which a spot's window sums are interpolated between memoised σ nodes (choose)."""
+NODES_PER_OCTAVE = 32
+"""σ nodes of the memo: 2^(k/32) px, 2.2 % apart."""
+_MEMO: dict[tuple[int, int, int], tuple[float, float, float, float]] = {}
+
+
+def _spot_coefficients(sig, win, ph):
+    """The window sums of a Gaussian spot at the σ nodes that bracket each σ, each node computed once per
+    process; between nodes, linear interpolation of their logarithms in log σ."""
+    out = np.zeros((4, sig.size))
+    for w in np.unique(win):
+        sel = win == w
+        ls = np.log2(sig[sel]) * NODES_PER_OCTAVE
+        k = np.arange(math.floor(ls.min()), math.ceil(ls.max()) + 1)
+        todo = [int(i) for i in k if (int(w), int(i), ph.size) not in _MEMO]
+        if todo:
+            s_nodes = 2.0 ** (np.array(todo, dtype=float) / NODES_PER_OCTAVE)
+            n = len(todo)
+            one, zero = np.ones(n), np.zeros(n)
+            vals = _linear_sums(s_nodes, one, zero, zero, one, one, np.full(n, int(w)), "spot", zero, zero, 1,
+                                "positions", ph, False)
+            for col, i in enumerate(todo):
+                _MEMO[int(w), i, ph.size] = tuple(float(v[col]) for v in vals)
+        nodes = np.log(np.maximum(np.array([_MEMO[int(w), int(i), ph.size] for i in k]), 1e-300))  # (K, 4)
+        for r in range(4):
+            out[r, sel] = np.exp(np.interp(ls, k.astype(float), nodes[:, r]))
+    return out[0], out[1], out[2], out[3]
+
+
+def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, wanders):
+    """Column and row sums of a separable expected image, for every window centre the brightest pixel
+    can take (offsets ox, oy from the nearest pixel) or the nearest pixel alone."""
+    c, p = sig.size, ph.size
+    half = int(win.max()) // 2
     k = _INT_HALF if wanders else 0
     j = np.arange(-half - k, half + k + 1, dtype=float)
     o = np.arange(-k, k + 1, dtype=float)
@@ -187,15 +235,16 @@ def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, a
     bias = xbar - ph[None, :, None]  # (C, Px, Ox)
     dev2 = (j - xbar[..., None]) ** 2 * inside  # (C, Px, Ox, J)
     wn = win.astype(float)
-    per_col_dark = wn * (bg + rd**2) / g**2 + wn / 12.0  # (C,)
     e5 = (slice(None), None, None, None, None)
-    a_term = (dev2 * px).sum(axis=3)[:, :, None, :, None] * (sgn / g**2)[e5] * rows[:, None, :, None, :]
-    d_term = dev2.sum(axis=3)[:, :, None, :, None] * per_col_dark[e5]
-    weight = (sgn / g)[e5] * sx[:, :, None, :, None] * rows[:, None, :, None, :]
-    noise = (a_term + d_term) / weight**2  # (C, Px, Py, Ox, Oy)
+    # noise = c1/S + c2·b²/S², b² = background + read² + g²/12 per pixel (electrons²) [derived]
+    c1 = (dev2 * px).sum(axis=3)[:, :, None, :, None] / (sx[:, :, None, :, None] ** 2 * rows[:, None, :, None, :])
+    c2 = dev2.sum(axis=3)[:, :, None, :, None] * wn[e5] / (sx[:, :, None, :, None] * rows[:, None, :, None, :]) ** 2
     if not wanders:
         b = bias[:, :, 0]
-        return np.mean(b**2, axis=1), np.max(np.abs(b), axis=1), np.mean(noise, axis=(1, 2, 3, 4)), np.zeros(c)
+        return np.mean(b**2, axis=1), np.max(np.abs(b), axis=1), np.mean(c1, axis=(1, 2, 3, 4)), \
+            np.mean(c2, axis=(1, 2, 3, 4))
+    b2 = bg + rd**2 + g**2 / 12.0
+    noise = c1 / sgn[e5] + c2 * (b2 / sgn**2)[e5]  # (C, Px, Py, Ox, Oy)
     div = frames if averaged == "images" else 1
     prob, jx, jy = _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
     kk = 2 * k + 1
@@ -205,7 +254,7 @@ def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, a
     var_b = np.maximum((px_o * bias[:, :, None, :] ** 2).sum(axis=3) - mean_b**2, 0.0)
     mean_n = (prob * noise).sum(axis=(3, 4))
     return (np.mean(mean_b**2, axis=(1, 2)), np.max(np.abs(mean_b), axis=(1, 2)), np.mean(mean_n, axis=(1, 2)),
-            np.mean(var_b, axis=(1, 2)))
+            None, np.mean(var_b, axis=(1, 2)))
 
 
 def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
