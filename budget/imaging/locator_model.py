@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from budget.imaging import optics, pixel_model, spot
 from budget.rig.description import RigDescription
 
-__all__ = ["LocatorModel", "locator_model", "spot_sigma_px", "peak_electrons", "streak_px"]
+__all__ = ["LocatorModel", "edge_blur_px", "locator_model", "spot_sigma_px", "peak_electrons", "streak_px"]
 
 
 def spot_sigma_px(rig: RigDescription) -> float:
@@ -84,7 +84,7 @@ _ARCSINE_ABOVE = 0.5 * (1.0 / math.sqrt(2.0) + 1.0 / math.sqrt(3.0))
 def _terms(rig: RigDescription, streak_px: float, window_px: int | None = None) -> pixel_model.LocatorTerms:
     cam, t, loc = rig.camera, rig.target, rig.locator
     disk = _disk_px(rig)
-    sigma = _blur_px(rig) if t.shape == "disk" else spot_sigma_px(rig)
+    sigma = edge_blur_px(rig) if t.shape == "disk" else spot_sigma_px(rig)
     return pixel_model.locator_terms(
         loc.method, sigma_px=sigma, signal_e=t.signal_e, background_e=t.background_e,
         read_noise_e=cam.read_noise_e, gain_e_per_adu=cam.gain_e_per_adu, bit_depth=cam.bit_depth,
@@ -177,7 +177,8 @@ def _disk_px(rig: RigDescription) -> float:
 
 def _wide_window(rig: RigDescription, s: float, streak: float) -> int:
     """A window that holds the whole target from any pixel of its top (odd)."""
-    half = int(math.ceil(6.0 * (_blur_px(rig) if rig.target.shape == "disk" else s) + _disk_px(rig) + streak)) + 1
+    blur = edge_blur_px(rig) if rig.target.shape == "disk" else s
+    half = int(math.ceil(6.0 * blur + _disk_px(rig) + streak)) + 1
     return 2 * half + 1
 
 
@@ -197,7 +198,7 @@ def peak_electrons(rig: RigDescription) -> float:
     return t.signal_e * frac + t.background_e
 
 
-def _blur_px(rig: RigDescription) -> float:
+def edge_blur_px(rig: RigDescription) -> float:
     """The Gaussian blur of a disk target's edge: ``[target] sigma_px`` or the diffraction spot, px."""
     t = rig.target
     if t.sigma_px is not None:
