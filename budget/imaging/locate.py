@@ -120,10 +120,9 @@ def centre_of_mass(images: ArrayLike, *, window_px: int | None = None, backgroun
     if recentre and window_px is not None:
         rows = np.rint(y + y_off).astype(int)
         cols = np.rint(x + x_off).astype(int)
-        again = centre_of_mass(window_at(stack, window_px, rows, cols, where), background=background,
-                               threshold=threshold)
-        half = (int(window_px) - 1) // 2
-        x, y, x_off, y_off = np.atleast_1d(again[0]), np.atleast_1d(again[1]), cols - half, rows - half
+        sub2, x_off, y_off = window_at(stack, window_px, rows, cols, where)
+        again = centre_of_mass(sub2, background=background, threshold=threshold)
+        x, y = np.atleast_1d(again[0]), np.atleast_1d(again[1])
     return output_xy(x + x_off, y + y_off, single)
 
 
