@@ -84,9 +84,10 @@ def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sig
     """
     c, p = sigma.size, phx.size
     if shape != "disk":
-        grid = np.broadcast_to(phx, (c, p))
-        px = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=streak[:, None])
-        py = profile_1d(j, grid, shape=shape, sigma=sigma[:, None], disk=disk[:, None], streak=np.zeros((c, 1)))
+        px = profile_1d(j, np.broadcast_to(phx, (c, p)), shape=shape, sigma=sigma[:, None], disk=disk[:, None],
+                        streak=streak[:, None])
+        py = profile_1d(j, np.broadcast_to(phy, (c, phy.size)), shape=shape, sigma=sigma[:, None],
+                        disk=disk[:, None], streak=np.zeros((c, 1)))
         return py[:, None, :, :, None] * px[:, :, None, None, :]
     a = 0.5 * disk
     q = int(np.clip(np.ceil(8.0 * np.max(a / sigma)), 48, 600))
@@ -118,10 +119,12 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     See the module notes: the exact sums over the ADC thresholds where the noise is below
     ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
     """
-    mu_e, read_e, gain, top = np.broadcast_arrays(mu_e, read_e, gain, top)
+    shape = np.broadcast(mu_e, read_e, gain, top).shape
+    mu_e, read_e, gain, top = (np.atleast_1d(np.asarray(a, dtype=float)) for a in
+                               np.broadcast_arrays(mu_e, read_e, gain, top))
     x = mu_e / gain
     s = np.sqrt(mu_e + read_e**2) / gain
-    mean = np.minimum(x, top).astype(float)
+    mean = np.minimum(x, top)
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
     # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain
@@ -142,4 +145,4 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
             m2 += (2.0 * k - 1.0) * p
         mean[group] = m1
         var[group] = np.maximum(m2 - m1**2, 0.0)
-    return mean, var, exact
+    return mean.reshape(shape), var.reshape(shape), exact.reshape(shape)
