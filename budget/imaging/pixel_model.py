@@ -157,13 +157,12 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
             # the targets are symmetric: the bias is odd in δx and even in δy, so the phases in (0, ½)²
             # give the same means as the whole pixel, at a quarter of the work
             sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
-            fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0])
-    if method == "fit":
-        sa2 = sig**2 + 1.0 / 12.0 + streak**2 / 12.0
-        # the background variance per pixel: what the ADC leaves of the dark pixels' noise
-        dark = adu_moments(bg, rd, g, top)[1] * g**2
-        noise = sa2 / sgn * (16.0 / 9.0 + 8.0 * np.pi * sa2 * dark / sgn)
-        fixed, peak = np.zeros(c), np.zeros(c)
+            fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0], method == "fit")
+    if method == "fit" and lin.size:  # Mortensen et al. 2010 for a linear camera
+        sa2 = sig[lin] ** 2 + 1.0 / 12.0 + streak[lin] ** 2 / 12.0
+        b2 = bg[lin] + rd[lin] ** 2 + g[lin] ** 2 / 12.0
+        noise[lin] = sa2 / sgn[lin] * (16.0 / 9.0 + 8.0 * np.pi * sa2 * b2 / sgn[lin])
+        fixed[lin], peak[lin], wander[lin] = 0.0, 0.0, 0.0
     # to first order the centre of mass of the mean image is the mean of the centres of mass; the
     # window's wandering with the brightest pixel is per frame (positions) or per mean image (images)
     if averaged == "images":
@@ -257,8 +256,14 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
             None, np.mean(var_b, axis=(1, 2)))
 
 
-def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph):
-    """Rounding modelled exactly: every pixel of the window at every phase in x and y."""
+def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, fit=False):
+    """Rounding modelled exactly: every pixel of the window at every phase in x and y.
+
+    For a least-squares fit (``fit``), to first order x̂ − x₀ = Σ d·r / Σ d² with d = ∂μ/∂x₀ (ADU per
+    px; x₀ is orthogonal to the amplitude, width and background of a symmetric target) and r the
+    pixel's deviation from the model: the rounding's mean deviation (fixed) and its variance
+    (Σ d²·var / (Σ d²)², which for a linear camera is Mortensen et al. 2010's 16/9 photon factor) [derived].
+    """
     half = int(win.max()) // 2
     j = np.arange(-half, half + 1, dtype=float)
     inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
@@ -274,6 +279,14 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     bias = xbar - ph[None, :, None]
     dev2 = (j[None, None, None, :] - xbar[..., None]) ** 2
     noise = (v.sum(axis=3) * dev2).sum(axis=3) / total**2
+    if fit:
+        h = 1e-3
+        d = (image_2d(j, ph + h, ph, shape=shape, sigma=sig, disk=disk, streak=streak)
+             - image_2d(j, ph - h, ph, shape=shape, sigma=sig, disk=disk, streak=streak)) * (sgn / g)[e5] / (2 * h)
+        d = np.where(mask, d, 0.0)
+        dd = (d * d).sum(axis=(3, 4))
+        bias = (d * (mean - mu / g[e5])).sum(axis=(3, 4)) / dd
+        noise = (d * d * v).sum(axis=(3, 4)) / dd**2
     return np.mean(bias**2, axis=(1, 2)), np.max(np.abs(bias), axis=(1, 2)), np.mean(noise, axis=(1, 2))
 
 

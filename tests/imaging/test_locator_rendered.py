@@ -99,6 +99,15 @@ def test_fit_of_a_spot():
     _check(_rig(method="fit", sigma=1.0, window=9, signal=5000.0), 500, 7)
 
 
+@pytest.mark.parametrize("frames", [1, 16])
+def test_fit_with_a_low_bit_depth_adc(frames):
+    # 8 bits, 2 e read noise, no background: the fit's first-order error Σd·r/Σd² with the rounding's
+    # exact mean and variance per pixel [derived]; the dark pixels add nothing.
+    rig = _rig(method="fit", bits=8, full_well=10000.0, read=2.0, background=0.0, signal=8000.0, window=9,
+               frames=frames)
+    _check(rig, 600 if frames == 1 else 300, 12 + frames)
+
+
 def test_disk_in_a_centred_window_has_no_truncation():
     # A 6 px disk (edge blur 0.5 px) in an 11 px window: nothing is clipped, no "window" note, and the
     # phase-fixed error is small (the disk's locking, not a Gaussian's truncation of equal spread).
