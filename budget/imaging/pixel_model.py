@@ -55,7 +55,7 @@ __all__ = ["LocatorTerms", "locator_terms", "PHASES"]
 PHASES = 8
 """Sub-pixel phases per axis (midpoint rule over one pixel)."""
 
-_INT_HALF = 3  # the brightest pixel is looked for within ±3 px of the nearest pixel
+_INT_HALF = 3  # the brightest pixel is looked for within ±3 px of the nearest pixel, or a flat top's half-width
 _V_NODES = 96
 
 
@@ -158,6 +158,9 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
             # give the same means as the whole pixel, at a quarter of the work
             sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
             fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0], method == "fit")
+        if method != "fit" and window_at == "brightest":  # the window's wandering, from the linear sums
+            sub = [a[ex] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
+            wander[ex] = _window_linear(*sub, window_at)[3]
     if method == "fit" and lin.size:  # Mortensen et al. 2010 for a linear camera
         sa2 = sig[lin] ** 2 + 1.0 / 12.0 + streak[lin] ** 2 / 12.0
         b2 = bg[lin] + rd[lin] ** 2 + g[lin] ** 2 / 12.0
@@ -220,7 +223,7 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
     can take (offsets ox, oy from the nearest pixel) or the nearest pixel alone."""
     c, p = sig.size, ph.size
     half = int(win.max()) // 2
-    k = _INT_HALF if wanders else 0
+    k = _reach(disk, streak) if wanders else 0
     j = np.arange(-half - k, half + k + 1, dtype=float)
     o = np.arange(-k, k + 1, dtype=float)
     inside = (np.abs(j[None, None, :] - o[None, :, None]) <= (win // 2)[:, None, None])[:, None]  # (C, 1, O, J)
@@ -290,10 +293,19 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     return np.mean(bias**2, axis=(1, 2)), np.max(np.abs(bias), axis=(1, 2)), np.mean(noise, axis=(1, 2))
 
 
+def _reach(disk, streak) -> int:
+    """How far (px) from the nearest pixel the brightest one is looked for: over a flat top, its half-width."""
+    return int(min(_REACH_MAX, max(_INT_HALF, math.ceil(float(np.max(0.5 * disk + 0.5 * streak))) + 1)))
+
+
+_REACH_MAX = 12
+
+
 def _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, var_div, ph):
     """P(the brightest pixel is at offset (jy, jx) from the nearest pixel), (C, Px, Py, K·K), and the offsets."""
     c, p = sig.size, ph.size
-    j = np.arange(-_INT_HALF, _INT_HALF + 1, dtype=float)
+    r = _reach(disk, streak)
+    j = np.arange(-r, r + 1, dtype=float)
     e5 = (slice(None), None, None, None, None)
     mu = sgn[e5] * image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) + bg[e5]
     mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])

@@ -136,7 +136,8 @@ def verify_locator(rig: RigDescription, *, renders: int, rng: np.random.Generato
     img = render_target(shape=(size, size), centre_xy=np.repeat(centres, frames, axis=0),
                         kind="disk" if disk else "gaussian", sigma_px=s_rend, diameter_px=d_px if disk else None,
                         signal_e=t.signal_e, background_e=t.background_e, read_noise_e=cam.read_noise_e,
-                        full_well_e=cam.full_well_e, bit_depth=cam.bit_depth, rng=rng, streak_px=streak)
+                        full_well_e=cam.full_well_e, bit_depth=cam.bit_depth, rng=rng, streak_px=streak,
+                        substeps=int(min(32, max(4, math.ceil(4.0 * streak)))))  # sub-exposures ≤ ¼ px apart
     bg_adu = t.background_e / img.gain_e_per_adu
     images = img.images.reshape(renders, frames, size, size)
     noise_emp = noise_se = math.nan
