@@ -129,6 +129,8 @@ def build_parser() -> argparse.ArgumentParser:
                      help="coverage probability (default: the [goal] p, else 0.95)")
     run.add_argument("--json", action="store_true", help="write only JSON to stdout")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
+    run.add_argument("--detail", action="store_true",
+                     help="print each output's budget (components, sensitivities, source notes) after the summary")
     _add_output_options(run)
 
     chk = sub.add_parser("check", help="validate a rig file and list its input quantities")

@@ -42,15 +42,6 @@ def summary_rows(result) -> list[dict]:
     return rows
 
 
-def effective_sensitivity(c) -> float | None:
-    """c_i as given, else the contribution over u(x) (None where the component has no single u(x))."""
-    if c.sensitivity is not None:
-        return c.sensitivity
-    if c.u_input:
-        return c.contribution / c.u_input
-    return None
-
-
 def summary_frame(result):
     """The summary as a DataFrame, indexed by output name."""
     import pandas as pd
@@ -68,7 +59,7 @@ def table_frame(result):
             rows.append(dict(
                 output=ob.name, component=c.name, type=c.evaluation, distribution=c.distribution,
                 u_input=c.u_input, input_unit=c.unit, sensitivity=c.sensitivity,
-                effective_sensitivity=effective_sensitivity(c), contribution=c.contribution, percent=c.percent,
+                effective_sensitivity=c.effective_sensitivity, contribution=c.contribution, percent=c.percent,
                 dof=c.dof, mc_alone=c.mc_u, unit=ob.unit, sources="; ".join(c.sources),
             ))
     return pd.DataFrame(rows, columns=list(TABLE_FIELDS))

@@ -45,6 +45,13 @@ class ComponentLine:
     inputs: tuple[str, ...]
     description: str = ""
 
+    @property
+    def effective_sensitivity(self) -> float | None:
+        """c_i where the component is one input quantity, else contribution / u(x) (None without one u(x))."""
+        if self.sensitivity is not None:
+            return self.sensitivity
+        return self.contribution / self.u_input if self.u_input else None
+
 
 @dataclass(frozen=True)
 class ReferenceCheck:

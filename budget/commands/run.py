@@ -72,9 +72,9 @@ def execute(args: argparse.Namespace) -> int:
 
         text = run_to_json(result)
     else:
-        from budget.report.console import render_run
+        from budget.report.console import render_run, terminal_width
 
-        text = render_run(result)
+        text = render_run(result, width=terminal_width(), detail=getattr(args, "detail", False))
     written = []
     if wanted:  # every file or none, before anything is printed
         from budget.report.files import write_reports
