@@ -11,7 +11,8 @@ from rich.table import Table
 
 from budget.results import OutputBudget, RunResult
 
-__all__ = ["render_run", "budget_table", "summary_table", "fmt_near", "terminal_width", "fmt", "fmt_dof", "reference_line", "data_table"]
+__all__ = ["render_run", "budget_table", "summary_table", "fmt_near", "terminal_width", "fmt", "fmt_dof",
+           "reference_line", "data_table"]
 
 
 def fmt(x: float | int | None, digits: int = 3) -> str:
