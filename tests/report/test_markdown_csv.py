@@ -152,3 +152,26 @@ def test_csv_rows_are_the_engine_numbers_unrounded(request, name):
                 assert _num(r[key]) == value, (ob.name, c.name, key)  # exactly: repr round-trips
             assert int(r["n_inputs"]) == len(c.inputs) == len(r["inputs"].split())
             assert r["result_method"] == ob.method
+
+
+def test_csv_rows_carry_the_result_method_mc_interval_and_statement_numbers(sweep):
+    """The CSV said the result is the Monte Carlo one but carried only the linear U (issue 12): each row now
+    carries the result's interval, the Monte Carlo intervals and the numbers of the rounded statement."""
+    import csv as _csv
+    import io as _io
+
+    from budget.report.csvout import render_csv
+
+    rows = list(_csv.DictReader(_io.StringIO(render_csv(sweep))))
+    by_output = {ob.name: ob for ob in sweep.outputs}
+    for row in rows:
+        ob = by_output[row["output"]]
+        mc = ob.monte_carlo
+        assert (float(row["mc_low"]), float(row["mc_high"])) == mc.interval
+        assert (float(row["mc_shortest_low"]), float(row["mc_shortest_high"])) == mc.shortest
+        assert (float(row["result_low"]), float(row["result_high"])) == ob.result_interval
+        assert row["result_method"] == ob.method and row["statement"] == ob.result_statement
+        stated = [row[f"stated_{k}"] for k in ("estimate", "u", "U", "low", "high") if row[f"stated_{k}"]]
+        assert stated and all(v in row["statement"] for v in stated)
+        if ob.method != "linear":
+            assert (row["result_low"], row["result_high"]) == (row["mc_low"], row["mc_high"])
