@@ -28,7 +28,7 @@ ALLOWED = {
     "rig": {"budget", "errors", "propagation", "fit", "imaging", "results"},
     "choice": {"errors", "propagation", "imaging", "rig", "inputs.choose_file"},
     "advice": {"errors", "propagation", "fit", "imaging", "rig", "choice", "results", "inputs"},
-    "report": {"budget", "errors", "results", "propagation", "choice", "advice"},
+    "report": {"budget", "errors", "results", "dataframes", "propagation", "choice", "advice"},
     "reference_cases": {"budget", "errors", "propagation", "fit", "resources"},
     "commands": {"*"},
     "api": {"*"},
