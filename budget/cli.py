@@ -209,6 +209,7 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--xlsx", type=Path, help="write the budget workbook")
     p.add_argument("--md", type=Path, help="write the Markdown tables")
     p.add_argument("--csv", type=Path, help="write the budget rows as CSV")
+    p.add_argument("--html", type=Path, help="write the HTML report to print and sign (one self-contained file)")
     p.add_argument("--plots", type=Path, help="write PNG plots into this folder")
     p.add_argument("--force", action="store_true", help="replace existing output files")
 
