@@ -98,3 +98,22 @@ def test_prints_in_a_browser_with_each_budget_on_one_page(gauge, gauge_html, tmp
                 assert stated[key] in everything, (ob.name, key, stated[key])
     assert gauge.input_sha256 in everything.replace("\n", "")
     assert "prepared by" in everything and "checked by" in everything
+
+
+def test_run_writes_the_html_report_with_the_users_umask(tmp_path, capsys):
+    import os
+
+    from budget.cli import main
+    from tests.paths import TEMPLATES
+
+    out = tmp_path / "report.html"
+    old = os.umask(0o027)
+    try:
+        rc = main(["run", str(TEMPLATES / "gauge_static.toml"), "--quiet", "--seed", "1", "--trials", "2000",
+                   "--html", str(out)])
+    finally:
+        os.umask(old)
+    assert rc == 0 and f"wrote {out}" in capsys.readouterr().out
+    assert out.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    assert out.stat().st_mode & 0o777 == 0o640
+    assert main(["run", str(TEMPLATES / "gauge_static.toml"), "--quiet", "--html", str(out)]) == 2  # never replaced
