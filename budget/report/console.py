@@ -209,6 +209,8 @@ def render_run(result: RunResult, width: int = 120, detail: bool = False) -> str
     _data_section(con, result)
     con.print()
     con.print(summary_table(result))
+    con.print("The result rests on the linear method (JCGM 100) where JCGM 101 clause 8 validates it, else on Monte "
+              "Carlo (JCGM 101) with its probabilistically symmetric coverage interval.")
     if not detail:
         for ob in result.outputs:
             for w in ob.warnings:
