@@ -155,16 +155,17 @@ def reference_line(ob: OutputBudget) -> str | None:
             f"(U = {fmt(r.measured_U_deg)} °), E_n = {r.E_n:+.3f}: {verdict} (ISO 13528)")
 
 
-def data_table(result: RunResult) -> Table | None:
-    """The measured data per located point (image coordinates, px)."""
+def data_table(result: RunResult, roomy: bool = True) -> Table | None:
+    """The measured data per located point (image coordinates, px); ``roomy`` as in :func:`budget_table`."""
     d = result.data
     if d is None:
         return None
     t = Table(title="measured data (image coordinates: x right, y down, px from the centre of the top-left pixel)",
-              title_justify="left")
+              title_justify="left", box=box.SIMPLE_HEAD, show_edge=False, padding=(0, 1) if roomy else (0, 0),
+              pad_edge=False)
     for col in ("point", "n", "n_eff", "mean x", "mean y", "s_x", "s_y", "r_xy", "drift", "lag-1 r", "s²/σ²"):
         t.add_column(col, justify="right", no_wrap=True)
-    t.add_column("frames", overflow="fold", min_width=20)
+    t.add_column("frames", overflow="fold", min_width=16)
     for m in d.points:
         frames = f"{m.images[0]} … {m.images[-1]}" if m.images and m.images[0] else "—"
         t.add_row(m.label, str(m.n), fmt(m.n_eff), f"{m.mean_x_px:.4f}", f"{m.mean_y_px:.4f}", fmt(m.sd_x_px),
@@ -173,7 +174,7 @@ def data_table(result: RunResult) -> Table | None:
     return t
 
 
-def _data_section(con: Console, result: RunResult) -> None:
+def _data_section(con: Console, result: RunResult, roomy: bool = True) -> None:
     d = result.data
     if d is None:
         return
@@ -187,7 +188,7 @@ def _data_section(con: Console, result: RunResult) -> None:
         missing = sum(1 for f in images if f.note)
         con.print(f"  {len(images)} image files named in the data file, each with its SHA-256 (listed in the JSON, "
                   "Markdown and workbook)" + (f"; {missing} not found, their recorded SHA-256 kept" if missing else ""))
-    con.print(data_table(result))
+    con.print(data_table(result, roomy))
     con.print(f"  {d.scatter_check}")
 
 
@@ -206,7 +207,7 @@ def render_run(result: RunResult, width: int = 120, detail: bool = False) -> str
     con.print(f"thetabudget {result.tool_version} — {result.title}")
     con.print(f"input {result.input_path} (sha256 {result.input_sha256[:16]}…), seed {result.seed} "
               f"(--seed {result.seed} repeats this run), p = {result.p:g}")
-    _data_section(con, result)
+    _data_section(con, result, roomy=width >= 130)
     con.print()
     con.print(summary_table(result))
     con.print("The result rests on the linear method (JCGM 100) where JCGM 101 clause 8 validates it, else on Monte "

@@ -81,3 +81,21 @@ def test_zero_to_rounding_prints_as_zero_and_seed_is_short(sweep):
     assert fmt_near(29.99964, 0.016) == "29.9996"
     text = render_run(sweep, width=160, detail=True)
     assert "e-14" not in text and "e-15" not in text
+
+
+@pytest.mark.parametrize("width", [100, 160])
+def test_measured_data_table_fits(gauge, width):
+    """The measured-data table (evaluation mode) fits too; its file names are wrapped whole."""
+    from budget.results import DataFile, MeasuredDataSummary, MeasuredPoint
+
+    pts = tuple(MeasuredPoint(label=lab, n=8, n_eff=7.3, dof=7.0, mean_x_px=1023.4567, mean_y_px=-512.1234,
+                              sd_x_px=0.0123, sd_y_px=0.0145, r_xy=-0.12, lag1=0.05, autocorrelated=True,
+                              drift_px=0.0012, drift_p=0.4, drifting=True, scatter_ratio=1.07,
+                              images=("shots/P1_000.png", "shots/P1_007.png")) for lab in ("Z", "P1", "P2"))
+    data = MeasuredDataSummary(files=(DataFile("shots/data.csv", "ab" * 32, "data"),), points=pts,
+                               scatter_check="scatter as expected", scatter_ratio=1.0, scatter_dof=10.0,
+                               scatter_interval=(0.5, 1.5), angle_tolerance_deg=1.0)
+    text = render_run(dataclasses.replace(gauge, data=data), width=width, detail=True)
+    assert max(len(line) for line in text.splitlines()) <= width
+    words = text.split()
+    assert "shots/P1_000.png" in words and "shots/P1_007.png" in words and "1023.4567" in words
