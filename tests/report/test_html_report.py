@@ -117,3 +117,16 @@ def test_run_writes_the_html_report_with_the_users_umask(tmp_path, capsys):
     assert out.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
     assert out.stat().st_mode & 0o777 == 0o640
     assert main(["run", str(TEMPLATES / "gauge_static.toml"), "--quiet", "--html", str(out)]) == 2  # never replaced
+
+
+def test_measured_data_files_and_their_sha256_are_listed(gauge):
+    from budget.results import DataFile, MeasuredDataSummary
+
+    files = (DataFile("shots/data.csv", "ab" * 32, "data"), DataFile("shots/P1_000.png", "cd" * 32, "image"))
+    data = MeasuredDataSummary(files=files, points=(), scatter_check="the frames scatter as the model says",
+                               scatter_ratio=1.0, scatter_dof=10.0, scatter_interval=(0.5, 1.5),
+                               angle_tolerance_deg=1.0)
+    html = render_html(dataclasses.replace(gauge, data=data, mode="evaluation"), with_plots=False)
+    assert "Measured data and its provenance" in html and "the frames scatter as the model says" in html
+    for f in files:
+        assert f.path in html and f.sha256 in html
