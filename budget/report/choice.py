@@ -177,7 +177,8 @@ def write_choice_xlsx(ch: Choice, path: Path, provenance: list[tuple[str, str]] 
     """The candidates, best first, and the provenance, saved to ``path`` (the caller's temporary file:
     :class:`budget.report.safe_write.FileSet`, so the file follows the user's umask).
 
-    Sheets: 'choice' (the title, then one row per candidate: header row, frozen panes, fitted widths) and 'Provenance'
+    Sheets: 'choice' (the title, then one row per candidate: header row (printed at full size over pages
+    across, rank, camera and lens repeated on each), frozen panes, fitted widths) and 'Provenance'
     (tool, input files and their SHA-256, date, the assumptions the search made). Text from the input is
     inert (:func:`budget.report.workbook_cells.text`); both sheets print as the budget workbook does
     (:mod:`budget.report.workbook_print`); the file asks to be recalculated on opening.
@@ -219,7 +220,7 @@ def write_choice_xlsx(ch: Choice, path: Path, provenance: list[tuple[str, str]] 
     set_widths(prov, {1: 30, 2: 90})
     sha = next((v for k, v in (provenance or []) if k.endswith("SHA-256")), "")
     for sheet, rows_ in ((ws, "1:2"), (prov, "1:1")):
-        make_printable(sheet, sha256=sha, title_rows=rows_, tool=f"thetabudget {__version__}")
+        make_printable(sheet, sha256=sha, title_rows=rows_, tool=f"thetabudget {__version__}", title_cols="A:C")
         fit_row_heights(sheet)
     recalc_on_open(wb)
     wb.properties.title = clean_text(f"Camera choice: {ch.spec.title}", 255)

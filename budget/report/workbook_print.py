@@ -96,14 +96,24 @@ def _narrow(ws) -> None:
                     cell.alignment = Alignment(horizontal=a.horizontal, vertical="top", wrap_text=True)
 
 
-def make_printable(ws, *, sha256: str, title_rows: str | None, tool: str) -> None:
-    """Page setup of one sheet (call before :func:`budget.report.workbook_cells.fit_row_heights`)."""
+def make_printable(ws, *, sha256: str, title_rows: str | None, tool: str, title_cols: str | None = None) -> None:
+    """Page setup of one sheet (call before :func:`budget.report.workbook_cells.fit_row_heights`).
+
+    A sheet that still cannot fit one page wide at 8 pt (a table of many number columns) prints at full
+    size over several pages across instead, with ``title_cols`` (e.g. ``"A:C"``) repeated on each.
+    """
     _narrow(ws)
     ws.page_setup.orientation = "landscape"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
+    if print_scale(ws) * BASE_PT >= MIN_PRINT_PT or not title_cols:
+        ws.sheet_properties.pageSetUpPr.fitToPage = True
+        ws.page_setup.fitToWidth = 1
+        ws.page_setup.fitToHeight = 0
+    else:
+        ws.sheet_properties.pageSetUpPr.fitToPage = False
+        ws.page_setup.scale = 100
+        ws.page_setup.pageOrder = "overThenDown"
+        ws.print_title_cols = title_cols
     ws.page_margins = PageMargins(left=MARGIN_IN, right=MARGIN_IN, top=0.6, bottom=0.6, header=0.25, footer=0.25)
     if title_rows:
         ws.print_title_rows = title_rows
