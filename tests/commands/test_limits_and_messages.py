@@ -87,7 +87,8 @@ def test_render_refuses_a_frame_too_large_before_drawing(tmp_path):
 
 def test_verify_locator_limits_renders_by_image_size(tmp_path, monkeypatch):
     monkeypatch.setattr(verify, "MAX_RENDERED_PIXELS", 100_000)
-    _refused(["verify-locator", GAUGE, "--renders", "2000", "--seed", "1"], tmp_path, "'renders'", "renders × frames × pixels")
+    _refused(["verify-locator", GAUGE, "--renders", "2000", "--seed", "1"], tmp_path, "'renders'",
+             "renders × frames × pixels")
 
 
 def test_choose_limits_candidates_and_evaluations(tmp_path, monkeypatch):
