@@ -50,10 +50,10 @@ def _run(case_id: str, trials: int | None, seed: int):
 
 
 @pytest.mark.parametrize("case_id", sorted(CASES))
-def test_published_values(case_id):
+def test_reference_values(case_id):
     """Every expected value of the case file, with the tolerance stated there."""
     rows = run_case(CASES[case_id], rng=np.random.default_rng(101))
-    bad = [f"{r.quantity}: published {r.published}, computed {r.computed}, tol {r.tolerance}"
+    bad = [f"{r.quantity} ({r.provenance}): reference {r.reference}, computed {r.computed}, tol {r.tolerance}"
            for r in rows if not r.passed]
     assert not bad, "\n".join(bad)
 
