@@ -72,7 +72,6 @@ def test_g4_1_welch_satterthwaite_derived():
     u_c = math.sqrt(sum(r * r for r in rel))
     nu = u_c**4 / sum(r**4 / n for r, n in zip(rel, [9, 4, 14], strict=True))
     assert lin.u == pytest.approx(u_c, rel=1e-8)
-    assert nu == pytest.approx(18.9987, abs=1e-4)
     assert lin.nu_eff in (math.floor(nu), pytest.approx(nu, rel=1e-8))
     assert lin.k == pytest.approx(stats.t.ppf(0.975, lin.nu_eff), rel=1e-10)
 
