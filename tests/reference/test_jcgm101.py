@@ -174,17 +174,20 @@ def test_adaptive_procedure_9_2_2():
     """JCGM 101 7.9.4 on 9.2.2 (n_dig = 2, δ = 0.05).
 
     Sequences of M = max(J, 10⁴) = 10⁴ trials (J = 100/(1 − p) = 2000); at least
-    two sequences; at the stop 2·s ≤ δ for y, u, y_low, y_high, so each result is
-    within δ of the exact value with high probability (exact: 0, 2, ±3.9199).
+    two sequences; at the stop 2·s ≤ δ for y, u, y_low, y_high: s, the standard
+    deviation of the average over the sequences, is at most δ/2, so four of those
+    standard errors are 2δ = 0.1 (exact: 0, 2, ±3.9199). A tolerance of δ, two
+    standard errors, failed for 1 seed in 6.
     """
     case = CASES["jcgm101-9.2.2"]
     mc = monte_carlo(MODELS[case.model], case_inputs(case), p=case.p, trials=None,
                      rng=np.random.default_rng(7), n_dig=2)
     assert mc.trials % 10_000 == 0 and mc.trials >= 20_000
-    assert mc.estimate == pytest.approx(0.0, abs=0.05)
-    assert mc.u == pytest.approx(2.0, abs=0.05)
-    assert mc.interval[0] == pytest.approx(-Q975_9_2_2, abs=0.05)
-    assert mc.interval[1] == pytest.approx(Q975_9_2_2, abs=0.05)
+    tol = 4 * 0.05 / 2
+    assert mc.estimate == pytest.approx(0.0, abs=tol)
+    assert mc.u == pytest.approx(2.0, abs=tol)
+    assert mc.interval[0] == pytest.approx(-Q975_9_2_2, abs=tol)
+    assert mc.interval[1] == pytest.approx(Q975_9_2_2, abs=tol)
 
 
 def test_adaptive_procedure_stops_at_first_stable_sequence():
