@@ -1,7 +1,8 @@
 """JCGM 100:2008 (GUM): Table G.2, the G.4.1 example and the H.1 end-gauge calibration.
 
-Published figures are those of ``references/jcgm100_*.toml`` (recalled, not read:
-[memory]); exact consequences of the stated inputs are marked [derived].
+The reference figures are those of ``references/jcgm100_*.toml``, recalled from memory
+and not verified against the text (mark "recalled"); exact consequences of the stated
+inputs are marked "derived" and recomputed by tools/reference_tolerances.py.
 Independent references: ``scipy.stats.t`` for Table G.2 and the ``uncertainties``
 package for the first-order propagation of H.1.
 """
@@ -34,7 +35,7 @@ def test_reference_values(case_id):
     assert not bad, "\n".join(bad)
 
 
-# JCGM 100 Table G.2 rows ν = 1 and ν = ∞ and three single entries [memory]; digits quoted
+# JCGM 100 Table G.2 rows ν = 1 and ν = ∞ and three single entries [recalled]; digits quoted
 # (tolerance 0.005), scipy.stats.t.ppf as the reference. The columns headed 68.27, 95.45 and
 # 99.73 are the fractions 2Φ(k) − 1 of a normal distribution within ±k σ, k = 1, 2, 3 (Table G.2
 # footnote, value from memory): with p = 0.9973 rounded, t_p(1) would be 235.78, not 235.80.

@@ -1,8 +1,9 @@
 """JCGM 101:2008 (GUM Supplement 1) clause 9 examples and the clause 8 verdicts.
 
-Published figures are those of the case files in ``references/jcgm101_*.toml``;
-they were recalled, not read ([memory]), except where a value is derived
-exactly from the stated inputs ([derived]). Monte Carlo tolerances come from
+The reference figures are those of the case files in ``references/jcgm101_*.toml``;
+they were recalled from memory, not verified against the text (mark "recalled"),
+except where a value is derived exactly from the stated inputs ("derived",
+recomputed by tools/reference_tolerances.py). Monte Carlo tolerances come from
 the Monte Carlo standard error at the number of trials used here:
 
 * estimate: u/√M; standard uncertainty: u·√(1/(2(M−1))) (normal theory);
@@ -85,7 +86,7 @@ def test_9_2_3_verdict_depends_on_n_dig():
     u(y) = 2 gives δ = 0.5, 0.05, 0.005 at n_dig = 1, 2, 3 (7.9.2). The GUF
     endpoint 3.9199 and the exact MCM endpoint 3.8794 differ by d = 0.0405, so:
     validated at n_dig = 1 and 2 (0.0405 < 0.05), not validated at n_dig = 3.
-    REFERENCES.md recalls "not validated at n_dig = 2" [memory]; that does not
+    REFERENCES.md recalls "not validated at n_dig = 2" [recalled]; that does not
     follow from δ = 0.05 and the published ±3.92 / ±3.88, so this test asserts
     what the numbers imply. The margin at n_dig = 2 is only 0.0095, hence
     M = 8·10⁶: quantile SE 0.0017, a margin of 5.6 SE.
@@ -105,7 +106,7 @@ def test_9_2_3_verdict_depends_on_n_dig():
 
 
 def test_9_2_4_interval_against_exact_convolution():
-    """[derived] JCGM 101 9.2.4: exact 95 % endpoint 17.016 (published MCM ±17.0 [memory])."""
+    """[derived] JCGM 101 9.2.4: exact 95 % endpoint 17.016 (published MCM ±17.0 [recalled])."""
     _, _, _, lin, mc = _run("jcgm101-9.2.4", 200_000, 4)
     tol = 4 * quantile_se(0.025, 200_000, F_9_2_4)       # 0.086
     assert mc.interval[0] == pytest.approx(-Q975_9_2_4, abs=tol)
