@@ -116,8 +116,10 @@ def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.nd
         # stencil); ∂³f/∂x_j∂x_i² · u_j u_i²: second difference in i at x_j ± h_j.
         dijj = ((g11 - 2.0 * fp1[ii] + g10) - (g01 - 2.0 * fm1[ii] + g00)) / (2.0 * r**3)
         djii = ((g11 - 2.0 * fp1[jj] + g01) - (g10 - 2.0 * fm1[jj] + g00)) / (2.0 * r**3)
-        terms = np.zeros((n, n))
-        terms[ii, jj] = 0.5 * dij**2 + cu[ii] * dijj
-        terms[jj, ii] = 0.5 * dji**2 + cu[jj] * djii
-        total += float(np.sum(terms[~np.eye(n, dtype=bool)]))
+        # The off-diagonal terms in row-major order of the n × n matrix, without forming it:
+        # (i, j), i < j, sits at i(n − 1) + j − 1, and (j, i) at j(n − 1) + i.
+        terms = np.zeros(n * (n - 1))
+        terms[ii * (n - 1) + jj - 1] = 0.5 * dij**2 + cu[ii] * dijj
+        terms[jj * (n - 1) + ii] = 0.5 * dji**2 + cu[jj] * djii
+        total += float(np.sum(terms))
     return total

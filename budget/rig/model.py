@@ -29,10 +29,18 @@ __all__ = ["VirtualRig"]
 
 
 def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
-    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous)."""
+    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous).
+
+    An input held at exactly zero in every trial (a broadcast view of 0.0, as the linear method
+    and the one-component Monte Carlo pass a zero-mean error they do not move) adds nothing and
+    is skipped.
+    """
     for row, key in keys:
         if key in kw:
-            arr[row] += kw[key] * scale if scale != 1.0 else kw[key]
+            a = kw[key]
+            if a.strides == (0,) and a[0] == 0.0:
+                continue
+            arr[row] += a * scale if scale != 1.0 else a
 
 
 class VirtualRig:
