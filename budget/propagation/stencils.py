@@ -30,25 +30,41 @@ def axis_points(x0: np.ndarray, h: np.ndarray) -> np.ndarray:
     return pts
 
 
-def _pair_batches(n: int, per_call: int) -> list[tuple[np.ndarray, np.ndarray]]:
+def _pair_batches(n: int, per_call: int, apart: frozenset[int] = frozenset()
+                  ) -> list[tuple[np.ndarray, np.ndarray]]:
     """The unordered pairs i < j of n inputs in batches of about ``per_call``, tile by tile.
 
     A tile pairs a block of inputs with another block, so a batch moves few inputs and every
-    other input reaches the model as one repeated value.
+    other input reaches the model as one repeated value. The inputs ``apart`` (those a model
+    says make every call costly when they move) form blocks of their own, after the others,
+    so that the other tiles never move them.
     """
     b = max(1, math.isqrt(per_call))
-    blocks = [np.arange(s, min(n, s + b)) for s in range(0, n, b)]
+    rest = [i for i in range(n) if i not in apart]
+    costly = sorted(apart)
+    blocks = [np.array(idx[s:s + b], dtype=int) for idx in (rest, costly) for s in range(0, len(idx), b)]
+    n_rest = -(-len(rest) // b)  # blocks of the other inputs come first
     batches: list[tuple[np.ndarray, np.ndarray]] = []
     cur_i: list[np.ndarray] = []
     cur_j: list[np.ndarray] = []
     count = 0
+    cur_kind = False
     for k, rows in enumerate(blocks):
-        for cols in blocks[k:]:
+        for m, cols in enumerate(blocks[k:]):
+            kind = k + m >= n_rest  # the tile moves a costly input: such tiles share no batch with others
+            if count and kind != cur_kind:
+                batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
+                cur_i, cur_j, count = [], [], 0
+            cur_kind = kind
             ii, jj = np.meshgrid(rows, cols, indexing="ij")
-            keep = ii < jj
-            cur_i.append(ii[keep])
-            cur_j.append(jj[keep])
-            count += int(keep.sum())
+            if m == 0:  # a block with itself: each pair once
+                keep = ii < jj
+                ii, jj = ii[keep], jj[keep]
+            else:  # two blocks: every pair, as (smaller index, larger index)
+                ii, jj = np.minimum(ii, jj).ravel(), np.maximum(ii, jj).ravel()
+            cur_i.append(ii)
+            cur_j.append(jj)
+            count += ii.size
             if count >= per_call:
                 batches.append((np.concatenate(cur_i), np.concatenate(cur_j)))
                 cur_i, cur_j, count = [], [], 0
@@ -63,14 +79,19 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray
 
     Each pair is evaluated once (the stencil of (j, i) is that of (i, j) with its two sign
     axes swapped). An input moved in a batch reaches the model as one contiguous array, every
-    other input as its estimate repeated (a read-only broadcast view).
+    other input as its estimate repeated (a read-only broadcast view). A model may name the
+    inputs whose movement makes a whole call costly (``model.costly_inputs(names)``, e.g. the
+    virtual rig's geometry, which it otherwise forms once for held inputs): they are tiled
+    apart. The pairs come in batch order; every value is that of the same point however batched.
     """
     n = x0.size
     a = np.array([-1.0, -1.0, 1.0, 1.0])
     b = np.array([-1.0, 1.0, -1.0, 1.0])
     per_call = max(250, PAIR_CHUNK_VALUES // (4 * n))
     parts: dict[str, list[np.ndarray]] = {}
-    batches = _pair_batches(n, per_call)
+    costly = getattr(model, "costly_inputs", None)
+    apart = frozenset(names.index(nm) for nm in costly(names)) if costly is not None else frozenset()
+    batches = _pair_batches(n, per_call, apart)
     for i, j in batches:
         m = i.size
         moved = np.union1d(i, j)

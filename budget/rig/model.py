@@ -199,6 +199,12 @@ class VirtualRig:
                 img_x[at], img_y[at] = x, y
         return volts, img_x, img_y
 
+    def costly_inputs(self, names) -> list[str]:
+        """The inputs among ``names`` whose movement makes the whole image vary (every input not known
+        to enter after the image or through one reading's voltage): the linear method's pair stencil
+        tiles them apart (:func:`budget.propagation.stencils.pair_values`)."""
+        return [nm for nm in names if nm not in self.after_image and nm not in self.reading_of]
+
     def _moving_readings(self, kw: dict, t: int) -> list[int] | None:
         """The readings whose source inputs vary across the trials when nothing else that shapes the
         image does; None when something else does (or T = 1: nothing to save).
