@@ -229,7 +229,8 @@ def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.nda
     not shifted by 180° and back.
     """
     d = angle_deg - nominal_deg
-    d -= 360.0 * np.round(d / 360.0)
+    if not np.abs(d).max(initial=0.0) <= 180.0:  # a turn to remove somewhere (else every turn is 0)
+        d -= 360.0 * np.round(d / 360.0)
     return nominal_deg + d
 
 
