@@ -150,14 +150,20 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
         fixed[lin], peak[lin], noise[lin], wander[lin] = _window_linear(*sub, window_at)
     ex = np.flatnonzero(exact)
     if ex.size:
-        span = (p // 2) ** 2 * (2 * (int(win[ex].max()) // 2) + 1) ** 2
-        step = max(1, _CHUNK_VALUES // span)
-        for s0 in range(0, ex.size, step):
-            part = ex[s0:s0 + step]
-            # the targets are symmetric: the bias is odd in δx and even in δy, so the phases in (0, ½)²
-            # give the same means as the whole pixel, at a quarter of the work
-            sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
-            fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0], method == "fit")
+        memo = ex.size >= _MEMO_FROM  # choose's calls over many candidates; a single rig computes afresh
+        todo = _from_memo(ex, (fixed, peak, noise), args, method, frames, averaged, p) if memo else ex
+        # each window size on its own span: no candidate is padded to a wider window
+        for w in np.unique(win[todo]):
+            same = todo[win[todo] == w]
+            step = max(1, _CHUNK_VALUES // ((p // 2) ** 2 * (2 * (int(w) // 2) + 1) ** 2))
+            for s0 in range(0, same.size, step):
+                part = same[s0:s0 + step]
+                # the targets are symmetric: the bias is odd in δx and even in δy, so the phases in (0, ½)²
+                # give the same means as the whole pixel, at a quarter of the work
+                sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
+                fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0], method == "fit")
+                if memo:
+                    _to_memo(part, (fixed, peak, noise), args, method, frames, averaged, p)
         if method != "fit" and window_at == "brightest":  # the window's wandering, from the linear sums
             sub = [a[ex] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
             wander[ex] = _window_linear(*sub, window_at)[3]
@@ -171,6 +177,43 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
     if averaged == "images":
         return LocatorTerms(fixed, peak, noise + wander, noise / frames + wander, exact)
     return LocatorTerms(fixed, peak, noise + wander, (noise + wander) / frames, exact)
+
+
+_EXACT_MEMO: dict[bytes, tuple[float, float, float]] = {}
+"""The exact-rounding window figures of each distinct candidate already computed in this process (``choose``
+asks for the same camera, light and window at its chosen setting and at its shortest distance)."""
+_EXACT_MEMO_MAX = 200_000
+
+
+def _memo_keys(idx, args, method, frames, averaged, p) -> list[bytes]:
+    sig, sgn, bg, rd, g, top, win, shape, disk, streak = args[:10]
+    rows = np.stack([sig[idx], sgn[idx], bg[idx], rd[idx], g[idx], top[idx], win[idx].astype(float), disk[idx],
+                     streak[idx]], axis=1)
+    head = f"{method}|{shape}|{frames}|{averaged}|{p}|".encode()
+    return [head + r.tobytes() for r in rows]
+
+
+def _from_memo(ex, outs, args, method, frames, averaged, p) -> np.ndarray:
+    """Fill the candidates already computed (the same inputs give the same figures); return the others."""
+    if not _EXACT_MEMO:
+        return ex
+    keys = _memo_keys(ex, args, method, frames, averaged, p)
+    left = []
+    for i, key in zip(ex.tolist(), keys, strict=True):
+        hit = _EXACT_MEMO.get(key)
+        if hit is None:
+            left.append(i)
+        else:
+            outs[0][i], outs[1][i], outs[2][i] = hit
+    return np.array(left, dtype=int)
+
+
+def _to_memo(part, outs, args, method, frames, averaged, p) -> None:
+    if len(_EXACT_MEMO) + part.size > _EXACT_MEMO_MAX:
+        _EXACT_MEMO.clear()
+    keys = _memo_keys(part, args, method, frames, averaged, p)
+    for i, key in zip(part.tolist(), keys, strict=True):
+        _EXACT_MEMO[key] = (float(outs[0][i]), float(outs[1][i]), float(outs[2][i]))
 
 
 def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, window_at):

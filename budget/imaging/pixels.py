@@ -18,6 +18,8 @@ __all__ = ["EXACT_BELOW", "adu_moments", "image_2d", "profile_1d"]
 
 EXACT_BELOW = 0.75
 """Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
+_BAND_EDGES = (0.0, 0.15, 0.3, 0.5, EXACT_BELOW)
+"""Noise (counts) from which 1, 2, 3, 4 thresholds each side of the value are summed."""
 
 
 
@@ -122,27 +124,35 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     shape = np.broadcast(mu_e, read_e, gain, top).shape
     mu_e, read_e, gain, top = (np.atleast_1d(np.asarray(a, dtype=float)) for a in
                                np.broadcast_arrays(mu_e, read_e, gain, top))
-    x = mu_e / gain
-    s = np.sqrt(mu_e + read_e**2) / gain
+    x = (mu_e / gain).reshape(-1)
+    s = (np.sqrt(mu_e + read_e**2) / gain).reshape(-1)
+    top = top.reshape(-1)
     mean = np.minimum(x, top)
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
-    # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain
-    for lo_s, hi_s, band in ((0.0, 0.15, 1), (0.15, 0.3, 2), (0.3, 0.5, 3), (0.5, EXACT_BELOW, 4)):
-        group = exact & (s >= lo_s) & (s < hi_s)
-        if not np.any(group):
-            continue
-        xe, se, te = x[group], np.maximum(s[group], 1e-9), top[group]
-        k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
-        below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
-        m1 = below.copy()
-        m2 = below**2
-        for o in range(-band + 1, band + 1):
-            k = k0 + o
-            ok = (k >= 1) & (k <= te)
-            p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
-            m1 += p
-            m2 += (2.0 * k - 1.0) * p
-        mean[group] = m1
-        var[group] = np.maximum(m2 - m1**2, 0.0)
+    # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain;
+    # the exact pixels are gathered once, in order of their band, and each band is a contiguous slice
+    idx = np.flatnonzero(exact)
+    if idx.size:
+        bands = np.searchsorted(np.array(_BAND_EDGES), s[idx], side="right")  # 1 … 4
+        order = np.argsort(bands, kind="stable")
+        idx, bands = idx[order], bands[order]
+        cuts = np.searchsorted(bands, np.arange(1, len(_BAND_EDGES) + 1))
+        for band, a0, a1 in zip(range(1, len(_BAND_EDGES)), cuts[:-1], cuts[1:], strict=True):
+            if a1 <= a0:
+                continue
+            group = idx[a0:a1]
+            xe, se, te = x[group], np.maximum(s[group], 1e-9), top[group]
+            k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
+            below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
+            m1 = below.copy()
+            m2 = below**2
+            for o in range(-band + 1, band + 1):
+                k = k0 + o
+                ok = (k >= 1) & (k <= te)
+                p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
+                m1 += p
+                m2 += (2.0 * k - 1.0) * p
+            mean[group] = m1
+            var[group] = np.maximum(m2 - m1**2, 0.0)
     return mean.reshape(shape), var.reshape(shape), exact.reshape(shape)
