@@ -131,18 +131,15 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
     # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain;
-    # the exact pixels are gathered once, in order of their band, and each band is a contiguous slice
+    # the exact pixels are gathered once, then each band of noise from them
     idx = np.flatnonzero(exact)
     if idx.size:
-        bands = np.searchsorted(np.array(_BAND_EDGES), s[idx], side="right")  # 1 … 4
-        order = np.argsort(bands, kind="stable")
-        idx, bands = idx[order], bands[order]
-        cuts = np.searchsorted(bands, np.arange(1, len(_BAND_EDGES) + 1))
-        for band, a0, a1 in zip(range(1, len(_BAND_EDGES)), cuts[:-1], cuts[1:], strict=True):
-            if a1 <= a0:
+        x_all, s_all, top_all = x[idx], s[idx], top[idx]
+        for band in range(1, len(_BAND_EDGES)):
+            sel = np.flatnonzero((s_all >= _BAND_EDGES[band - 1]) & (s_all < _BAND_EDGES[band]))
+            if not sel.size:
                 continue
-            group = idx[a0:a1]
-            xe, se, te = x[group], np.maximum(s[group], 1e-9), top[group]
+            xe, se, te = x_all[sel], np.maximum(s_all[sel], 1e-9), top_all[sel]
             k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
             below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
             m1 = below.copy()
@@ -153,6 +150,7 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
                 p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
                 m1 += p
                 m2 += (2.0 * k - 1.0) * p
+            group = idx[sel]
             mean[group] = m1
             var[group] = np.maximum(m2 - m1**2, 0.0)
     return mean.reshape(shape), var.reshape(shape), exact.reshape(shape)

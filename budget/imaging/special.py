@@ -112,11 +112,25 @@ def phi_coarse(z: ArrayLike) -> np.ndarray:
     For the probabilities of the ADC's thresholds and of the brightest pixel, where 1e-7 is far below
     what a located position can show; :func:`phi_cdf` is the accurate one.
     """
-    x = np.abs(np.asarray(z, dtype=float)) / math.sqrt(2.0)
-    t = 1.0 / (1.0 + _AS_P * x)
-    poly = t * (_AS[0] + t * (_AS[1] + t * (_AS[2] + t * (_AS[3] + t * _AS[4]))))
-    half_tail = 0.5 * poly * np.exp(-x * x)  # (1 − erf(x))/2
-    return np.where(np.asarray(z) < 0, half_tail, 1.0 - half_tail)
+    z = np.asarray(z, dtype=float)
+    x = np.abs(z.reshape(-1))  # an array even for one value: the steps below work in place
+    x /= math.sqrt(2.0)
+    # in place, in the same order of operations as t·(a1 + t·(a2 + …)) and ½·poly·e^(−x²): the same values,
+    # a third fewer passes over memory
+    t = _AS_P * x
+    t += 1.0
+    np.reciprocal(t, out=t)
+    poly = t * _AS[4]
+    for a in _AS[3::-1]:
+        poly += a
+        poly *= t
+    np.multiply(x, x, out=x)
+    np.negative(x, out=x)
+    np.exp(x, out=x)
+    poly *= 0.5
+    poly *= x  # (1 − erf(|z|/√2))/2
+    poly = poly.reshape(z.shape)
+    return np.where(z < 0, poly, 1.0 - poly)
 
 
 def phi_cdf(z: ArrayLike) -> np.ndarray:
