@@ -121,20 +121,21 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     See the module notes: the exact sums over the ADC thresholds where the noise is below
     ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
     """
+    # per-candidate arrays broadcast against the pixels without being copied to their size
+    mu_e, read_e, gain, top = (np.asarray(a, dtype=float) for a in (mu_e, read_e, gain, top))
     shape = np.broadcast(mu_e, read_e, gain, top).shape
-    mu_e, read_e, gain, top = (np.atleast_1d(np.asarray(a, dtype=float)) for a in
-                               np.broadcast_arrays(mu_e, read_e, gain, top))
-    x = (mu_e / gain).reshape(-1)
-    s = (np.sqrt(mu_e + read_e**2) / gain).reshape(-1)
-    top = top.reshape(-1)
-    mean = np.minimum(x, top)
+    x = np.broadcast_to(mu_e / gain, shape).reshape(-1)
+    s = np.broadcast_to(np.sqrt(mu_e + read_e**2) / gain, shape).reshape(-1)
+    mean = np.minimum(x.reshape(shape), top).reshape(-1)
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
     # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain;
     # the exact pixels are gathered once, then each band of noise from them
     idx = np.flatnonzero(exact)
     if idx.size:
-        x_all, s_all, top_all = x[idx], s[idx], top[idx]
+        # (a flat iterator over the broadcast top is slower than copying it to the pixels' size)
+        top_all = np.broadcast_to(top, shape).reshape(-1)[idx] if top.size > 1 else np.full(idx.size, float(top))
+        x_all, s_all = x[idx], s[idx]
         for band in range(1, len(_BAND_EDGES)):
             sel = np.flatnonzero((s_all >= _BAND_EDGES[band - 1]) & (s_all < _BAND_EDGES[band]))
             if not sel.size:
