@@ -134,7 +134,8 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     idx = np.flatnonzero(exact)
     if idx.size:
         # (a flat iterator over the broadcast top is slower than copying it to the pixels' size)
-        top_all = np.broadcast_to(top, shape).reshape(-1)[idx] if top.size > 1 else np.full(idx.size, float(top))
+        flat_top = top.reshape(-1)
+        top_all = np.broadcast_to(top, shape).reshape(-1)[idx] if top.size > 1 else np.full(idx.size, flat_top[0])
         x_all, s_all = x[idx], s[idx]
         for band in range(1, len(_BAND_EDGES)):
             sel = np.flatnonzero((s_all >= _BAND_EDGES[band - 1]) & (s_all < _BAND_EDGES[band]))

@@ -1,0 +1,69 @@
+"""The exact-rounding locator figures over many candidates equal the same candidates computed one at a time.
+
+``choose`` evaluates thousands of candidates in one call: grouped by window size, in chunks, with the
+figures of a candidate already computed in the process taken from a memo. None of that may change a
+figure: each candidate alone (one rig, no memo) is the reference, to 1e-10 relative or 1e-16 px²
+(floating-point summation order only; a bias of 1e-5 px squared keeps few digits).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from budget.imaging import pixel_model
+from budget.imaging.pixels import adu_moments
+
+
+def _cameras(n: int, seed: int) -> dict:
+    rng = np.random.default_rng(seed)
+    bits = rng.choice([8.0, 10.0, 12.0], n)
+    return dict(sigma_px=rng.uniform(0.6, 2.6, n), signal_e=rng.uniform(2e3, 4e4, n),
+                background_e=rng.uniform(0.0, 40.0, n), read_noise_e=rng.uniform(1.5, 10.0, n),
+                gain_e_per_adu=rng.uniform(5e3, 4e4, n) / (2.0**bits - 1.0), bit_depth=bits,
+                window_px=2 * rng.integers(2, 10, n) + 1)
+
+
+@pytest.mark.parametrize("method", ["centroid", "fit"])
+def test_many_candidates_in_one_call_equal_each_alone(method, monkeypatch):
+    kw = _cameras(90, 3)
+    pixel_model._EXACT_MEMO.clear()
+    monkeypatch.setattr(pixel_model, "_CHUNK_VALUES", 1 << 14)  # several chunks per window size
+    many = pixel_model.locator_terms(method, frames=8, **kw)
+    assert many.exact_adc.sum() > 30 and np.unique(kw["window_px"][many.exact_adc]).size > 4
+    again = pixel_model.locator_terms(method, frames=8, **kw)  # from the memo
+    for i in np.flatnonzero(many.exact_adc):  # the linear ones are interpolated between σ nodes in a batch
+        alone = pixel_model.locator_terms(method, frames=8, **{k: v[i:i + 1] for k, v in kw.items()})
+        for name in ("fixed_var", "fixed_peak", "noise_var", "random_var"):
+            ref = getattr(alone, name)[0]
+            assert getattr(many, name)[i] == pytest.approx(ref, rel=1e-10, abs=1e-16)
+            assert getattr(again, name)[i] == getattr(many, name)[i]
+
+
+def test_memo_tells_candidates_apart():
+    kw = _cameras(80, 5)
+    pixel_model._EXACT_MEMO.clear()
+    first = pixel_model.locator_terms("centroid", **kw)
+    kw2 = dict(kw, read_noise_e=kw["read_noise_e"] * 1.01)
+    second = pixel_model.locator_terms("centroid", **kw2)
+    pixel_model._EXACT_MEMO.clear()
+    fresh = pixel_model.locator_terms("centroid", **kw2)
+    assert np.array_equal(second.fixed_var, fresh.fixed_var)
+    assert not np.array_equal(first.fixed_var[first.exact_adc], second.fixed_var[first.exact_adc])
+
+
+def test_adu_moments_over_an_image_equal_each_pixel_alone():
+    # per-candidate camera figures broadcast against (C, P, P, J, J) pixels, as the locator model calls it
+    rng = np.random.default_rng(11)
+    c = 6
+    col = (slice(None), None, None, None, None)
+    gain = rng.uniform(20.0, 160.0, c)[col]
+    read = rng.uniform(1.5, 10.0, c)[col]
+    top = rng.choice([255.0, 1023.0], c)[col]
+    mu = rng.uniform(0.0, 30.0, c)[col] + rng.uniform(1e3, 3e4, c)[col] * rng.random((c, 2, 2, 5, 5)) ** 6
+    mean, var, exact = adu_moments(mu, read, gain, top)
+    assert 0.2 < exact.mean() < 1.0
+    for idx in np.ndindex(mu.shape):
+        i = idx[0]
+        m1, v1, e1 = adu_moments(mu[idx], read[i, 0, 0, 0, 0], gain[i, 0, 0, 0, 0], top[i, 0, 0, 0, 0])
+        assert (float(m1), float(v1), bool(e1)) == (mean[idx], var[idx], exact[idx])
