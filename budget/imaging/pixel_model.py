@@ -133,8 +133,9 @@ def locator_terms(method: str, *, sigma_px, signal_e, background_e, read_noise_e
                    exact_adc)
 
 
-_CHUNK_VALUES = 1 << 21
-"""Pixel values formed at once when the rounding is exact (16 MB per array)."""
+_CHUNK_VALUES = 1 << 18
+"""Pixel values formed at once when the rounding is exact (2 MB per array; a dozen such arrays are alive at once,
+and 16 MB each took choose over 10^4 options to 190 MiB)."""
 
 
 def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph,
