@@ -102,6 +102,8 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     # The engine's per-input zero-sensitivity notes list every other point's inputs for each
     # angle; the component-level comparison with Monte Carlo below says what matters.
     warns = [w for w in lin.warnings if "zero first-order sensitivity" not in w] + list(mc.warnings)
+    if lin2 is not None:  # a negative second-order variance is said, never clamped silently
+        warns += [f"{label}: {w}" for w in lin2.warnings if "negative u_c²" in w]
     u2 = lin2.u if lin2 is not None else None
     lines = _component_lines(lin, group_mc, name)
     missed = [c for c in lines if c.mc_u is not None and c.contribution <= 1e-9 * max(lin.u, 1e-300)
