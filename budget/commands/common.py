@@ -18,8 +18,13 @@ from budget.report.safe_write import remove_pending
 __all__ = ["make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending"]
 
 
-def make_rng(seed: int | None) -> np.random.Generator:
-    """The one place a generator is made from a seed; fresh entropy is drawn when none is given."""
+def make_rng(seed: int | None, stream: int = 0) -> np.random.Generator:
+    """The one place a generator is made from a seed; fresh entropy is drawn when none is given.
+
+    ``stream`` > 0 gives an independent stream of the same seed (a spawned seed sequence), for
+    draws that follow a run made from ``seed`` and must not repeat its numbers."""
+    if stream:
+        return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(stream,)))
     return np.random.default_rng(np.random.SeedSequence(seed))
 
 

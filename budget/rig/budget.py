@@ -241,7 +241,8 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
     # discrepancy at a new point), and each trial's non-linearity; the intervals, histograms and
     # correlations need no trial order.
     sweep = rig.sweep is not None
-    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()))
+    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()),
+            *(("gain_shared", "intercept_shared") if model_shares(model) else ()))
     mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress,
                      joint=keep if sweep else False,
                      derived={NONLINEARITY: _nonlinearity_per_trial(rig)} if sweep else None)
@@ -313,9 +314,20 @@ class TrueValueModel:
     def __init__(self, model, *, located: dict[str, float], nominal: dict[str, float]) -> None:
         self.model, self.located, self.nominal = model, located, nominal
 
+    @property
+    def shared(self) -> bool:
+        return self.model.shared
+
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
-        return {k: self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v for k, v in out.items()}
+        # the terms calibration and use share are an effect on the line, not a measurand: kept as they are
+        return {k: v if k.endswith("_shared") else self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v
+                for k, v in out.items()}
+
+
+def model_shares(model) -> bool:
+    """Whether the rig model gives the source's shared terms (``gain_shared``, ``intercept_shared``)."""
+    return bool(getattr(model, "shared", False))
 
 
 def _not_finite(rig: RigDescription, exc: NonFiniteOutput) -> str:

@@ -18,6 +18,7 @@ from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
 from budget.rig.evaluation import as_point_scatter
 from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg
+from budget.rig.source import shared_names
 
 __all__ = ["VirtualRig"]
 
@@ -59,6 +60,7 @@ class VirtualRig:
         readings = range(self.n_read)
         self.per_reading = {name: [(i, f"{name}_P{i + 1}") for i in readings]
                             for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
+        self.shared = bool(shared_names(rig))
         self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
                           for ax in ("x", "y") for kind in ("quant", "lock", "noise", "resid")}
 
@@ -142,7 +144,30 @@ class VirtualRig:
             out["intercept"] = intercept
             if "misfit_new" in kw:  # a rejected line's discrepancy at a new point, for predictions
                 out["line_discrepancy"] = kw["misfit_new"].copy()
+            if self.shared:  # what calibration and use share, for predictions (budget.rig.prediction)
+                a, c = self._use_map(kw, t)
+                out["gain_shared"] = sweep.nominal_gain_deg_per_v * (a - 1.0)
+                out["intercept_shared"] = sweep.nominal_gain_deg_per_v * c
         return out
+
+    def _use_map(self, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
+        """The straight line V_pointer = a·x + c from the fit's x (commanded or read back) to the voltage at
+        the pointer, from the terms shared by every set point (gain, offset, output divider; or the
+        meter's ±% and ±counts): the same in calibration and later use, so a prediction cancels them."""
+        s = self.rig.source
+        a, c = np.ones(t), np.zeros(t)
+        if s.readback == "commanded":
+            if "source_gain_pct" in kw:
+                a = a + kw["source_gain_pct"] * 1e-2
+            if "source_offset_mv" in kw:
+                c = c + kw["source_offset_mv"] * 1e-3
+            if "source_zout_ohm" in kw and s.load_resistance_ohm is not None:
+                f = s.load_resistance_ohm / (s.load_resistance_ohm + kw["source_zout_ohm"])
+                a, c = a * f, c * f
+            return a, c
+        g = 1.0 + kw["dmm_gain_pct"] * 1e-2 if "dmm_gain_pct" in kw else np.ones(t)
+        mo = kw["dmm_offset_mv"] * 1e-3 if "dmm_offset_mv" in kw else np.zeros(t)
+        return 1.0 / g, -mo / g
 
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
