@@ -39,6 +39,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "row_time_us": non_negative(),
         "frame_rate_hz": positive(),
         "exposure_ms": positive(),
+        "prnu_pct": number("a number in [0, 100]", lambda v: 0 <= v <= 100),
+        "dsnu_e": number("a number >= 0 and <= 1e6", lambda v: 0 <= v <= 1e6),
         "source": _SOURCE,
     },
     "lens": {
@@ -72,6 +74,14 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "tilt_azimuth_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
         "remounted": Field("bool", "true or false"),
         "roll_bound_deg": number("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "mount_shift_um": number("a number in [0, 1e5]", lambda v: 0 <= v <= 1e5),
+        "mount_roll_deg": number("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "source": _SOURCE,
+    },
+    "pointer": {
+        "repeatability_deg": number("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "settling_deg": number("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "pivot_play_mm": number("a number in [0, 100]", lambda v: 0 <= v <= 100),
         "source": _SOURCE,
     },
     "target": {
@@ -166,7 +176,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
 }
 
 _CLASSES = {
-    "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
+    "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target, "pointer": d.Pointer,
     "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
     "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
     "reference": d.Reference,
@@ -212,7 +222,7 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
                 raise BudgetInputError(f"The '{key}' field of [{section}] is missing; it must be {spec.allowed}.")
         built[section] = _CLASSES[section](**values)
         assumed += _assumed(section, fields, values)
-    for section in ("target", "locator", "pivot", "frames", "motion"):
+    for section in ("target", "pointer", "locator", "pivot", "frames", "motion"):
         if built[section] is None:
             built[section] = _CLASSES[section]()
             assumed += _assumed(section, SCHEMA[section], {})

@@ -143,13 +143,16 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
-                 reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+                 reading_deg: np.ndarray | None = None, zero_deg: np.ndarray | None = None,
+                 shift_mm: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Noise-free image coordinates (x right, y down, px) of every located point, each (n_points, T).
 
     ``dial_deg`` are the points' nominal directions (:func:`dial_angles_deg`); ``reading_deg``
-    (n_readings, T), if given, replaces the readings (angles travelled from the zero image).
-    ``kw`` holds the trial values (T,) of the geometric inputs (tilt, target height, mark
-    offset, k1).
+    (n_readings, T), if given, replaces the readings (angles travelled from the zero image);
+    ``zero_deg`` (T,), if given, is where the pointer rests in the zero image (travelled from its
+    nominal); ``shift_mm`` (dx, dy), each (n_points, T), moves points in the dial plane (x right,
+    y up; the pivot's play). ``kw`` holds the trial values (T,) of the geometric inputs (tilt,
+    target height, mark offset, k1).
     """
     g = rig.geometry
     n_read = len(rig.nominal_angles_deg)
@@ -162,6 +165,13 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
         moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
         x[1:1 + n_read] = r_mm * np.cos(moved)
         y[1:1 + n_read] = r_mm * np.sin(moved)
+    if zero_deg is not None:
+        moved0 = np.radians(g.zero_direction_deg + travel_sign(rig) * zero_deg)
+        x[0] = r_mm * np.cos(moved0)
+        y[0] = r_mm * np.sin(moved0)
+    if shift_mm is not None:
+        x += shift_mm[0]
+        y += shift_mm[1]
     z = h  # one height per trial, the same for every target point
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
         x[-1] = kw.get("mark_offset_x_mm", 0.0)

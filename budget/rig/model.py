@@ -62,7 +62,9 @@ class VirtualRig:
                             for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
         self.shared = bool(shared_names(rig))
         self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
-                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "resid")}
+                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "fpn", "resid", "play")}
+        self.pointer_rows = {kind: [(i, f"{kind}_deg_P{i + 1}") for i in readings] for kind in ("repeat", "settle")}
+        self.mount_px = rig.magnification / self.pitch_mm * 1e-3  # px in the image per µm at the dial
 
     # ---- pieces of the chain -------------------------------------------------------
     def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
@@ -96,7 +98,7 @@ class VirtualRig:
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
         for ax, arr in (("x", img_x), ("y", img_y)):
-            for kind in ("quant", "lock", "noise", "resid"):  # this order of additions per point
+            for kind in ("quant", "lock", "noise", "fpn", "resid"):  # this order of additions per point
                 _add_rows(arr, kw, self.per_point[ax, kind])
         for key, (j, ux, uy) in self.directions.items():
             if key in kw:
@@ -124,13 +126,19 @@ class VirtualRig:
         sweep = self.rig.sweep
         volts = self._actual_volts(kw, t) if sweep is not None else None
         true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
-        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg)
-        if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
-            r = np.radians(kw["roll_deg"])  # counterclockwise on the displayed image, about the principal point
+        true_deg = self._pointer_deg(kw, t, true_deg)
+        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg,
+                                    zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw, t))
+        roll = kw.get("roll_deg", 0.0) + kw.get("mount_roll_deg", 0.0)
+        if "roll_deg" in kw or "mount_roll_deg" in kw:  # the camera re-mounted or rolled after the zero image
+            r = np.radians(roll)  # counterclockwise on the displayed image, about the principal point
             cx, cy = principal_point(self.rig)
             x0, y0 = img_x[0] - cx, cy - img_y[0]
             img_x[0] = cx + np.cos(r) * x0 - np.sin(r) * y0
             img_y[0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
+        if "mount_shift_x_um" in kw:  # the camera shifted after the zero image: the zero image is off by it
+            img_x[0] = img_x[0] + kw["mount_shift_x_um"] * self.mount_px
+            img_y[0] = img_y[0] + kw["mount_shift_y_um"] * self.mount_px
         self._locator_errors(kw, img_x, img_y)
         angle = reading_angles_deg(self.rig, img_x, img_y)
         if self.rate != 0.0:
@@ -168,6 +176,26 @@ class VirtualRig:
         g = 1.0 + kw["dmm_gain_pct"] * 1e-2 if "dmm_gain_pct" in kw else np.ones(t)
         mo = kw["dmm_offset_mv"] * 1e-3 if "dmm_offset_mv" in kw else np.zeros(t)
         return 1.0 / g, -mo / g
+
+    def _pointer_deg(self, kw: dict, t: int, true_deg: np.ndarray | None) -> np.ndarray | None:
+        """Where the pointer rests for each reading, (n, T) deg from the zero image: the nominal (or the
+        sweep's true angle) plus its repeatability and settling; None when neither is an input."""
+        keys = [k for rows in self.pointer_rows.values() for _, k in rows if k in kw]
+        if not keys:
+            return true_deg
+        out = np.repeat(self.nominal_deg[:, None], t, axis=1) if true_deg is None else true_deg.copy()
+        for rows in self.pointer_rows.values():
+            _add_rows(out, kw, rows)
+        return out
+
+    def _play_mm(self, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray] | None:
+        """The pivot's play at every located point, (dx, dy) each (n_points, T) mm (dial x right, y up)."""
+        if not any(k in kw for _, k in self.per_point["x", "play"]):
+            return None
+        dx, dy = np.zeros((len(self.labels), t)), np.zeros((len(self.labels), t))
+        _add_rows(dx, kw, self.per_point["x", "play"])
+        _add_rows(dy, kw, self.per_point["y", "play"])
+        return dx, dy
 
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""
