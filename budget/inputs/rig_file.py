@@ -14,6 +14,7 @@ from pathlib import Path
 from budget.errors import BudgetInputError, field_error
 from budget.imaging.locator_model import spot_sigma_px
 from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
+from budget.inputs.supplied import applies, conditional_assumptions, plausibility_warnings
 from budget.rig import description as d
 
 __all__ = ["load_rig", "parse_rig", "SCHEMA"]
@@ -48,8 +49,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "distortion": choice("corrected", "uncorrected"),
         "residual_rms_px": number("a number in (0, 100]", lambda v: 0 < v <= 100,
-                                  assumed="what a careful calibration reaches (common practice, value from "
-                                          "memory); give your calibration's RMS reprojection error"),
+                                  assumed="possibly optimistic: what a careful calibration reaches (common "
+                                          "practice, value from memory); give your calibration's RMS reprojection "
+                                          "error"),
         "residual_correlation_px": number("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
         "distortion_edge_pct": number("a number in [0, 20]", lambda v: 0 <= v <= 20),
         "wavelength_nm": number("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
@@ -89,8 +91,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "sigma_px": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
         "diameter_mm": number("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
         "signal_e": number("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12,
-                           assumed="a well-exposed target (assumption); the signal sets the centroid "
-                                   "noise: measure it from a frame"),
+                           assumed="possibly optimistic: a well-exposed target (assumption); the signal "
+                                   "sets the centroid noise: measure it from a frame"),
         "background_e": number("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9,
                                assumed="a dark surround (assumption); measure it beside the target"),
         "source": _SOURCE,
@@ -242,7 +244,24 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
     rig = d.RigDescription(title=title, raw=doc, assumptions=tuple(assumed), **built)  # type: ignore[arg-type]
     _cross_checks(rig)
     _target_checks(rig)
-    return rig
+    _meter_check(rig, doc)
+    assumed = [a for a in assumed if applies(rig, a.field)]
+    listed = tuple(a.field for a in assumed)
+    return dataclasses.replace(rig, assumptions=(*assumed, *conditional_assumptions(rig, doc, listed)),
+                               input_warnings=tuple(plausibility_warnings(doc)))
+
+
+def _meter_check(rig: d.RigDescription, doc: dict) -> None:
+    """A read-back meter without its specification would be a perfect meter: refused."""
+    s = rig.source
+    if s is None or s.readback != "dmm":
+        return
+    table = doc.get("source") or {}
+    for key in ("dmm_pct_reading", "dmm_counts"):
+        if key not in table:
+            raise BudgetInputError(f"The '{key}' field of [source] is missing; readback = \"dmm\" needs the meter's "
+                                   "specification (±% of reading and ±counts, each a number >= 0; 0 only if the "
+                                   "meter's certificate says so).")
 
 
 def _assumed(section: str, fields: dict[str, Field], given: dict) -> list[d.Assumption]:

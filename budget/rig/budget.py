@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from budget import __version__
-from budget.errors import BudgetInputError, collected_warnings
+from budget.errors import BudgetInputError, collected_warnings, warn
 from budget.fit import ols_batch_residuals
 from budget.imaging.locator_model import locator_model
 from budget.propagation import (
@@ -219,6 +219,8 @@ def run_budget(
 def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, trials: int | None,
                 input_path: str | Path, progress: Callable[[int], None] | None, type_a: dict | None,
                 measured_deg: tuple[float, ...] | None) -> RunResult:
+    for note in rig.input_warnings:  # numbers outside their plausible range: into every report
+        warn(note)
     inputs, corr = comp.build_inputs(rig, type_a)
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:

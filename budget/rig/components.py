@@ -73,6 +73,12 @@ def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
     return InputQuantity(distribution=dist, unit=unit, group=group, source=source)
 
 
+def _supplied(rig: RigDescription, *names: str) -> str:
+    """Words for a source note when a value behind the term came from the tool, not from the section's source."""
+    found = [n for n in names if rig.assumed(n)]
+    return f"; {', '.join(found)} supplied by thetabudget (an assumption, not from this source)" if found else ""
+
+
 def build_inputs(
     rig: RigDescription, type_a: dict[str, PointScatter] | None = None
 ) -> tuple[dict[str, InputQuantity], dict[tuple[str, str], float]]:
@@ -96,7 +102,7 @@ def build_inputs(
     n_frames = rig.frames.per_reading
     out: dict[str, InputQuantity] = {}
     corr: dict[tuple[str, str], float] = {}
-    loc_src = f"{rig.locator.source}; {lm.noise_formula}"
+    loc_src = f"{rig.locator.source}; {lm.noise_formula}" + _supplied(rig, "target.signal_e", "target.sigma_px")
     labels = point_labels(rig)
     fpn, fpn_src = _fixed_pattern(rig, lm.sigma_px)
     for lab in labels:
@@ -121,7 +127,8 @@ def build_inputs(
             if lens.distortion == "corrected":
                 s = lens.residual_rms_px / math.sqrt(2.0)
                 out[f"resid_{ax}_{lab}"] = _q(Normal(0.0, s), "px", DIST,
-                                              lens.source + "; RMS reprojection residual / √2 per axis")
+                                              lens.source + "; RMS reprojection residual / √2 per axis"
+                                              + _supplied(rig, "lens.residual_rms_px"))
         if type_a and lab in type_a:
             out.update(type_a_inputs(as_point_scatter(lab, type_a[lab]), PIVOT if pivot_point else None))
     if lens.distortion == "corrected" and lens.residual_correlation_px > 0:

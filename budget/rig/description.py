@@ -263,6 +263,12 @@ class RigDescription:
     conformity: Conformity | None = None
     range_claim: RangeClaimForm | None = None
     pointer: Pointer = field(default_factory=Pointer)
+    input_warnings: tuple[str, ...] = ()
+    """Numbers outside their plausible range, with the likely unit slip (:mod:`budget.inputs.supplied`)."""
+
+    def assumed(self, name: str) -> bool:
+        """Whether the value of ``name`` ("section.key") was supplied by the tool, not the file."""
+        return any(a.field == name for a in self.assumptions)
 
     # ---- derived optics (pinhole with a thin lens focused at the working distance)
     @property
