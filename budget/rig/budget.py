@@ -16,7 +16,6 @@ import numpy as np
 
 from budget import __version__
 from budget.errors import BudgetInputError, collected_warnings, warn
-from budget.fit import ols_batch_residuals
 from budget.imaging.locator_model import locator_model
 from budget.propagation import (
     InputQuantity,
@@ -31,6 +30,7 @@ from budget.propagation.model import NonFiniteOutput
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
 from budget.rig import checks
 from budget.rig import components as comp
+from budget.rig.attribution import exact_pivot_linear, with_pivot_attribution
 from budget.rig.description import RigDescription
 from budget.rig.evaluation import Evaluation
 from budget.rig.model import VirtualRig
@@ -143,28 +143,6 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     )
 
 
-NONLINEARITY = "nonlinearity_pct"
-"""Per-trial value the sweep's Monte Carlo keeps beside its outputs (``derived``)."""
-
-
-def _nonlinearity_per_trial(rig: RigDescription) -> Callable[[dict[str, np.ndarray]], np.ndarray]:
-    """Largest |residual| of each trial's straight line as % of its angle span, from a chunk's outputs."""
-    x = np.array(rig.sweep.set_points_v)
-    names = [f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))]
-
-    def per_trial(out: dict[str, np.ndarray]) -> np.ndarray:
-        y = np.column_stack([out[k] for k in names])
-        _, _, res = ols_batch_residuals(x, y)
-        return 100.0 * np.max(np.abs(res), axis=1) / np.ptp(y, axis=1)
-
-    return per_trial
-
-
-def _nonlinearity_pct(nl: np.ndarray) -> tuple[float, float]:
-    """Mean and 95th percentile over the trials of the per-trial non-linearity."""
-    return float(nl.mean()), float(np.quantile(nl, 0.95))
-
-
 def run_budget(
     rig: RigDescription,
     *,
@@ -239,6 +217,9 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             inputs = {**inputs, **checks.misfit_inputs(rig, lof)}
             lin = linear(model, inputs, p=p, correlation=corr_arg)
     lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
+    exact = VirtualRig(rig, type_a, exact_pivot=True)
+    exact = exact if measured_deg is None else TrueValueModel(exact, located=reference, nominal=nominal)
+    lin0 = exact_pivot_linear(rig, exact, inputs, p, corr_arg)  # None unless the pivot is fitted
     # Kept in trial order: what predict propagates further ((K, θ0), and a rejected line's
     # discrepancy at a new point), and each trial's non-linearity; the intervals, histograms and
     # correlations need no trial order.
@@ -247,7 +228,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             *(("gain_shared", "intercept_shared") if model_shares(model) else ()))
     mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress,
                      joint=keep if sweep else False,
-                     derived={NONLINEARITY: _nonlinearity_per_trial(rig)} if sweep else None)
+                     derived={checks.NONLINEARITY: checks.nonlinearity_per_trial(rig)} if sweep else None)
     groups: dict[str, tuple[str, ...]] = {}
     for name, q in inputs.items():
         groups.setdefault(q.group or name, ())
@@ -262,7 +243,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
                      mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes)
         if measured_deg is not None:
             ob = replace(ob, reference=checks.reference_check(rig, ob, i))
-        angles.append(ob)
+        angles.append(ob if lin0 is None else with_pivot_attribution(ob, lin0[name], rig.pivot.method))
     gain = summary = None
     if rig.sweep is not None:
         gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
@@ -270,11 +251,14 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
                             lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
                             rig.pivot.method, causes)
+        if lin0 is not None:
+            gain = with_pivot_attribution(gain, lin0["gain"], rig.pivot.method)
+            intercept = with_pivot_attribution(intercept, lin0["intercept"], rig.pivot.method)
         ig, ii = lin.names.index("gain"), lin.names.index("intercept")
         corr_lin = lin.correlation[ig, ii]
         jg, ji = mc.names.index("gain"), mc.names.index("intercept")
         corr_mc = float(mc.correlation[jg, ji])
-        nl_mean, nl_95 = _nonlinearity_pct(mc.joint[NONLINEARITY])
+        nl_mean, nl_95 = checks.nonlinearity_pct(mc.joint[checks.NONLINEARITY])
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
                               correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
                               nonlinearity_p95_pct=nl_95, chi2=lof.chi2 if lof is not None else None,
@@ -298,7 +282,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
-        locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != NONLINEARITY},
+        locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != checks.NONLINEARITY},
         assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
     )

@@ -38,7 +38,7 @@ from budget.rig.pivot import fit_circle
 
 __all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "principal_point",
            "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg",
-           "screen_angles_deg"]
+           "screen_angles_deg", "true_pivot_image"]
 
 
 def travel_sign(rig: RigDescription) -> float:
@@ -229,14 +229,28 @@ def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
     return np.degrees(np.arctan2(y0 * x - x0 * y, x0 * x + y0 * y))
 
 
-def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
+def true_pivot_image(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
+    """Image coordinates of the true pivot, each (T,): the dial's origin, which the tilt (a rotation about
+    it) leaves in place, projected with the trial's distortion. The pivot a perfect mark would give."""
+    g = rig.geometry
+    x = np.full(t, g.pivot_offset_x_mm)
+    y = np.full(t, -g.pivot_offset_y_mm)
+    u, v = project(x, y, np.zeros(t), focal_px=rig.focal_px, distance_mm=g.working_distance_mm,
+                   k1=kw["k1"] if "k1" in kw else 0.0)
+    cx, cy = principal_point(rig)
+    return u + cx, cy - v
+
+
+def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray,
+                       pivot: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
 
     Rows of ``img_x``, ``img_y`` (n_points, T; image coordinates) follow :func:`point_labels`. The angle
     travelled from the zero image in the rig's ``travel`` direction (:func:`screen_angles_deg`
-    times :func:`travel_sign`), on the branch nearest the nominal reading.
+    times :func:`travel_sign`), on the branch nearest the nominal reading. ``pivot`` (each (T,)), if given,
+    replaces the pivot the rig's method finds (:func:`true_pivot_image` for an exact pivot).
     """
-    xc, yc = estimate_pivot(rig, img_x, img_y)
+    xc, yc = estimate_pivot(rig, img_x, img_y) if pivot is None else pivot
     n_read = len(rig.nominal_angles_deg)
     x0, y0 = img_x[0] - xc, img_y[0] - yc
     xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc

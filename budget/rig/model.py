@@ -17,7 +17,7 @@ import numpy as np
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
 from budget.rig.evaluation import as_point_scatter
-from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg
+from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg, true_pivot_image
 from budget.rig.source import shared_names
 
 __all__ = ["VirtualRig"]
@@ -35,14 +35,16 @@ class VirtualRig:
 
     Called with keyword arrays named like :func:`budget.rig.components.build_inputs`
     (every array of one length T), it returns ``{"P1": angle_deg, …}`` and, for a
-    sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
+    sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg). With ``exact_pivot`` the angles are taken about
+    the true pivot (what the budget would be with a perfect pivot mark): the attribution of a fitted pivot.
 
     Inside, arrays over points or readings are (n, T): one contiguous row per point
     (see :mod:`budget.rig.geometry`).
     """
 
-    def __init__(self, rig: RigDescription, type_a: dict | None = None) -> None:
+    def __init__(self, rig: RigDescription, type_a: dict | None = None, exact_pivot: bool = False) -> None:
         self.rig = rig
+        self.exact_pivot = exact_pivot  # the angles about the true pivot, not the one the rig's method finds
         self.labels = point_labels(rig)
         # input name -> (column, unit vector in the image) of the frames' principal axes and drifts
         self.directions: dict[str, tuple[int, float, float]] = {}
@@ -140,7 +142,8 @@ class VirtualRig:
             img_x[0] = img_x[0] + kw["mount_shift_x_um"] * self.mount_px
             img_y[0] = img_y[0] + kw["mount_shift_y_um"] * self.mount_px
         self._locator_errors(kw, img_x, img_y)
-        angle = reading_angles_deg(self.rig, img_x, img_y)
+        pivot = true_pivot_image(self.rig, kw, t) if self.exact_pivot else None
+        angle = reading_angles_deg(self.rig, img_x, img_y, pivot)
         if self.rate != 0.0:
             angle += self._timing_deg(kw, t, img_y[1:1 + self.n_read])
         out = {f"P{i + 1}": angle[i] for i in range(self.n_read)}
