@@ -161,7 +161,7 @@ PLAUSIBLE: dict[tuple[str, str], tuple[float, float, str, str, str]] = {
     ("pivot", "mark_offset_bound_mm"): (0, 1, "mm", "", "was it typed in µm?"),
     ("motion", "jitter_ms"): (0, 100, "ms", "", "was it typed in µs?"),
     ("source", "span_v"): (0.1, 100, "V", "", "was it typed in mV?"),
-    ("source", "bits"): (6, 24, "bits", "", ""),
+    ("source", "bits"): (6, 32, "bits", "", ""),
     ("source", "gain_error_pct"): (0, 5, "%", "", "was it typed in ppm?"),
     ("source", "offset_mv"): (0, 100, "mV", "", "was it typed in µV?"),
     ("source", "inl_lsb"): (0, 64, "LSB", "", "was it typed in µV or ppm?"),
@@ -180,10 +180,8 @@ def plausibility_warnings(doc: dict) -> list[str]:
         if not isinstance(table, dict) or key not in table:
             continue
         v = table[key]
-        if isinstance(v, bool) or not isinstance(v, int | float) or lo <= abs(v) <= hi:
-            continue
-        if v == 0 and lo > 0 and key in ("tilt_bound_deg", "tilt_u_deg"):
-            continue  # refused by the field's own check
+        if isinstance(v, bool) or not isinstance(v, int | float) or lo <= abs(v) <= hi or v == 0:
+            continue  # 0 is "none" where the field allows it (a spot's diameter, a corrected lens's edge %)
         slip = below if abs(v) < lo else above
         u = f" {unit}" if unit else ""
         out.append(f"The '{key}' field of [{section}] is {v:g}{u}, outside the plausible range [{lo:g}, {hi:g}]{u}"
