@@ -363,6 +363,10 @@ def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
 def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...], evaluated: bool = False) -> list[str]:
     """What the physics says about this rig, whatever the numbers (``per_reading`` only in design mode)."""
     out = list(locator_notes)
+    g = rig.geometry
+    if g.tilt_bound_deg is None and g.tilt_deg is None:  # the omission that matters most, also among the notes
+        out.append("No camera tilt is given ([geometry] tilt_bound_deg, or tilt_deg with tilt_u_deg): the budget has "
+                   "no camera-tilt term, often its largest component, and is optimistic by it.")
     if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid") and not evaluated:
         what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
         out.append(

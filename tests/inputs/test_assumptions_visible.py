@@ -45,6 +45,7 @@ def test_a_rig_without_its_tilt_says_so_in_check_and_in_the_json(tmp_path, capsy
     found = [a for a in doc["assumptions"] if a["field"] == "geometry.tilt_bound_deg"]
     assert found and found[0]["value"] == "not given" and found[0]["reason"].startswith(OMISSION)
     assert set(found[0]) == {"field", "value", "reason"}
+    assert any("No camera tilt is given" in w for w in doc["warnings"])
 
 
 @pytest.mark.parametrize(("section", "key"), [("lens", "residual_rms_px"), ("target", "signal_e")])
