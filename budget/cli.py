@@ -129,6 +129,8 @@ def build_parser() -> argparse.ArgumentParser:
                      help="coverage probability (default: the [goal] p, else 0.95)")
     run.add_argument("--json", action="store_true", help="write only JSON to stdout")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
+    run.add_argument("--detail", action="store_true",
+                     help="print each output's budget (components, sensitivities, source notes) after the summary")
     _add_output_options(run)
 
     chk = sub.add_parser("check", help="validate a rig file and list its input quantities")
@@ -207,6 +209,7 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--xlsx", type=Path, help="write the budget workbook")
     p.add_argument("--md", type=Path, help="write the Markdown tables")
     p.add_argument("--csv", type=Path, help="write the budget rows as CSV")
+    p.add_argument("--html", type=Path, help="write the HTML report to print and sign (one self-contained file)")
     p.add_argument("--plots", type=Path, help="write PNG plots into this folder")
     p.add_argument("--force", action="store_true", help="replace existing output files")
 

@@ -48,6 +48,13 @@ class ComponentLine:
     """With a fitted pivot: this component's linear contribution had the pivot been known exactly (the
     rest of ``contribution`` comes through the fit); None when the pivot is not fitted."""
 
+    @property
+    def effective_sensitivity(self) -> float | None:
+        """c_i where the component is one input quantity, else contribution / u(x) (None without one u(x))."""
+        if self.sensitivity is not None:
+            return self.sensitivity
+        return self.contribution / self.u_input if self.u_input else None
+
 
 @dataclass(frozen=True)
 class ReferenceCheck:
@@ -83,6 +90,31 @@ class OutputBudget:
     u_exact_pivot: float | None = None
     """With a fitted pivot: the linear u had the pivot been known exactly; u² − u_exact² comes through
     the fit (a pivot mark or a longer arc would remove it). None when the pivot is not fitted."""
+
+    @property
+    def result_estimate(self) -> float:
+        """The estimate of the method the result rests on (``method``)."""
+        return self.linear.estimate if self.method == "linear" else self.monte_carlo.estimate
+
+    @property
+    def result_u(self) -> float:
+        """The standard uncertainty of the method the result rests on."""
+        return self.linear.u if self.method == "linear" else self.monte_carlo.u
+
+    @property
+    def result_interval(self) -> tuple[float, float]:
+        """The result's coverage interval: y ± U (linear) or the probabilistically symmetric one (Monte Carlo)."""
+        return tuple(self.linear.interval) if self.method == "linear" else tuple(self.monte_carlo.interval)
+
+    @property
+    def result_statement(self) -> str:
+        """The statement of the method the result rests on."""
+        return self.statement if self.method == "linear" else self.mc_statement
+
+    @property
+    def dominant(self) -> ComponentLine | None:
+        """The component with the largest effect, by either method (the linear contribution or Monte Carlo alone)."""
+        return max(self.components, key=lambda c: max(c.contribution, c.mc_u or 0.0), default=None)
 
 
 @dataclass(frozen=True)
@@ -242,6 +274,11 @@ class RunResult:
     decisions: tuple[Decision, ...] = ()
     decision_rule: str = ""  # the rule in words (ISO/IEC 17025 7.8.6), when [conformity] is given
     range_claim: RangeClaim | None = None
+    # The outputs' joint covariance by each method, rows and columns in ``covariance_names`` order
+    # (JCGM 102 6.2 for the linear one; the trials' sample covariance for Monte Carlo).
+    covariance_names: tuple[str, ...] = ()
+    covariance_linear: np.ndarray | None = field(repr=False, default=None)
+    covariance_mc: np.ndarray | None = field(repr=False, default=None)
 
     def component_descriptions(self) -> dict[str, str]:
         """Every component shown in the budgets, in order of first appearance, with what it is."""
@@ -259,3 +296,25 @@ class RunResult:
         if self.gain is not None and self.gain_summary is not None:
             extra = (self.gain, self.gain_summary.intercept)
         return (*self.angles, *extra)
+
+    def summary(self):
+        """One row per output (a pandas DataFrame): estimate, u, the result's interval, method, dominant component."""
+        from budget.dataframes import summary_frame
+
+        return summary_frame(self)
+
+    def table(self):
+        """One row per component per output (a pandas DataFrame), the budget lines as the reports show them."""
+        from budget.dataframes import table_frame
+
+        return table_frame(self)
+
+    def to_ufloats(self, method: str = "mc") -> dict:
+        """The outputs as ``uncertainties`` values correlated through the joint covariance.
+
+        ``method="mc"`` (Monte Carlo estimates and covariance) or ``"linear"`` (JCGM 100 / JCGM 102 6.2);
+        keys are the output names (``P1``, ..., ``gain``, ``intercept``).
+        """
+        from budget.dataframes import correlated_outputs
+
+        return correlated_outputs(self, method)

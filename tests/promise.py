@@ -83,7 +83,7 @@ def check_promise(o: Outcome, *, inputs: tuple[str, ...] = ()) -> None:
         check_inert(Path(name), o.after[name][0], what, kinds)
 
 
-_OPTION_KIND = {"--xlsx": "xlsx", "--csv": "csv", "--out": "csv", "--md": "md", "--rig-out": "toml"}
+_OPTION_KIND = {"--xlsx": "xlsx", "--csv": "csv", "--out": "csv", "--md": "md", "--rig-out": "toml", "--html": "html"}
 
 
 def _written_as(argv: list[str]) -> dict[str, str]:
@@ -105,7 +105,7 @@ def check_inert(name: Path, data: bytes, what: str = "", kinds: dict[str, str] |
         for row in csv.reader(io.StringIO(text, newline="")):
             for cell in row:
                 assert not is_risky(cell) or _number(cell), f"{what}: CSV cell {cell!r}"
-    elif kind in ("md", "toml"):
+    elif kind in ("md", "toml", "html"):
         text = data.decode("utf-8")
         assert not re.search("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]", text), f"{what}: control character in {name}"
 

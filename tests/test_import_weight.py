@@ -24,6 +24,11 @@ def test_import_budget_is_light():
     assert not [m for m in HEAVY if m in loaded]
 
 
+def test_python_api_loads_pandas_and_uncertainties_only_when_asked():
+    loaded = _modules_after("import budget; budget.run; budget.RunResult")
+    assert not [m for m in (*HEAVY, "uncertainties") if m in loaded]
+
+
 def test_cli_parser_is_light():
     loaded = _modules_after("import budget.cli; budget.cli.build_parser()")
     assert not [m for m in HEAVY if m in loaded]

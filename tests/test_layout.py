@@ -20,20 +20,25 @@ ALLOWED = {
     "errors": set(),
     "propagation": {"errors"},
     "fit": {"errors"},
-    "results": {"errors", "propagation"},
+    "results": {"errors", "propagation", "dataframes"},
+    "dataframes": set(),
     "resources": {"errors"},
     "imaging": {"errors", "propagation", "rig.description"},
     "inputs": {"errors", "rig.description", "imaging.locator_model"},
     "rig": {"budget", "errors", "propagation", "fit", "imaging", "results"},
     "choice": {"errors", "propagation", "imaging", "rig", "inputs.choose_file"},
     "advice": {"errors", "propagation", "fit", "imaging", "rig", "choice", "results", "inputs"},
-    "report": {"budget", "errors", "results", "propagation", "choice", "advice"},
+    "report": {"budget", "errors", "results", "dataframes", "propagation", "choice", "advice"},
     "reference_cases": {"budget", "errors", "propagation", "fit", "resources"},
     "commands": {"*"},
+    "api": {"*"},
     "cli": {"budget", "errors", "commands"},
     "__main__": {"cli"},
-    "budget": set(),
+    "budget": {"api", "results"},  # only inside its PEP 562 __getattr__, on first use (see LAZY)
 }
+LAZY = {"budget": {"budget.api", "budget.results"}}
+"""Edges taken on first use of a public name (PEP 562 ``__getattr__`` in the package's __init__): modules
+that import ``budget`` for ``__version__`` never follow them, so they close no import cycle."""
 MAX_LINES = 400
 """STYLE.md: when a module passes about 400 lines, split it by concept."""
 
@@ -83,6 +88,8 @@ def _layer(module: str) -> str:
 
 def test_no_import_cycles():
     graph = _graph()
+    for mod, lazy in LAZY.items():
+        graph[mod] -= lazy
     state: dict[str, int] = {}
     path: list[str] = []
 

@@ -54,3 +54,16 @@ def test_readme_from_frames_to_a_budget_runs_as_written(tmp_path):
             m = re.search(pattern, md)
             assert m, label
             assert float(m.group(1)) <= want <= float(m.group(2)), (label, m.groups(), want)
+
+
+def test_readme_python_example_runs_as_written():
+    """The "From Python" section's code runs from the repository root and prints the summary and the step."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    start = text.index("## From Python")
+    end = text.find("\n## ", start + 5)
+    blocks = re.findall(r"```python\n(.*?)```", text[start:end], flags=re.S)
+    assert blocks, "the section has no python block"
+    res = subprocess.run([sys.executable, "-c", "\n".join(blocks)], cwd=ROOT, capture_output=True, text=True,
+                         timeout=600)
+    assert res.returncode == 0, res.stderr[-3000:]
+    assert "estimate" in res.stdout and re.search(r"P2 - P1 = [-\d.]+ ± [\d.]+ °", res.stdout), res.stdout

@@ -44,7 +44,7 @@ def execute(args: argparse.Namespace) -> int:
         if args.rig_out is not None:
             files.add(args.rig_out, _rig_writer(result, args.file))
         if args.xlsx is not None:
-            files.add(args.xlsx, lambda tmp: write_choice_xlsx(result, tmp))
+            files.add(args.xlsx, lambda tmp: write_choice_xlsx(result, tmp, _provenance(args, spec, seed)))
         if plot is not None:
             files.make_folder(args.plots)
             files.add(plot, lambda tmp: write_choice_plot(result, tmp))
@@ -54,6 +54,17 @@ def execute(args: argparse.Namespace) -> int:
         for p in written:
             print(f"wrote {p}")
     return 0
+
+
+def _provenance(args: argparse.Namespace, spec, seed) -> list[tuple[str, str]]:
+    """(label, value) rows naming the inputs of a choice and their SHA-256 (and the --verify seed)."""
+    from budget.inputs.data_csv import sha256_of
+
+    rows = [("input file", str(args.file)), ("input file SHA-256", sha256_of(args.file)),
+            ("camera list", str(spec.cameras.path)), ("camera list SHA-256", sha256_of(spec.cameras.path))]
+    if seed is not None:
+        rows.append(("seed of the --verify run", str(seed)))
+    return rows
 
 
 def _check_outputs(args: argparse.Namespace, plot: Path | None, inputs: list[Path]) -> None:

@@ -8,6 +8,7 @@ exit 2). This package is the only place a generator is made from a seed.
 from __future__ import annotations
 
 import json
+import secrets
 import sys
 from pathlib import Path
 
@@ -15,14 +16,23 @@ import numpy as np
 
 from budget.report.safe_write import remove_pending
 
-__all__ = ["make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending"]
+__all__ = ["SEED_BOUND", "make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending"]
+
+
+SEED_BOUND = 2**32
+"""A seed drawn when none is given is below this: ten digits at most, short enough to retype."""
 
 
 def make_rng(seed: int | None, stream: int = 0) -> np.random.Generator:
-    """The one place a generator is made from a seed; fresh entropy is drawn when none is given.
+    """The one place a generator is made from a seed; a seed below :data:`SEED_BOUND` is drawn when none is given.
 
-    ``stream`` > 0 gives an independent stream of the same seed (a spawned seed sequence), for
-    draws that follow a run made from ``seed`` and must not repeat its numbers."""
+    The drawn seed is the generator's seed-sequence entropy, so :func:`seed_of` and every report give it,
+    and ``--seed`` with that number repeats the run. ``stream`` > 0 gives an independent stream of the
+    same seed (a spawned seed sequence), for draws that follow a run made from ``seed`` and must not
+    repeat its numbers.
+    """
+    if seed is None:
+        seed = secrets.randbelow(SEED_BOUND)
     if stream:
         return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(stream,)))
     return np.random.default_rng(np.random.SeedSequence(seed))

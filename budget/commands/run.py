@@ -53,7 +53,7 @@ def load_inputs(path):
 def execute(args: argparse.Namespace) -> int:
     from budget.report.files import check_reports
 
-    reports = dict(xlsx=args.xlsx, md=args.md, csv=args.csv, plots=args.plots)
+    reports = dict(xlsx=args.xlsx, md=args.md, csv=args.csv, html=args.html, plots=args.plots)
     wanted = any(v is not None for v in reports.values())
     if wanted:  # the paths alone, before the inputs are read
         check_reports(**{**reports, "plots": None}, force=args.force, inputs=[args.file])
@@ -72,9 +72,9 @@ def execute(args: argparse.Namespace) -> int:
 
         text = run_to_json(result)
     else:
-        from budget.report.console import render_run
+        from budget.report.console import render_run, terminal_width
 
-        text = render_run(result)
+        text = render_run(result, width=terminal_width(), detail=getattr(args, "detail", False))
     written = []
     if wanted:  # every file or none, before anything is printed
         from budget.report.files import write_reports

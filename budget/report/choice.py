@@ -10,7 +10,7 @@ from pathlib import Path
 
 from budget.choice.model import COMPONENTS
 from budget.choice.rank import Choice
-from budget.report.safe_write import clean_text, set_text
+from budget.report.safe_write import clean_text
 
 __all__ = ["choice_rows", "choice_to_dict", "render_choice", "write_choice_plot", "write_choice_xlsx", "SHOWN"]
 
@@ -173,26 +173,58 @@ def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirm
     return "\n".join(lines) + "\n"
 
 
-def write_choice_xlsx(ch: Choice, path: Path) -> None:
-    """One sheet 'choice' with every candidate, best first, saved to ``path`` (the caller's temporary file:
-    :class:`budget.report.safe_write.FileSet`). Text from the input is inert (:func:`set_text`)."""
+def write_choice_xlsx(ch: Choice, path: Path, provenance: list[tuple[str, str]] | None = None) -> None:
+    """The candidates, best first, and the provenance, saved to ``path`` (the caller's temporary file:
+    :class:`budget.report.safe_write.FileSet`, so the file follows the user's umask).
+
+    Sheets: 'choice' (the title, then one row per candidate: header row (printed at full size over pages
+    across, rank, camera and lens repeated on each), frozen panes, fitted widths) and 'Provenance'
+    (tool, input files and their SHA-256, date, the assumptions the search made). Text from the input is
+    inert (:func:`budget.report.workbook_cells.text`); both sheets print as the budget workbook does
+    (:mod:`budget.report.workbook_print`); the file asks to be recalculated on opening.
+    """
+    import datetime as _dt
+
     from openpyxl import Workbook
+
+    from budget import __version__
+    from budget.report.workbook_cells import BOLD, TITLE, WRAP, fit_row_heights, header_row, number, set_widths, text
+    from budget.report.workbook_print import make_printable, recalc_on_open
 
     rows = choice_rows(ch)
     wb = Workbook()
     ws = wb.active
     ws.title = "choice"
     keys = [k for k in rows[0] if k != "angle_components_deg"] + [f"u {c} (°)" for c in COMPONENTS]
-    table = [[ch.spec.title], keys]
-    for r in rows:
-        table.append([r[k] for k in keys[:-len(COMPONENTS)]] + [r["angle_components_deg"][c] for c in COMPONENTS])
-    for i, values in enumerate(table, start=1):
+    text(ws, 1, 1, ch.spec.title, TITLE)
+    header_row(ws, 2, keys)
+    for i, r in enumerate(rows, start=3):
+        values = [r[k] for k in keys[:-len(COMPONENTS)]] + [r["angle_components_deg"][c] for c in COMPONENTS]
         for j, v in enumerate(values, start=1):
-            if isinstance(v, str):
-                set_text(ws.cell(row=i, column=j), v)
+            if isinstance(v, bool):
+                text(ws, i, j, "yes" if v else "no")
+            elif isinstance(v, str):
+                text(ws, i, j, v)
             elif v is not None:
-                ws.cell(row=i, column=j, value=v)
+                number(ws, i, j, v, "0" if isinstance(v, int) else "0.000E+00" if abs(v) < 1e-3 and v else "0.0###")
+    ws.freeze_panes = "C3"
+    set_widths(ws, {j: 10 for j in range(4, len(keys) + 1)}, hi=24)
+    prov = wb.create_sheet("Provenance")
+    text(prov, 1, 1, f"Camera choice: {ch.spec.title}", TITLE)
+    stamp = _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")
+    items = [("tool", f"thetabudget {__version__}"), *(provenance or []), ("written (UTC)", stamp),
+             ("candidates", f"{len(rows)}, best first (ranked as the console shows them)")]
+    for r, (label, value) in enumerate(items, start=3):
+        text(prov, r, 1, label, BOLD)
+        text(prov, r, 2, value).alignment = WRAP
+    set_widths(prov, {1: 30, 2: 90})
+    sha = next((v for k, v in (provenance or []) if k.endswith("SHA-256")), "")
+    for sheet, rows_ in ((ws, "1:2"), (prov, "1:1")):
+        make_printable(sheet, sha256=sha, title_rows=rows_, tool=f"thetabudget {__version__}", title_cols="A:C")
+        fit_row_heights(sheet)
+    recalc_on_open(wb)
     wb.properties.title = clean_text(f"Camera choice: {ch.spec.title}", 255)
+    wb.properties.creator = f"thetabudget {__version__}"
     wb.save(path)
 
 

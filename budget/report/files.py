@@ -1,4 +1,4 @@
-"""Report files of a run: workbook, Markdown, CSV and PNG plots.
+"""Report files of a run: workbook, Markdown, CSV, HTML and PNG plots.
 
 Every destination is checked before anything is written (an existing file needs ``force``;
 the error names it and ``--force``; an input is never written), and the files are written through
@@ -27,14 +27,14 @@ def _text_writer(render: Callable[[], str], encoding: str = "utf-8") -> Callable
 
 
 def check_reports(*, xlsx: str | Path | None = None, md: str | Path | None = None, csv: str | Path | None = None,
-                  plots: str | Path | None = None, plot_files: Sequence[str] = (), force: bool = False,
-                  inputs: Sequence[Path] = ()) -> None:
+                  html: str | Path | None = None, plots: str | Path | None = None, plot_files: Sequence[str] = (),
+                  force: bool = False, inputs: Sequence[Path] = ()) -> None:
     """Refuse, before any work, every report path that cannot be written (see :func:`check_targets`).
 
     ``plot_files`` are the names the run will draw into ``plots`` (:func:`budget.report.plots.plot_names`);
     a ``plots`` folder still to be made holds no file to replace, but its own path must be usable.
     """
-    files = [Path(p) for p in (xlsx, md, csv) if p is not None]
+    files = [Path(p) for p in (xlsx, md, csv, html) if p is not None]
     if plots is not None:
         folder = Path(plots)
         if folder.is_symlink() and not folder.exists():
@@ -47,15 +47,15 @@ def check_reports(*, xlsx: str | Path | None = None, md: str | Path | None = Non
 
 
 def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str | Path | None = None,
-                  csv: str | Path | None = None, plots: str | Path | None = None,
+                  csv: str | Path | None = None, html: str | Path | None = None, plots: str | Path | None = None,
                   force: bool = False, inputs: Sequence[Path] = ()) -> list[Path]:
     """Write the requested report files: all of them, or (on any error or signal) none.
 
     Parameters
     ----------
     result : RunResult
-    xlsx, md, csv : path, optional
-        The workbook, the Markdown tables, the budget rows as CSV.
+    xlsx, md, csv, html : path, optional
+        The workbook, the Markdown tables, the budget rows as CSV, the HTML report to print and sign.
     plots : path, optional
         A folder for the PNG plots (made if missing; its parent must exist).
     force : bool
@@ -91,14 +91,18 @@ def write_reports(result: RunResult, *, xlsx: str | Path | None = None, md: str 
         from budget.report.csvout import ENCODING, render_csv
 
         plan.append((Path(csv), _text_writer(lambda: render_csv(result), ENCODING)))
+    if html is not None:
+        from budget.report.html import render_html
+
+        plan.append((Path(html), _text_writer(lambda: render_html(result))))
     pictures: list[tuple[Path, Callable[[Path], None]]] = []
     folder = Path(plots) if plots is not None else None
     if folder is not None:
         from budget.report.plots import plot_plan
 
         pictures = [(folder / name, draw) for name, draw in plot_plan(result)]
-    check_reports(xlsx=xlsx, md=md, csv=csv, plots=plots, plot_files=[p.name for p, _ in pictures], force=force,
-                  inputs=inputs)
+    check_reports(xlsx=xlsx, md=md, csv=csv, html=html, plots=plots, plot_files=[p.name for p, _ in pictures],
+                  force=force, inputs=inputs)
     with FileSet(force) as files:
         if folder is not None:
             files.make_folder(folder)

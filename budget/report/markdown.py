@@ -25,6 +25,15 @@ def num(x: float | int | None) -> str:
     return fmt(x, 6)
 
 
+ZERO_TO_ROUNDING = 1e-9
+"""An estimate smaller than this fraction of its u is zero to rounding and printed as 0 (no ``-3.55e-14``)."""
+
+
+def num_near(x: float, u: float) -> str:
+    """:func:`num`, but 0 for a value that is zero to rounding next to its uncertainty ``u``."""
+    return "0" if u > 0 and abs(x) < ZERO_TO_ROUNDING * u else num(x)
+
+
 _MD_ESCAPES = str.maketrans({"\\": "\\\\", "|": "\\|", "`": "\\`", "<": "&lt;", ">": "&gt;", "\r": " ", "\n": " "})
 _MD_LINKS = re.compile(r"\](?=[(\[:])|!(?=\[)")
 """A closing bracket that would make a link or a reference, and the mark of an image."""
@@ -71,7 +80,7 @@ def _results(ob: OutputBudget) -> list[str]:
     lin, mc, u = ob.linear, ob.monte_carlo, ob.unit
     pct = f"{100 * lin.p:g} %"
     rows = [
-        (f"estimate [{u}]", num(lin.estimate), num(mc.estimate)),
+        (f"estimate [{u}]", num_near(lin.estimate, lin.u), num_near(mc.estimate, mc.u)),
         (f"standard uncertainty [{u}]", num(lin.u), num(mc.u)),
         (f"u with second-order terms [{u}]", num(ob.u_second_order), "—"),
         ("ν_eff", num(lin.nu_eff), "—"),

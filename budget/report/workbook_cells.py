@@ -16,7 +16,7 @@ from openpyxl.utils import get_column_letter
 from budget.report.safe_write import set_text
 
 __all__ = ["INF_TEXT", "FMT", "text", "number", "formula", "header_row", "title", "set_widths", "dof_cell",
-           "print_setup", "fit_row_heights"]
+           "fit_row_heights"]
 
 INF_TEXT = "∞"
 """How an infinite number of degrees of freedom is written in a cell.
@@ -125,17 +125,6 @@ def set_widths(ws, widths: dict[int, float] | None = None, lo: float = 8, hi: fl
         widths.setdefault(col, min(hi, max(lo, n + 2)))
     for col, w in widths.items():
         ws.column_dimensions[get_column_letter(col)].width = w
-
-
-def print_setup(ws, title_rows: str | None = "1:1") -> None:
-    """Landscape, fitted to the page width, with the header row repeated on every page."""
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.paperSize = ws.PAPERSIZE_A4
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    if title_rows:
-        ws.print_title_rows = title_rows
 
 
 LINE_PT = 15.0

@@ -18,8 +18,10 @@ from budget.results import RunResult
 
 __all__ = ["write_monte_carlo_sheet"]
 
-_HIST_COL, _PARETO_COL, _CHART_COL = 1, 8, "M"
+_HIST_COL, _PARETO_COL, _CHART_COL = 1, 8, "L"
 _CHART_ROWS = 18
+CHART_CM = (10.5, 8.5)
+"""Width and height of each chart: the table and one chart beside it fit a page width at 8 pt or more."""
 
 
 def _results(ws, r: int, b: BudgetBlock, seed: object) -> int:
@@ -101,7 +103,7 @@ def _hist_chart(ws, b: BudgetBlock, first: int, last: int, anchor: str) -> None:
     ch.set_categories(Reference(ws, min_col=3, min_row=first, max_row=last))
     ch.x_axis.number_format = "0.0000"
     _show_axes(ch)
-    ch.width, ch.height = 18, 8.5
+    ch.width, ch.height = CHART_CM
     ws.add_chart(ch, anchor)
 
 
@@ -141,7 +143,7 @@ def _pareto_chart(ws, b: BudgetBlock, first: int, last: int, anchor: str) -> Non
     _show_axes(bars)
     _show_axes(line)
     bars += line
-    bars.width, bars.height = 18, 8.5
+    bars.width, bars.height = CHART_CM
     ws.add_chart(bars, anchor)
 
 
@@ -166,4 +168,4 @@ def write_monte_carlo_sheet(wb, result: RunResult, blocks: list[BudgetBlock]) ->
         _pareto_chart(ws, b, p_first, p_last, f"{_CHART_COL}{start + _CHART_ROWS}")
         r = max(r, start + 2 * _CHART_ROWS + 2)
     ws.freeze_panes = "A2"
-    set_widths(ws, {1: 16, 2: 16, 3: 16, 4: 16, 5: 18, 6: 10, 7: 3, 8: 24, 9: 16, 10: 12, 11: 12})
+    set_widths(ws, {1: 14, 2: 12, 3: 12, 4: 14, 5: 14, 6: 9, 7: 3, 8: 15, 9: 12, 10: 10, 11: 10})

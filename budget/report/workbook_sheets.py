@@ -21,17 +21,27 @@ from budget.report.workbook_cells import (
 from budget.report.workbook_data import lack_of_fit_rows, write_data_rows, write_reference_rows
 from budget.results import RunResult
 
-__all__ = ["write_summary_sheet", "write_inputs_sheet", "STANDARDS", "SUMMARY_COLUMNS"]
+__all__ = ["write_summary_sheet", "write_inputs_sheet", "write_results_sheet", "RESULTS_COLUMNS", "STANDARDS",
+           "SUMMARY_COLUMNS"]
 
 STANDARDS = ("JCGM 100:2008 (GUM): law of propagation of uncertainty, Welch–Satterthwaite, coverage factor; "
              "JCGM 101:2008 (GUM Supplement 1): Monte Carlo propagation of distributions and, in its "
              "clause 8, the validation of the linear method")
 SUMMARY_COLUMNS = [
     "output", "result (JCGM 100 7.2.6 rounding)", "result method", "estimate y", "unit", "u_c", "ν_eff", "k",
-    "U", "Monte Carlo u(y)", "symmetric interval low", "symmetric interval high", "shortest interval low",
-    "shortest interval high", "trials", "clause 8 verdict (JCGM 101)", "linear statement (JCGM 100)",
-    "Monte Carlo statement (JCGM 101)",
+    "U", "Monte Carlo u(y)", "symmetric interval low", "symmetric interval high", "trials",
+    "clause 8 verdict (JCGM 101)",
 ]
+"""The Summary's result columns; the shortest intervals and both methods' statements are on Results."""
+RESULTS_COLUMNS = [
+    ("output", "output"), ("unit", "unit"), ("method", "result method"), ("estimate", "estimate"),
+    ("u", "u"), ("low", "interval low"), ("high", "interval high"), ("U", "linear U"), ("k", "k"),
+    ("nu_eff", "ν_eff"), ("mc_low", "MC symmetric low"), ("mc_high", "MC symmetric high"),
+    ("shortest_low", "MC shortest low"), ("shortest_high", "MC shortest high"), ("trials", "trials"),
+    ("statement", "result statement"), ("linear_statement", "linear statement (JCGM 100)"),
+    ("mc_statement", "Monte Carlo statement (JCGM 101)"),
+]
+"""(field, header) of the values-only Results sheet: the result's estimate, u and interval by its method."""
 _HOW_TO_READ = (
     "Budget has one block per output, one row per component. Every input quantity's value, divisor and ν_i "
     "is on Quantities, each sensitivity c_i on Detail: change one and u(x_i), the contributions, u_c, ν_eff, k "
@@ -79,8 +89,8 @@ def write_summary_sheet(ws, result: RunResult, blocks: list[BudgetBlock]) -> Non
     r = _components(ws, r, result)
     _warnings(ws, r, result)
     ws.freeze_panes = "B4"
-    set_widths(ws, {1: 30, 2: 48, 3: 13, 4: 13, 5: 6, 6: 12, 7: 7, 8: 7, 9: 12, 10: 12, 11: 13, 12: 13,
-                    13: 13, 14: 13, 15: 10, 16: 70, 17: 48, 18: 60})
+    set_widths(ws, {1: 26, 2: 34, 3: 12, 4: 12, 5: 6, 6: 11, 7: 7, 8: 6, 9: 11, 10: 11, 11: 12, 12: 12,
+                    13: 9, 14: 40})
 
 
 def _result_row(ws, r: int, b: BudgetBlock) -> None:
@@ -95,12 +105,10 @@ def _result_row(ws, r: int, b: BudgetBlock) -> None:
     formula(ws, r, 8, f"={b.address('k', 'Budget')}", FMT["k"])
     formula(ws, r, 9, f"={b.address('U', 'Budget')}", FMT["u"])
     number(ws, r, 10, mc.u, FMT["u"])
-    for j, v in enumerate((*mc.interval, *mc.shortest), start=11):
+    for j, v in enumerate(mc.interval, start=11):
         number(ws, r, j, v, FMT["estimate"])
-    number(ws, r, 15, mc.trials, FMT["count"])
-    text(ws, r, 16, ob.validation.verdict()).alignment = WRAP
-    text(ws, r, 17, ob.statement).alignment = WRAP
-    text(ws, r, 18, ob.mc_statement).alignment = WRAP
+    number(ws, r, 13, mc.trials, FMT["count"])
+    text(ws, r, 14, ob.validation.verdict()).alignment = WRAP
 
 
 def _sweep_rows(ws, r: int, result: RunResult) -> int:
@@ -222,3 +230,24 @@ def write_inputs_sheet(ws, result: RunResult) -> None:
         text(ws, r, 1, "no rig description was recorded", NOTE)
     ws.freeze_panes = "B2"
     set_widths(ws, {1: 26, 2: 40})
+
+
+def write_results_sheet(ws, result: RunResult) -> None:
+    """The results as values only (numbers and text, no formulas): readable by any viewer or pandas."""
+    from budget.dataframes import summary_rows
+
+    header_row(ws, 1, [h for _, h in RESULTS_COLUMNS])
+    for r, (row, ob) in enumerate(zip(summary_rows(result), result.outputs, strict=True), start=2):
+        row = {**row, "shortest_low": ob.monte_carlo.shortest[0], "shortest_high": ob.monte_carlo.shortest[1],
+               "linear_statement": ob.statement, "mc_statement": ob.mc_statement}
+        for j, (key, _) in enumerate(RESULTS_COLUMNS, start=1):
+            v = row[key]
+            if isinstance(v, str):
+                cell = text(ws, r, j, v)
+                if key.endswith("statement"):
+                    cell.alignment = WRAP
+            else:
+                number(ws, r, j, v, FMT["count"] if key == "trials" else None)
+    ws.freeze_panes = "B2"
+    set_widths(ws, {1: 10, 2: 5, 3: 11, **{j: 11 for j in range(4, 15)}, 9: 6, 10: 6, 15: 7, 16: 30, 17: 30,
+                    18: 30})

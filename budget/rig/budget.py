@@ -285,6 +285,8 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != checks.NONLINEARITY},
         assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
+        covariance_names=tuple(lin.names), covariance_linear=np.array(lin.covariance),
+        covariance_mc=np.array(mc.covariance)[np.ix_(*[[mc.names.index(n) for n in lin.names]] * 2)],
     )
 
 

@@ -120,6 +120,10 @@ def test_a_biased_rig_puts_its_readings_in_the_guard_band():
     from budget.report.markdown import render_markdown
 
     assert "in the guard band" in render_run(res) and "GUARD BAND" in render_markdown(res)
+    from budget.report.html import render_html
+
+    html = render_html(res, with_plots=False)
+    assert "(in the guard band)" in html and "Decision rule and verdicts" in html and "7.8.6" in html
 
 
 def test_linear_envelope_is_the_linear_programme_optimum():

@@ -33,7 +33,19 @@ def test_choose_text_json_xlsx_and_plot(tmp_path, capsys):
     assert (plots / "choice_U_vs_pixels.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     from openpyxl import load_workbook
 
-    assert load_workbook(xlsx)["choice"].max_row == 2 + doc["candidates"]
+    book = load_workbook(xlsx)
+    assert book["choice"].max_row == 2 + doc["candidates"]  # title, header row, one row per candidate
+    # provenance, printing and recalculation as the budget workbook has them (issue 12)
+    from budget.inputs.data_csv import sha256_of
+
+    prov = [c.value for row in book["Provenance"].iter_rows() for c in row if c.value is not None]
+    assert sha256_of(CHOOSE) in prov and "camera list SHA-256" in prov
+    assert book.calculation.fullCalcOnLoad is True
+    for ws in book.worksheets:  # one page wide, or (too many columns for 8 pt) full size with A:C repeated
+        assert ws.page_setup.orientation == "landscape" and ws.print_title_rows
+        fits = ws.sheet_properties.pageSetUpPr.fitToPage and ws.page_setup.fitToWidth == 1
+        assert fits or (ws.page_setup.scale == 100 and ws.print_title_cols == "$A:$C"), ws.title
+        assert sha256_of(CHOOSE) in ws.oddFooter.left.text and "&P" in ws.oddFooter.center.text
     # never replaced without --force; nothing written on refusal
     before = xlsx.stat().st_mtime_ns
     assert main(["choose", CHOOSE, "--xlsx", str(xlsx)]) == 2

@@ -63,12 +63,12 @@ def parse_markdown(md: str) -> dict[str, dict]:
     return sections
 
 
-def same(md_value, json_value) -> bool:
+def same(md_value, json_value, abs_tol: float = 1e-300) -> bool:
     if json_value is None:  # JSON null: infinite ν, or not applicable
         return md_value in (math.inf, None)
     if isinstance(json_value, list):
         return len(json_value) == 2 and all(same(a, b) for a, b in zip(md_value, json_value, strict=True))
-    return math.isclose(md_value, json_value, rel_tol=REL, abs_tol=1e-300)
+    return math.isclose(md_value, json_value, rel_tol=REL, abs_tol=abs_tol)
 
 
 def check_output(section: dict, record: dict, s: str) -> None:
@@ -84,7 +84,9 @@ def check_output(section: dict, record: dict, s: str) -> None:
         assert same(_cell(row[8]), c[f"monte_carlo_u{s}"]), c["name"]
     res = {r[0].split(" [")[0]: (_cell(r[1]), _cell(r[2])) for r in results[1:]}
     lin, mc = record["linear"], record["monte_carlo"]
-    assert same(res["estimate"][0], lin[f"estimate{s}"]) and same(res["estimate"][1], mc[f"estimate{s}"])
+    # an estimate zero to rounding (below 1e-9 u) prints as 0 (issue 12)
+    assert same(res["estimate"][0], lin[f"estimate{s}"], 1e-9 * lin[f"u{s}"])
+    assert same(res["estimate"][1], mc[f"estimate{s}"], 1e-9 * mc[f"u{s}"])
     assert same(res["standard uncertainty"][0], lin[f"u{s}"]) and same(res["standard uncertainty"][1], mc[f"u{s}"])
     assert same(res["u with second-order terms"][0], lin[f"u_second_order{s}"])
     assert same(res["ν_eff"][0], lin["nu_eff"])
@@ -110,7 +112,7 @@ def test_markdown_numbers_equal_the_json(request, name):
         check_output(sections[result.gain.label], gain, "")
         inter = sections[result.gain_summary.intercept.label]["tables"][1]
         res = {r[0].split(" [")[0]: (_cell(r[1]), _cell(r[2])) for r in inter[1:]}
-        assert same(res["estimate"][0], gain["intercept"]["estimate_deg"])
+        assert same(res["estimate"][0], gain["intercept"]["estimate_deg"], 1e-9 * gain["intercept"]["u_deg"])
         assert same(res["standard uncertainty"][0], gain["intercept"]["u_deg"])
         assert same(res["standard uncertainty"][1], gain["intercept"]["monte_carlo_u_deg"])
         sweep = {r[0]: _cell(r[1]) for r in sections["Sweep: gain and intercept"]["tables"][0][1:]}
@@ -152,3 +154,26 @@ def test_csv_rows_are_the_engine_numbers_unrounded(request, name):
                 assert _num(r[key]) == value, (ob.name, c.name, key)  # exactly: repr round-trips
             assert int(r["n_inputs"]) == len(c.inputs) == len(r["inputs"].split())
             assert r["result_method"] == ob.method
+
+
+def test_csv_rows_carry_the_result_method_mc_interval_and_statement_numbers(sweep):
+    """The CSV said the result is the Monte Carlo one but carried only the linear U (issue 12): each row now
+    carries the result's interval, the Monte Carlo intervals and the numbers of the rounded statement."""
+    import csv as _csv
+    import io as _io
+
+    from budget.report.csvout import render_csv
+
+    rows = list(_csv.DictReader(_io.StringIO(render_csv(sweep))))
+    by_output = {ob.name: ob for ob in sweep.outputs}
+    for row in rows:
+        ob = by_output[row["output"]]
+        mc = ob.monte_carlo
+        assert (float(row["mc_low"]), float(row["mc_high"])) == mc.interval
+        assert (float(row["mc_shortest_low"]), float(row["mc_shortest_high"])) == mc.shortest
+        assert (float(row["result_low"]), float(row["result_high"])) == ob.result_interval
+        assert row["result_method"] == ob.method and row["statement"] == ob.result_statement
+        stated = [row[f"stated_{k}"] for k in ("estimate", "u", "U", "low", "high") if row[f"stated_{k}"]]
+        assert stated and all(v in row["statement"] for v in stated)
+        if ob.method != "linear":
+            assert (row["result_low"], row["result_high"]) == (row["mc_low"], row["mc_high"])

@@ -1,0 +1,54 @@
+"""The Python API: ``budget.run(rig)`` gives the same :class:`~budget.results.RunResult` as ``thetabudget run``.
+
+It reads the rig file (and the measured data it names), runs both methods, and adds the file's goal
+verdicts, conformity decisions and range claim, as the command does. Reports and DataFrames read the
+result (:meth:`RunResult.summary`, :meth:`RunResult.table`, :meth:`RunResult.to_ufloats`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from pathlib import Path
+
+__all__ = ["run"]
+
+
+def run(rig, *, seed: int | None = None, trials: int | None = None, p: float = 0.95):
+    """Run a rig's full budget by both methods.
+
+    Parameters
+    ----------
+    rig : str, Path or RigDescription
+        A rig file's path, or a rig already read (:func:`budget.inputs.rig_file.load_rig`); a rig that
+        names measured data must be given as a path (its data file is read relative to it).
+    seed : int, optional
+        Seed of the random generator; None draws one (recorded in ``result.seed``, short enough to retype).
+    trials : int, optional
+        Fixed Monte Carlo trials; None runs the adaptive procedure (JCGM 101 7.9).
+    p : float
+        Coverage probability (default 0.95); a rig with a ``[goal]`` p needs the same value here.
+
+    Returns
+    -------
+    RunResult
+    """
+    from budget.advice.range_claim import claim_for_range
+    from budget.advice.targets import run_p, with_verdicts
+    from budget.commands.common import make_rng
+    from budget.inputs.data_csv import read_rig_data
+    from budget.inputs.rig_file import load_rig
+    from budget.propagation.lpu import check_p
+    from budget.rig.budget import run_budget
+    from budget.rig.evaluation import load_evaluation
+
+    path = None
+    if isinstance(rig, str | Path):
+        path = Path(rig)
+        rig = load_rig(path)
+    ev = load_evaluation(rig, read_rig_data(rig))
+    rng = make_rng(seed)
+    result = run_budget(ev.rig, rng=rng, p=run_p(check_p(p), rig), trials=trials, input_path=path or "", evaluation=ev)
+    result = with_verdicts(rig, result)
+    if rig.range_claim is not None:
+        result = replace(result, range_claim=claim_for_range(ev.rig, result, rng=rng, trials=trials))
+    return result
