@@ -275,6 +275,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             warns.append(f"{ob.label}: E_n = {ref.E_n:+.2f} against the reference {ref.angle_deg:g}° "
                          f"(U_ref = {ref.U_deg:g}°, {ref.source}): |E_n| > 1, the measurement and the reference "
                          "disagree beyond their expanded uncertainties (ISO 13528).")
+    reported = [n for n in lin.names if n in nominal]  # not the model's helper outputs (shared terms, discrepancy)
     path = Path(input_path) if input_path else None
     sha = hashlib.sha256(path.read_bytes()).hexdigest() if path and path.is_file() else ""
     return RunResult(
@@ -285,8 +286,9 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != checks.NONLINEARITY},
         assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
-        covariance_names=tuple(lin.names), covariance_linear=np.array(lin.covariance),
-        covariance_mc=np.array(mc.covariance)[np.ix_(*[[mc.names.index(n) for n in lin.names]] * 2)],
+        covariance_names=tuple(reported),
+        covariance_linear=np.array(lin.covariance)[np.ix_(*[[lin.names.index(n) for n in reported]] * 2)],
+        covariance_mc=np.array(mc.covariance)[np.ix_(*[[mc.names.index(n) for n in reported]] * 2)],
     )
 
 
