@@ -1,18 +1,32 @@
 """Self-test of the engine against published reference cases.
 
 Each case lives in one TOML file under ``references/`` (JCGM 101:2008 clause 9
-examples, JCGM 100:2008 Table G.2, G.4.1 and H.1) with its citation, its mark
-([seen], [memory] or [derived], see the file's ``mark``), the inputs, and the
-expected values with an absolute tolerance and the reason for it. This module
-reads the files, runs the engine and returns one :class:`CheckRow` per
-expected value; presenting the rows is the caller's job.
+examples, JCGM 100:2008 Table G.2, G.4.1 and H.1) with its citation, the inputs,
+and the expected values with an absolute tolerance and the reason for it.
+
+Every expected value carries its provenance (``mark``), one of :data:`MARKS`:
+
+``checked``
+    read in the text of the source; ``checked_against`` says where (document,
+    clause, table or page).
+``recalled``
+    recalled from memory and not verified against the text.
+``derived``
+    computed exactly from the case's stated inputs; the numbers (and every
+    tolerance that rests on a Monte Carlo standard error) are recomputed by
+    ``tools/reference_tolerances.py``.
+
+The file-level ``mark`` says the same of the case's inputs (model and input
+distributions). This module reads the files, runs the engine and returns one
+:class:`CheckRow` per expected value, with its provenance in words; presenting
+the rows is the caller's job.
 """
 
 from __future__ import annotations
 
 import math
 import tomllib
-from collections.abc import Callable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from importlib.abc import Traversable
 from pathlib import Path
@@ -20,97 +34,17 @@ from pathlib import Path
 import numpy as np
 
 from budget.errors import BudgetInputError, field_error
-from budget.propagation import (
-    Arcsine,
-    CurvilinearTrapezoid,
-    Normal,
-    Rectangular,
-    StudentT,
-    Trapezoidal,
-    Triangular,
-    linear,
-    monte_carlo,
-    validate,
-)
+from budget.propagation import linear, monte_carlo, validate
+from budget.reference_models import DISTRIBUTIONS as _DISTRIBUTIONS
+from budget.reference_models import MODELS
+from budget.reference_models import SD_FACTOR as _SD_FACTOR
 
-__all__ = ["Citation", "Expected", "Case", "CheckRow", "MODELS", "default_folder",
+__all__ = ["Citation", "Expected", "Case", "CheckRow", "MODELS", "MARKS", "default_folder",
            "load_case", "load_cases", "case_inputs", "run_case", "run_cases"]
 
 
-# --- measurement models named by the case files ---------------------------------------------
-
-def _sum(**x: np.ndarray) -> np.ndarray:
-    """Y = X1 + ... + XN (JCGM 101 9.2, the additive model)."""
-    return sum(x.values())
-
-
-def _identity(**x: np.ndarray) -> np.ndarray:
-    """Y = X for one input: u_c and ν_eff are those of the input (JCGM 100 Table G.2 cases)."""
-    (value,) = x.values()
-    return value
-
-
-def _product_percent(**x: np.ndarray) -> np.ndarray:
-    """Y = 100·X1·X2·…·XN: with estimates 1 the output is in percent of its estimate.
-
-    Notes
-    -----
-    JCGM 100 G.4.1 example, Y = b·X1·X2·X3, whose relative uncertainties combine
-    in quadrature (JCGM 100 5.1.6).
-    """
-    out = 100.0
-    for v in x.values():
-        out = out * v
-    return out
-
-
-def _mass_calibration(m_rc: np.ndarray, dm_rc: np.ndarray, rho_a: np.ndarray,
-                      rho_w: np.ndarray, rho_r: np.ndarray) -> np.ndarray:
-    """δm = (m_Rc + δm_Rc)(1 + (ρa − ρa0)(1/ρW − 1/ρR)) − m_nom, in mg.
-
-    Notes
-    -----
-    JCGM 101:2008 9.3 (model recalled from memory): m_nom = 100 g = 10⁵ mg,
-    ρa0 = 1.2 kg/m³; masses in mg, densities in kg/m³.
-    """
-    m_nom_mg = 100_000.0
-    rho_a0 = 1.2
-    return (m_rc + dm_rc) * (1.0 + (rho_a - rho_a0) * (1.0 / rho_w - 1.0 / rho_r)) - m_nom_mg
-
-
-def _end_gauge(l_s: np.ndarray, d: np.ndarray, alpha_s: np.ndarray, theta_mean: np.ndarray,
-               theta_cyclic: np.ndarray, delta_alpha: np.ndarray,
-               delta_theta: np.ndarray) -> np.ndarray:
-    """l = l_s + d − l_s(δα·θ + α_s·δθ), θ = θ̄ + Δ, lengths in nm.
-
-    Notes
-    -----
-    JCGM 100:2008 H.1, the approximate model (H.3) with θ the deviation from
-    20 °C split into its mean θ̄ and the cyclic variation Δ (inputs reconstructed
-    from memory, see the case file).
-    """
-    theta = theta_mean + theta_cyclic
-    return l_s + d - l_s * (delta_alpha * theta + alpha_s * delta_theta)
-
-
-MODELS: dict[str, Callable[..., np.ndarray]] = {
-    "sum": _sum,
-    "identity": _identity,
-    "product_percent": _product_percent,
-    "mass_calibration": _mass_calibration,
-    "end_gauge": _end_gauge,
-}
-"""Model functions a case file may name in its ``model`` key."""
-
-_DISTRIBUTIONS = {
-    "Normal": Normal, "Rectangular": Rectangular, "Triangular": Triangular,
-    "Trapezoidal": Trapezoidal, "CurvilinearTrapezoid": CurvilinearTrapezoid,
-    "Arcsine": Arcsine, "StudentT": StudentT,
-}
-_SD_FACTOR = {"Rectangular": math.sqrt(3.0), "Triangular": math.sqrt(6.0), "Arcsine": math.sqrt(2.0)}
-"""Half-width over sd (JCGM 101 6.4.2, 6.4.4, 6.4.6): lets a file state a symmetric
-distribution by its mean and sd, as JCGM 101 9.2 does."""
-
+MARKS = ("checked", "recalled", "derived")
+"""Allowed provenance marks of a reference value (see the module docstring)."""
 
 # --- data ------------------------------------------------------------------------------------
 
@@ -128,7 +62,7 @@ class Citation:
 
 @dataclass(frozen=True)
 class Expected:
-    """One published (or derived) value of a case, with its absolute tolerance."""
+    """One reference value of a case (checked, recalled or derived), with its absolute tolerance."""
 
     quantity: str
     value: float | bool
@@ -137,6 +71,16 @@ class Expected:
     mark: str
     n_dig: int | None = None
     interval: str | None = None
+    checked_against: str = ""
+
+    @property
+    def provenance(self) -> str:
+        """The mark in words, as the self-test prints it."""
+        if self.mark == "checked":
+            return f"checked against {self.checked_against}"
+        if self.mark == "recalled":
+            return "recalled from memory, unverified"
+        return "derived from the stated inputs"
 
 
 @dataclass(frozen=True)
@@ -164,11 +108,12 @@ class CheckRow:
     case_id: str
     source: str
     quantity: str
-    published: float | bool
+    reference: float | bool
     computed: float | bool
     tolerance: float
     passed: bool
     mark: str = ""
+    provenance: str = ""
 
 
 def default_folder():
@@ -228,18 +173,28 @@ def load_case(path: Path | str | Traversable) -> Case:
         if not (math.isfinite(tol) and tol >= 0):
             raise field_error("tolerance", "a number >= 0", tol, w)
         value = _need(e, "value", w)
+        mark = str(_need(e, "mark", w))
+        if mark not in MARKS:
+            raise field_error("mark", f"one of {list(MARKS)}", mark, w)
+        where_checked = str(e.get("checked_against", "")).strip()
+        if mark == "checked" and not where_checked:
+            raise field_error("checked_against", "the document, clause and table read",
+                              None, w)
         expected.append(Expected(
             quantity=str(_need(e, "quantity", w)),
             value=value if isinstance(value, bool) else float(value),
             tolerance=tol, tolerance_reason=str(_need(e, "tolerance_reason", w)),
-            mark=str(e.get("mark", data.get("mark", ""))), n_dig=e.get("n_dig"),
-            interval=e.get("interval"),
+            mark=mark, n_dig=e.get("n_dig"), interval=e.get("interval"),
+            checked_against=where_checked,
         ))
+    case_mark = str(_need(data, "mark", where))
+    if case_mark not in MARKS:
+        raise field_error("mark", f"one of {list(MARKS)}", case_mark, where)
     return Case(
         id=str(_need(data, "id", where)), title=str(data.get("title", "")),
         citation=Citation(str(cit.get("document", "")), str(cit.get("clause", "")),
                           str(cit.get("table", ""))),
-        mark=str(_need(data, "mark", where)), model=model, inputs=tuple(inputs),
+        mark=case_mark, model=model, inputs=tuple(inputs),
         p=float(_need(data, "p", where)), expected=tuple(expected),
         trials=mc.get("trials"), n_dig=n_dig, interval=str(mc.get("interval", "symmetric")),
         path=path,
@@ -371,8 +326,8 @@ def run_case(case: Case, *, rng: np.random.Generator) -> list[CheckRow]:
             passed = bool(float(got) == e.value or abs(float(got) - e.value) <= e.tolerance)
         label = e.quantity if e.n_dig is None else f"{e.quantity} (n_dig = {e.n_dig})"
         rows.append(CheckRow(case_id=case.id, source=str(case.citation), quantity=label,
-                             published=e.value, computed=got, tolerance=e.tolerance,
-                             passed=passed, mark=e.mark))
+                             reference=e.value, computed=got, tolerance=e.tolerance,
+                             passed=passed, mark=e.mark, provenance=e.provenance))
     return rows
 
 

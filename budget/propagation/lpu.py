@@ -157,15 +157,23 @@ def welch_satterthwaite(u_c: float, contributions: np.ndarray, dofs: np.ndarray)
     return float(math.floor(nu * (1.0 + WS_RTOL)))
 
 
-def _groups(
-    names: list[str], q: dict[str, InputQuantity], cu: np.ndarray, cov_share: np.ndarray,
-    dofs: np.ndarray, u_c2: float, rr: np.ndarray | None = None, joint: list[list[int]] | None = None,
-) -> tuple[GroupRow, ...]:
+def _group_index(names: list[str], q: dict[str, InputQuantity]) -> list[tuple[str, list[int], str, tuple, tuple]]:
+    """Each budget component once per call: (name, input indices, evaluation, input names, sources)."""
     order: dict[str, list[int]] = {}
     for i, nm in enumerate(names):
         order.setdefault(q[nm].group or nm, []).append(i)
+    return [(gname, idx, "A" if any(q[names[i]].evaluation == "A" for i in idx) else "B",
+             tuple(names[i] for i in idx),
+             tuple(dict.fromkeys(q[names[i]].source for i in idx if q[names[i]].source)))
+            for gname, idx in order.items()]
+
+
+def _groups(
+    index: list[tuple[str, list[int], str, tuple, tuple]], cu: np.ndarray, cov_share: np.ndarray,
+    dofs: np.ndarray, u_c2: float, rr: np.ndarray | None = None, joint: list[list[int]] | None = None,
+) -> tuple[GroupRow, ...]:
     out = []
-    for gname, idx in order.items():
+    for gname, idx, evaluation, inputs, sources in index:
         share = float(cov_share[np.ix_(idx, idx)].sum())
         contrib = math.sqrt(max(share, 0.0))
         gdof = _ws(contrib, cu, rr, dofs, joint or [], idx) if contrib > 0 else math.inf
@@ -176,9 +184,9 @@ def _groups(
                 contribution=contrib,
                 percent=100.0 * row_share / u_c2 if u_c2 > 0 else 0.0,
                 dof=gdof,
-                evaluation="A" if any(q[names[i]].evaluation == "A" for i in idx) else "B",
-                inputs=tuple(names[i] for i in idx),
-                sources=tuple(dict.fromkeys(q[names[i]].source for i in idx if q[names[i]].source)),
+                evaluation=evaluation,
+                inputs=inputs,
+                sources=sources,
             )
         )
     return tuple(out)
@@ -304,6 +312,11 @@ def linear(
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T
     results: dict[str, LinearResult] = {}
+    # What every output's rows share (JCGM 100 7.2.2 columns), once per input, not once per output.
+    fixed = [(nm, float(x0[i]), float(u[i]), float(dofs[i]), q[nm].group or nm, q[nm].evaluation or "B",
+              q[nm].distribution.describe(), q[nm].unit, q[nm].source, *map(float, q[nm].distribution.quoted))
+             for i, nm in enumerate(names)]
+    group_index = _group_index(names, q)
     for k, on in enumerate(out_names):
         c = jac[k]
         cu = c * u
@@ -330,33 +343,23 @@ def linear(
         note = _correlated_dof_note(names, r, dofs, joint, cu)
         if note:
             warn.append(note)
-        rows = []
-        zero: list[str] = []
-        for i, nm in enumerate(names):
-            qi = q[nm]
-            value, divisor = qi.distribution.quoted
-            share = float(cov_share[i, :].sum())
-            rows.append(
-                Row(
-                    name=nm, estimate=float(x0[i]), u=float(u[i]), sensitivity=float(c[i]),
-                    contribution=float(contributions[i]), dof=float(dofs[i]),
-                    percent=100.0 * share / u_c2 if u_c2 > 0 else 0.0,
-                    group=qi.group or nm, evaluation=qi.evaluation or "B",
-                    distribution=qi.distribution.describe(), unit=qi.unit, source=qi.source,
-                    value=float(value), divisor=float(divisor),
-                )
-            )
-            # u_c = 0 (every sensitivity zero, e.g. y = x² at x = 0) is the case that most
-            # needs the warning, so the comparison is <=, not guarded by u_c > 0.
-            if not second_order and contributions[i] <= NEGLIGIBLE * u_c:
-                zero.append(f"'{nm}'")
+        # row_share_i = Σ_j of row i of cov_share, and the percent, for every input at once; the
+        # columns no output changes come from ``fixed``.
+        percent = (100.0 * cov_share.sum(axis=1) / u_c2).tolist() if u_c2 > 0 else [0.0] * n_in
+        rows = [Row(name=nm, estimate=est, u=ui, sensitivity=ci, contribution=con, dof=dof, percent=pc,
+                    group=grp, evaluation=ev, distribution=dist, unit=unit, source=src, value=val, divisor=div)
+                for (nm, est, ui, dof, grp, ev, dist, unit, src, val, div), ci, con, pc
+                in zip(fixed, c.tolist(), contributions.tolist(), percent, strict=True)]
+        # u_c = 0 (every sensitivity zero, e.g. y = x² at x = 0) is the case that most needs the
+        # warning, so the comparison is <=, not guarded by u_c > 0.
+        zero = [] if second_order else [f"'{names[i]}'" for i in np.flatnonzero(contributions <= NEGLIGIBLE * u_c)]
         if zero:
             which = f"Input {zero[0]} has" if len(zero) == 1 else f"Inputs {', '.join(zero)} have"
             warn.append(
                 f"{which} zero first-order sensitivity at the estimate for output '{on}': the "
                 "linear method misses their effect; compare with Monte Carlo (JCGM 101 clause 8)."
             )
-        groups = _groups(names, q, cu, cov_share, dofs, u_c2, r, joint)
+        groups = _groups(group_index, cu, cov_share, dofs, u_c2, r, joint)
         for g in groups:
             if g.percent > 90.0 and len(groups) > 1:
                 warn.append(f"Component '{g.name}' carries {g.percent:.0f} % of the variance of '{on}'.")

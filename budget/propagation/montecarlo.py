@@ -171,6 +171,7 @@ class _Sampler:
             if i not in self.corr_idx and type(d) in (Normal, Rectangular):
                 (self.normal if type(d) is Normal else self.uniform).append(i)
         self.loc = np.array([[self.dists[i].mean] for i in self.normal])
+        self.centred = not np.any(self.loc)  # every normal input has mean 0: μ + σz is σz, nothing to add
         self.scale = np.array([[self.dists[i].sd] for i in self.normal])
         self.low = np.array([[self.dists[i].low] for i in self.uniform])
         self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
@@ -185,7 +186,8 @@ class _Sampler:
         if self.normal:
             z = rng.standard_normal(size=(len(self.normal), size))
             z *= self.scale
-            z += self.loc
+            if not self.centred:
+                z += self.loc
             out.update((self.names[i], row) for i, row in zip(self.normal, z, strict=True))
         if self.uniform:
             u = rng.random(size=(len(self.uniform), size))

@@ -169,7 +169,7 @@ def nonlinearity_per_trial(rig: RigDescription) -> Callable[[dict[str, np.ndarra
     names = [f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))]
 
     def per_trial(out: dict[str, np.ndarray]) -> np.ndarray:
-        y = np.column_stack([out[k] for k in names])
+        y = np.stack([out[k] for k in names]).T  # (trials, points), each point a contiguous row beneath
         _, _, res = ols_batch_residuals(x, y)
         return 100.0 * np.max(np.abs(res), axis=1) / np.ptp(y, axis=1)
 

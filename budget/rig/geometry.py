@@ -36,7 +36,8 @@ import numpy as np
 from budget.rig.description import RigDescription
 from budget.rig.pivot import fit_circle
 
-__all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "principal_point",
+__all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "reading_image_points",
+           "principal_point",
            "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg",
            "screen_angles_deg", "true_pivot_image"]
 
@@ -162,13 +163,9 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     x = np.repeat(r_mm * np.cos(dial), t, axis=1)
     y = np.repeat(r_mm * np.sin(dial), t, axis=1)
     if reading_deg is not None:  # only the readings move from trial to trial
-        moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
-        x[1:1 + n_read] = r_mm * np.cos(moved)
-        y[1:1 + n_read] = r_mm * np.sin(moved)
-    if zero_deg is not None:
-        moved0 = np.radians(g.zero_direction_deg + travel_sign(rig) * zero_deg)
-        x[0] = r_mm * np.cos(moved0)
-        y[0] = r_mm * np.sin(moved0)
+        x[1:1 + n_read], y[1:1 + n_read] = _reading_dial_xy(rig, reading_deg)
+    if zero_deg is not None:  # the pointer's rest in the zero image (its repeatability)
+        x[0], y[0] = _reading_dial_xy(rig, zero_deg)
     if shift_mm is not None:
         x += shift_mm[0]
         y += shift_mm[1]
@@ -178,6 +175,33 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
         y[-1] = kw.get("mark_offset_y_mm", 0.0)
         z = np.broadcast_to(h, x.shape).copy()
         z[-1] = 0.0
+    return _dial_to_image(rig, kw, t, x, y, z)
+
+
+def reading_image_points(rig: RigDescription, kw: dict, t: int, reading_deg: np.ndarray
+                         ) -> tuple[np.ndarray, np.ndarray]:
+    """Image coordinates of some readings alone, (k, T) each, for reading angles ``reading_deg`` (k, T).
+
+    Row for row the same arithmetic as the readings' rows of :func:`image_points` with the same
+    ``kw`` (the virtual rig uses it to project only the readings that move when the geometric
+    inputs are held: ``kw`` then holds one trial, t = 1, and broadcasts over the readings' T).
+    """
+    x, y = _reading_dial_xy(rig, reading_deg)
+    h = kw.get("target_height_mm", np.full(t, rig.geometry.target_height_mm))
+    return _dial_to_image(rig, kw, t, x, y, h)
+
+
+def _reading_dial_xy(rig: RigDescription, reading_deg: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Dial-plane x, y (mm) of the pointer tip at reading angles ``reading_deg``."""
+    g = rig.geometry
+    moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
+    return g.pointer_radius_mm * np.cos(moved), g.pointer_radius_mm * np.sin(moved)
+
+
+def _dial_to_image(rig: RigDescription, kw: dict, t: int, x: np.ndarray, y: np.ndarray, z: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """Dial points (mm) tilted, offset, projected and distorted into image coordinates (px)."""
+    g = rig.geometry
     wx, wy = tilt_vector(rig, kw, t)
     xr, yr, zr = rotate_tilt(x, y, z, wx, wy)
     xr += g.pivot_offset_x_mm
@@ -213,7 +237,8 @@ def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.nda
     not shifted by 180° and back.
     """
     d = angle_deg - nominal_deg
-    d -= 360.0 * np.round(d / 360.0)
+    if not np.abs(d).max(initial=0.0) <= 180.0:  # a turn to remove somewhere (else every turn is 0)
+        d -= 360.0 * np.round(d / 360.0)
     return nominal_deg + d
 
 

@@ -17,17 +17,32 @@ import numpy as np
 from budget.fit import ols_batch
 from budget.rig.description import RigDescription, point_labels
 from budget.rig.evaluation import as_point_scatter
-from budget.rig.geometry import dial_angles_deg, image_points, principal_point, reading_angles_deg, true_pivot_image
+from budget.rig.geometry import (
+    dial_angles_deg,
+    image_points,
+    principal_point,
+    reading_angles_deg,
+    reading_image_points,
+    true_pivot_image,
+)
 from budget.rig.source import shared_names
 
 __all__ = ["VirtualRig"]
 
 
 def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
-    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous)."""
+    """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous).
+
+    An input held at exactly zero in every trial (a broadcast view of 0.0, as the linear method
+    and the one-component Monte Carlo pass a zero-mean error they do not move) adds nothing and
+    is skipped.
+    """
     for row, key in keys:
         if key in kw:
-            arr[row] += kw[key] * scale if scale != 1.0 else kw[key]
+            a = kw[key]
+            if a.strides == (0,) and a[0] == 0.0:
+                continue
+            arr[row] += a * scale if scale != 1.0 else a
 
 
 class VirtualRig:
@@ -67,15 +82,31 @@ class VirtualRig:
                           for ax in ("x", "y") for kind in ("quant", "lock", "noise", "fpn", "resid", "play")}
         self.pointer_rows = {kind: [(i, f"{kind}_deg_P{i + 1}") for i in readings] for kind in ("repeat", "settle")}
         self.mount_px = rig.magnification / self.pitch_mm * 1e-3  # px in the image per µm at the dial
+        # Inputs that move the pointer or its pivot on the dial (they shape the image); the fast path of
+        # :meth:`_image` holds them at zero only.
+        self.pointer_keys = {key for rows in self.pointer_rows.values() for _, key in rows} | {"repeat_deg_Z"} | {
+            key for ax in ("x", "y") for _, key in self.per_point[ax, "play"]}
+        # Inputs that enter only after the image is formed (locator errors, timing, the meter's
+        # readings, the fit's misfit, the zero image's roll and shift), and the reading each per-reading
+        # source input moves: what :meth:`_image` may hold when the rest is held.
+        located = {key for (_, kind), keys in self.per_point.items() if kind != "play" for _, key in keys}
+        self.after_image = located | set(self.directions) | {
+            key for name in ("jitter_ms", "dmm_res_mv") for _, key in self.per_reading[name]} | {
+            f"misfit_P{i + 1}" for i in readings} | {"misfit_new", "dmm_gain_pct", "dmm_offset_mv", "roll_deg",
+                                                     "mount_roll_deg", "mount_shift_x_um", "mount_shift_y_um"}
+        self.reading_of = {key: i for name in ("lsb_mv", "inl_mv", "vnoise_mv") for i, key in self.per_reading[name]}
 
     # ---- pieces of the chain -------------------------------------------------------
-    def _actual_volts(self, kw: dict, t: int) -> np.ndarray:
-        """Voltage at the pointer for each set point, (n, T) V."""
+    def _actual_volts(self, kw: dict, t: int, rows: list[int] | None = None) -> np.ndarray:
+        """Voltage at the pointer for each set point, (n, T) V; or for the set points ``rows`` only, (k, T)."""
         rig = self.rig
         s = rig.source
-        v = np.repeat(np.array(rig.sweep.set_points_v)[:, None], t, axis=1)
+        sel = slice(None) if rows is None else rows
+        v = np.repeat(np.array(rig.sweep.set_points_v)[sel, None], t, axis=1)
         for name in ("lsb_mv", "inl_mv", "vnoise_mv"):
-            _add_rows(v, kw, self.per_reading[name], 1e-3)
+            keys = self.per_reading[name] if rows is None else [(k, self.per_reading[name][i][1])
+                                                                 for k, i in enumerate(rows)]
+            _add_rows(v, kw, keys, 1e-3)
         if "source_gain_pct" in kw:
             v *= 1.0 + kw["source_gain_pct"] * 1e-2
         if "source_offset_mv" in kw:
@@ -126,14 +157,9 @@ class VirtualRig:
         t = len(next(iter(kw.values()))) if kw else 1
         kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
         sweep = self.rig.sweep
-        volts = self._actual_volts(kw, t) if sweep is not None else None
-        true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
-        true_deg = self._pointer_deg(kw, t, true_deg)
-        img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg,
-                                    zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw, t))
-        roll = kw.get("roll_deg", 0.0) + kw.get("mount_roll_deg", 0.0)
+        volts, img_x, img_y = self._image(kw, t)
         if "roll_deg" in kw or "mount_roll_deg" in kw:  # the camera re-mounted or rolled after the zero image
-            r = np.radians(roll)  # counterclockwise on the displayed image, about the principal point
+            r = np.radians(kw.get("roll_deg", 0.0) + kw.get("mount_roll_deg", 0.0))  # counterclockwise, about
             cx, cy = principal_point(self.rig)
             x0, y0 = img_x[0] - cx, cy - img_y[0]
             img_x[0] = cx + np.cos(r) * x0 - np.sin(r) * y0
@@ -199,6 +225,67 @@ class VirtualRig:
         _add_rows(dx, kw, self.per_point["x", "play"])
         _add_rows(dy, kw, self.per_point["y", "play"])
         return dx, dy
+
+    def _image(self, kw: dict, t: int) -> tuple[np.ndarray | None, np.ndarray, np.ndarray]:
+        """The voltages at the pointer (sweep; else None) and the noise-free image points (n, T).
+
+        When every input that shapes the image is held (the same value in every trial: a
+        read-only broadcast view, as the linear method's pair stencil and the one-component Monte
+        Carlo pass them), the image is formed once and repeated, and only the readings whose own
+        source inputs move are projected trial by trial, by the same arithmetic (the
+        geometry's one home, :mod:`budget.rig.geometry`). Voltages are then None with commanded
+        set points (the fit does not read them).
+        """
+        sweep = self.rig.sweep
+        rows = self._moving_readings(kw, t)
+        if rows is None:  # the image varies from trial to trial
+            volts = self._actual_volts(kw, t) if sweep is not None else None
+            true_deg = self._pointer_deg(kw, t, sweep.nominal_gain_deg_per_v * volts if sweep is not None else None)
+            img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg,
+                                        zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw, t))
+            return volts, img_x, img_y
+        kw1 = {k: a[:1] for k, a in kw.items()}
+        one = self._actual_volts(kw1, 1) if sweep is not None else None
+        x1, y1 = image_points(self.rig, kw1, 1, self.dial_deg,
+                              reading_deg=None if one is None else sweep.nominal_gain_deg_per_v * one)
+        img_x, img_y = np.repeat(x1, t, axis=1), np.repeat(y1, t, axis=1)
+        volts = None
+        if sweep is not None:
+            dmm = self.rig.source is not None and self.rig.source.readback != "commanded"
+            volts = self._actual_volts(kw, t) if dmm else None
+            if rows:
+                moved = volts[rows] if dmm else self._actual_volts(kw, t, rows)
+                x, y = reading_image_points(self.rig, kw1, 1, sweep.nominal_gain_deg_per_v * moved)
+                at = [1 + i for i in rows]
+                img_x[at], img_y[at] = x, y
+        return volts, img_x, img_y
+
+    def costly_inputs(self, names) -> list[str]:
+        """The inputs among ``names`` whose movement makes the whole image vary (every input not known
+        to enter after the image or through one reading's voltage): the linear method's pair stencil
+        tiles them apart (:func:`budget.propagation.stencils.pair_values`)."""
+        return [nm for nm in names if nm not in self.after_image and nm not in self.reading_of]
+
+    def _moving_readings(self, kw: dict, t: int) -> list[int] | None:
+        """The readings whose source inputs vary across the trials when nothing else that shapes the
+        image does; None when something else does (or T = 1: nothing to save).
+
+        An input varies unless it is a broadcast view (stride 0) of one value; an input this
+        class does not know to enter after the image counts as shaping it.
+        """
+        if t < 2:
+            return None
+        rows: set[int] = set()
+        for key, a in kw.items():
+            if key in self.pointer_keys and a.size and a[0] != 0.0:
+                return None  # the pointer or its pivot held off its place: the readings' fast path omits it
+            if a.strides == (0,) or key in self.after_image:
+                continue
+            i = self.reading_of.get(key)
+            if i is None:
+                return None
+            rows.add(i)
+        return sorted(rows)
 
     def _timing_deg(self, kw: dict, t: int, img_y: np.ndarray) -> np.ndarray:
         """ω·(timestamp offset + rolling-shutter row delay + jitter) for a moving pointer."""

@@ -3,21 +3,29 @@
 The reference values themselves are checked (with sources and tolerances) in
 ``tests/reference/test_jcgm100.py`` and ``tests/reference/test_jcgm101.py``;
 here: the runner passes a correct engine, fails a wrong expectation, and rejects
-malformed case files with :class:`BudgetInputError`.
+malformed case files with :class:`BudgetInputError`; the command prints every value's
+provenance and its own seed, and never calls a recalled value "published".
 """
 
 from __future__ import annotations
 
 import dataclasses
-import time
 
 import numpy as np
 import pytest
 
+from budget.cli import main
+from budget.commands.selftest import SELFTEST_SEED
 from budget.errors import BudgetInputError
-from budget.reference_cases import CheckRow, default_folder, load_case, load_cases, run_case, run_cases
-
-MARKS = ("[seen]", "[memory]", "[derived]")
+from budget.reference_cases import (
+    MARKS,
+    CheckRow,
+    default_folder,
+    load_case,
+    load_cases,
+    run_case,
+    run_cases,
+)
 
 
 @pytest.fixture(scope="module")
@@ -37,27 +45,42 @@ def test_every_case_file_loads_with_citation_and_marks(cases):
         for e in c.expected:
             assert e.mark in MARKS, (c.id, e.quantity)
             assert e.tolerance_reason.strip(), (c.id, e.quantity)
+            assert (e.mark == "checked") == bool(e.checked_against), (c.id, e.quantity)
 
 
-def test_all_cases_pass_quickly(cases):
-    start = time.perf_counter()
+def test_all_cases_pass(cases):
+    # Timing of the self-test belongs to benchmarks/, not here (a timed assert fails for load).
     rows = run_cases(cases, rng=np.random.default_rng(2008))
-    elapsed = time.perf_counter() - start
     assert rows and all(isinstance(r, CheckRow) for r in rows)
     failed = [r for r in rows if not r.passed]
     assert not failed, failed
-    assert elapsed < 10.0
+
+
+def test_selftest_prints_each_values_provenance_and_its_seed(capsys, cases):
+    code = main(["selftest"])
+    out = capsys.readouterr().out
+    assert code == 0, out
+    assert f"seed {SELFTEST_SEED}" in out
+    assert "published" not in out.lower()
+    words = {"checked": "checked against", "recalled": "recalled from memory, unverified",
+             "derived": "derived from the stated inputs"}
+    lines = out.splitlines()
+    for c in cases:
+        for e in c.expected:
+            assert any(c.id in ln and words[e.mark] in ln for ln in lines), (c.id, e.quantity)
+    n = {m: sum(e.mark == m for c in cases for e in c.expected) for m in MARKS}
+    assert (f"{n['checked']} checked against their source, {n['recalled']} recalled from memory "
+            f"and unverified, {n['derived']} derived") in out
 
 
 def test_a_wrong_expected_value_fails(cases):
     case = next(c for c in cases if c.id == "jcgm100-H.1")
-    wrong = [dataclasses.replace(e, value=e.value + 1.0) if e.quantity == "linear.u" else e
-             for e in case.expected]
+    wrong = [dataclasses.replace(e, value=e.value + 2 * e.tolerance + 1.0)
+             if e.quantity == "linear.u" else e for e in case.expected]
     rows = run_case(dataclasses.replace(case, expected=tuple(wrong)),
                     rng=np.random.default_rng(0))
     by_q = {r.quantity: r for r in rows}
     assert not by_q["linear.u"].passed
-    assert by_q["linear.u"].published == pytest.approx(32.7)
     assert all(r.passed for r in rows if r.quantity != "linear.u")
 
 
@@ -66,7 +89,7 @@ def test_a_wrong_verdict_fails(cases):
     flipped = tuple(dataclasses.replace(e, value=not e.value) if isinstance(e.value, bool) else e
                     for e in case.expected)
     rows = run_case(dataclasses.replace(case, expected=flipped), rng=np.random.default_rng(0))
-    assert [r.passed for r in rows if isinstance(r.published, bool)] == [False, False]
+    assert [r.passed for r in rows if isinstance(r.reference, bool)] == [False, False]
 
 
 def _write(tmp_path, text):
@@ -78,7 +101,7 @@ def _write(tmp_path, text):
 GOOD = """
 id = "x"
 title = "t"
-mark = "[derived]"
+mark = "derived"
 model = "sum"
 p = 0.95
 [citation]
@@ -92,13 +115,14 @@ sd = 1.0
 quantity = "linear.u"
 value = 1.0
 tolerance = 1e-9
-tolerance_reason = "[derived] one input with unit sensitivity"
+tolerance_reason = "one input with unit sensitivity"
+mark = "derived"
 """
 
 
 def test_a_minimal_case_file_runs(tmp_path):
     rows = run_case(load_case(_write(tmp_path, GOOD)), rng=np.random.default_rng(0))
-    assert [(r.quantity, r.passed, r.mark) for r in rows] == [("linear.u", True, "[derived]")]
+    assert [(r.quantity, r.passed, r.mark) for r in rows] == [("linear.u", True, "derived")]
 
 
 @pytest.mark.parametrize(("old", "new", "field"), [
@@ -106,6 +130,8 @@ def test_a_minimal_case_file_runs(tmp_path):
     ('distribution = "Normal"', 'distribution = "Gaussian"', "distribution"),
     ('tolerance = 1e-9', 'tolerance = -1.0', "tolerance"),
     ('p = 0.95', '', "p"),
+    ('sensitivity"\nmark = "derived"', 'sensitivity"\nmark = "[memory]"', "mark"),
+    ('sensitivity"\nmark = "derived"', 'sensitivity"\nmark = "checked"', "checked_against"),
 ])
 def test_malformed_case_files_raise(tmp_path, old, new, field):
     with pytest.raises(BudgetInputError, match=f"'{field}'"):

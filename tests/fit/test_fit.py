@@ -258,7 +258,7 @@ def test_cov_y_messages_say_what_is_wrong():
 finite = st.floats(min_value=-1e3, max_value=1e3, allow_nan=False)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60, deadline=None, derandomize=True, database=None)
 @given(shift=finite, seed=st.integers(min_value=0, max_value=2**32 - 1))
 def test_slope_and_its_uncertainty_do_not_depend_on_where_x_starts(shift, seed):
     # [derived] Replacing x by x + c leaves b, u(b) and the residuals unchanged and moves the
@@ -276,7 +276,7 @@ def test_slope_and_its_uncertainty_do_not_depend_on_where_x_starts(shift, seed):
         np.testing.assert_allclose(moved.residuals, ref.residuals, atol=1e-9 * scale**2)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60, deadline=None, derandomize=True, database=None)
 @given(k=st.floats(min_value=1e-3, max_value=1e3), seed=st.integers(min_value=0, max_value=99))
 def test_scaling_y_scales_the_line(k, seed):
     # [derived] y → k·y (with u(y) → k·u(y)) scales slope, intercept by k, the covariance

@@ -21,6 +21,7 @@ from budget.imaging.render import expected_electrons, render_target
 from budget.imaging.spot import (
     adc_variance_e2,
     com_variance,
+    integer_quantization_variance,
     pixel_locking_amplitude,
     pixel_locking_bias,
     window_truncation_bias,
@@ -134,6 +135,47 @@ def test_com_variance_at_high_background_and_adc_term():
     var = com_variance(1.0, n_e, b2, w)
     assert abs(np.var(x, ddof=1) - var) < 4 * np.sqrt(2 / (m - 1)) * var
     assert adc_variance_e2(2.0) == pytest.approx(4.0 / 12.0)
+
+
+@pytest.mark.parametrize(("sigma", "n_e", "b", "w", "m"), [
+    # photon term alone (no background): (s² + 1/12)/N, the 1/12 being 7.7 % of it at s = 1;
+    # m = 20 000 renders put one Monte Carlo standard error of the variance at 1.0 %
+    (1.0, 1e4, 0.0, 9, 20_000),
+    # background term dominant in a 3 × 3 window: b² W²(W² − 1)/(12 N²) (W² − 1 = 8, the
+    # window's sum of squared pixel offsets); W² + 1 would be 25 % more; m = 5000: 2.0 %
+    (0.5, 1e5, 1e5, 3, 5_000),
+])
+def test_com_variance_against_rendered_frames(sigma, n_e, b, w, m):
+    """The centre-of-mass noise formula (imaging/spot.py, its one home) against a rendered-image
+    Monte Carlo of the same spot, pixel-centred, background known and subtracted: each of its two
+    terms on its own. Tolerance four standard errors of a sample variance, √(2/(m − 1)), plus 1 %
+    for the first-order formula (Sheppard's 1/12 is exact to e^(−2π²s²) at s = 1)."""
+    rng = np.random.default_rng(1401)
+    c = w // 2
+    out = render_target(shape=(w, w), centre_xy=(c, c), sigma_px=sigma, signal_e=n_e,
+                        background_e=b, read_noise_e=0.0, full_well_e=1e9, bit_depth=32,
+                        gain_e_per_adu=1.0, rng=rng, n=m)
+    x, y = centre_of_mass(out.images, background=b, window_px=w)
+    var = com_variance(sigma, n_e, b, w)
+    tol = (4 * np.sqrt(2 / (m - 1)) + 0.01) * var
+    assert abs(np.var(x, ddof=1) - var) < tol
+    assert abs(np.var(y, ddof=1) - var) < tol
+
+
+def test_integer_quantization_variance_against_the_integer_locator():
+    """The integer locator over random sub-pixel phases (noise-free spots): its error is
+    rectangular on ±1/2 px, variance 1/12 (JCGM 100 4.3.7); the formula's one home is
+    imaging/spot.py. Tolerance four standard errors of the sample variance of a rectangular
+    variable, √((μ4 − σ⁴)/m) with μ4 = 1/80."""
+    rng = np.random.default_rng(12)
+    m = 4000
+    c = 7.0 + rng.uniform(-0.5, 0.5, size=(m, 2))
+    img = expected_electrons(shape=(15, 15), centre_xy=c, sigma_px=1.0, signal_e=1e3)
+    xs, ys = integer_peak(img)
+    se = np.sqrt((1 / 80 - 1 / 144) / m)
+    for err in (np.asarray(xs) - c[:, 0], np.asarray(ys) - c[:, 1]):
+        assert np.max(np.abs(err)) <= 0.5 + 1e-12
+        assert abs(np.mean(err**2) - integer_quantization_variance()) < 4 * se
 
 
 def test_locator_errors():

@@ -1,6 +1,5 @@
 """Tests of the target renderer (budget.imaging.render)."""
 
-import time
 
 import numpy as np
 import pytest
@@ -86,17 +85,15 @@ def test_default_gain_saturation_and_clipping():
     assert out.centres_xy.shape == (2,) and out.images.shape == (9, 9)
 
 
-def test_vectorized_speed_and_shapes():
+def test_vectorized_shapes():
+    # Its speed is measured by benchmarks/bench_render.py against a plain loop, not here.
     rng = np.random.default_rng(2)
-    c = rng.uniform(6.5, 7.5, size=(10_000, 2))
-    t0 = time.perf_counter()
+    c = rng.uniform(6.5, 7.5, size=(200, 2))
     out = render_target(shape=(15, 15), centre_xy=c, sigma_px=1.0, signal_e=1e4,
                         background_e=100.0, rng=rng, read_noise_e=3.0, full_well_e=2e4,
                         bit_depth=12)
-    elapsed = time.perf_counter() - t0
-    assert out.images.shape == (10_000, 15, 15)
+    assert out.images.shape == (200, 15, 15)
     assert np.array_equal(out.centres_xy, c)
-    assert elapsed < 3.0  # about 0.4 s measured on the shared 2-core machine
     same = render_target(shape=(5, 5), centre_xy=(2.0, 2.0), sigma_px=1.0, signal_e=10.0,
                          background_e=1.0, rng=rng, n=3, **COMMON)
     assert same.images.shape == (3, 5, 5) and same.centres_xy.shape == (3, 2)

@@ -80,3 +80,47 @@ def test_each_pair_is_evaluated_once():
 
     linear(counted, MIXED_INPUTS, second_order=True)
     assert sum(calls) == 1 + 8 * n + 4 * n * (n - 1) // 2
+
+
+class _Hinted:
+    """The mixed model with a hint that some inputs make a call costly (tiled apart by the pair stencil)."""
+
+    def __init__(self, costly: tuple[str, ...]) -> None:
+        self.costly = costly
+        self.seen: list[tuple[str, ...]] = []
+
+    def costly_inputs(self, names):
+        return [nm for nm in names if nm in self.costly]
+
+    def __call__(self, **kw):
+        self.seen.append(tuple(k for k, v in kw.items() if v.strides != (0,)))
+        return _mixed(**kw)
+
+
+@pytest.mark.parametrize("costly", [("a",), ("c", "e"), ("a", "b", "c", "d", "e")])
+def test_inputs_tiled_apart_change_no_value(costly, monkeypatch):
+    # Small tiles (two inputs a block), so that tiling apart changes which inputs share a call.
+    monkeypatch.setattr("budget.propagation.stencils.PAIR_CHUNK_VALUES", 4 * len(MIXED_INPUTS))
+    plain = linear(_mixed, MIXED_INPUTS, second_order=True)
+    model = _Hinted(costly)
+    hinted = linear(model, MIXED_INPUTS, second_order=True)
+    for out in ("q", "r"):
+        assert hinted[out].u == plain[out].u
+        assert hinted[out].u_second_order == plain[out].u_second_order
+
+
+def test_pairs_tiled_apart_are_each_evaluated_once():
+    from budget.propagation.stencils import _pair_batches
+
+    for n, per_call, apart in ((7, 4, {2, 5}), (12, 9, {0, 11}), (5, 250, {1}), (6, 1, set(range(6)))):
+        batches = _pair_batches(n, per_call, frozenset(apart))
+        pairs = [(int(i), int(j)) for ii, jj in batches for i, j in zip(ii, jj, strict=True)]
+        assert sorted(pairs) == [(i, j) for i in range(n) for j in range(i + 1, n)]
+        # a batch moves either inputs apart (with others) or none of them
+        mixed = [b for b in batches if (set(b[0]) | set(b[1])) & apart]
+        if len(apart) < n:
+            assert len(mixed) < len(batches)
+        for ii, jj in batches:
+            if not (set(ii) | set(jj)) & apart:
+                continue
+            assert all(i in apart or j in apart for i, j in zip(ii, jj, strict=True))
