@@ -57,7 +57,8 @@ def equivalent_rig(spec: ChooseSpec, choice_cand: Candidates, pred: Prediction, 
     else:
         target = d.Target(shape="spot", sigma_px=float(p.sigma_px[i]), signal_e=float(p.signal_e[i]),
                           background_e=float(p.background_e[i]), source=tg["source"])
-    locator = d.Locator(method=lo["method"], window_px=int(p.window_px[i]), source=lo["source"])
+    locator = d.Locator(method=lo["method"], window_px=int(p.window_px[i]), window_at=lo["window_at"],
+                        source=lo["source"])
     pv = spec.pivot
     pivot = d.Pivot(method=pv["method"], arc_half_angle_deg=pv["arc_half_angle_deg"], arc_points=pv["arc_points"],
                     mark_offset_bound_mm=pv["mark_offset_bound_mm"], source=pv["source"])
@@ -71,8 +72,9 @@ def equivalent_rig(spec: ChooseSpec, choice_cand: Candidates, pred: Prediction, 
         sweep = d.Sweep(tuple(meas["set_points_v"]), meas["nominal_gain_deg_per_v"])
         span = 2 * max(abs(v) for v in meas["set_points_v"])
         source = d.VoltageSource(span_v=span, bits=32, source="ideal source (choose predicts the camera's part)")
+    frames = d.Frames(per_reading=lo["frames_per_reading"], averaged=lo["frames_averaged"], source=lo["source"])
     return d.RigDescription(title=spec.title, camera=cam, lens=lens, geometry=geom, target=target, locator=locator,
-                            pivot=pivot, frames=d.Frames(per_reading=lo["frames_per_reading"], source=lo["source"]),
+                            pivot=pivot, frames=frames,
                             motion=motion, source=source, positions=positions, sweep=sweep, goal=_goal(spec))
 
 

@@ -16,7 +16,7 @@ from statistics import NormalDist
 import numpy as np
 
 from budget.choice.design import PointGradients, design_geometry
-from budget.imaging import optics, spot
+from budget.imaging import optics, pixel_model, spot
 from budget.inputs.choose_file import ChooseSpec
 
 __all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates",
@@ -152,7 +152,8 @@ def truncation_by_window(sigma: np.ndarray, window: np.ndarray) -> np.ndarray:
 
 
 def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients | None = None, *,
-                       distance_mm: np.ndarray | None = None, exposure_ms: float | None = None) -> Prediction:
+                       distance_mm: np.ndarray | None = None, exposure_ms: float | None = None,
+                       exact_adc: bool = True) -> Prediction:
     """Predicted budget of every candidate at once.
 
     Parameters
@@ -167,6 +168,10 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
         lens at the farthest, where it is fitted to the dial; :func:`distance_bounds`).
     exposure_ms : float, optional
         Exposure wanted (default ``[light] exposure_ms``), shortened against saturation and blur.
+    exact_adc : bool
+        False: the ADC's rounding as g²/12 of added noise (a screening figure, fast; the working-distance
+        search uses it); True: rounding exact where the noise is below 0.75 count
+        (:func:`budget.imaging.pixel_model.locator_terms`).
 
     Returns
     -------
@@ -174,12 +179,12 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
 
     Notes
     -----
-    Per located point and axis (px²): integer locator (1/2)²/3 (JCGM 100 F.2.2.1); pixel-locking
-    arcsine of amplitude A, A²/2 (JCGM 101 6.4.6), A = e^(−2π²σ²)/π plus the window truncation
-    (:mod:`budget.imaging.spot`), or for a disk |2J1(2πa)/(2πa)|·e^(−2π²σ_b²)/π; centroid
-    noise from the light budget: centre of mass (σ² + 1/12)/N + b²W²(W² − 1)/(12N²) (Thompson,
-    Larson & Webb 2002 photon term plus the window's background), least-squares fit Mortensen
-    et al. 2010, divided by the frames averaged; distortion residual RMS²/2. An angle error is
+    Per located point and axis (px²): the locator model of the rig
+    (:func:`budget.imaging.pixel_model.locator_terms`, the same function ``run`` uses), evaluated over
+    all candidates at once: the error fixed by the sub-pixel phase (integer locator: "pixel
+    quantization"; otherwise "pixel-locking") and the noise per reading after the frames are averaged;
+    readings of a moving pointer are streaked by the motion blur, the pivot's points are still;
+    distortion residual RMS²/2. An angle error is
     δθ = Σ g_i·δp_i/R_px (:func:`design_geometry`), so each row is (per-point variance)·Σ|g_i|²/R_px².
     Tilt: rectangular ±β per axis, first-order terms only (the on-axis β²/4 term has zero
     sensitivity at β = 0, JCGM 100 5.1.2 note). Timing: ω·jitter per reading; a rolling shutter
@@ -215,26 +220,24 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     signal = lt["signal_e_per_ms"] * scale * t_ms
     bg = lt["background_e_per_um2_per_ms"] * cand.pitch_um**2 * scale * t_ms
     gain = cand.full_well_e / (2.0**cand.bit_depth - 1.0)
-    b2 = bg + cand.read_noise_e**2 + spot.adc_variance_e2(gain)
     window = np.full(sigma.shape, lo["window_px"], dtype=int) if lo["window_px"] else \
         np.maximum(3, 2 * np.ceil((8.0 * sigma + 1.0 - 1.0) / 2.0).astype(int) + 1)
     method = lo["method"]
+    disk = tg["shape"] == "disk"
+    light = dict(method=method, sigma_px=np.sqrt(s_diff**2 + t_spot**2) if disk else sigma, signal_e=signal,
+                 background_e=bg, read_noise_e=cand.read_noise_e, gain_e_per_adu=gain, bit_depth=cand.bit_depth,
+                 window_px=window, shape=tg["shape"], disk_px=np.broadcast_to(disk_px, sigma.shape),
+                 frames=lo["frames_per_reading"], averaged=lo["frames_averaged"], window_at=lo["window_at"],
+                 exact_adc=exact_adc)
+    still = pixel_model.locator_terms(streak_px=0.0, **light)
+    blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
+    moving = pixel_model.locator_terms(streak_px=blur, **light) if omega > 0 else still
     zero = np.zeros(sigma.shape)
-    quant, lock, noise = zero, zero, zero
-    if method == "integer":
-        quant = np.full(sigma.shape, spot.integer_quantization_variance())
-    elif method == "fit":
-        noise = spot.mortensen_variance(sigma, 1.0, signal, b2)
-    else:
-        noise = spot.com_variance(sigma, signal, b2, window)
-        if tg["shape"] == "disk":
-            amp = spot.disk_locking_amplitude(disk_px, np.sqrt(s_diff**2 + t_spot**2))
-        else:
-            amp = spot.pixel_locking_amplitude(sigma)
-        amp = amp + truncation_by_window(sigma, window)
-        lock = amp**2 / 2.0
-    noise_px = np.sqrt(noise)
-    noise = noise / lo["frames_per_reading"]
+    fixed = "quant" if method == "integer" else "lock"
+    parts = {"quant": zero, "lock": zero, fixed: moving.fixed_var, "noise": moving.random_var}
+    quant, lock, noise = parts["quant"], parts["lock"], parts["noise"]
+    pivot_var = still.total_var  # the pivot's points are imaged still
+    noise_px = np.sqrt(moving.noise_var)
     resid = lo["distortion_residual_rms_px"] ** 2 / 2.0
     # geometry sums
     g2 = np.sum(geo.grad**2, axis=2)  # (O, n)
@@ -250,7 +253,7 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     var_mark = geo.mark[:, None] * mark_b**2 / 3.0 / sc["pointer_radius_mm"] ** 2
     var_timing = geo.timing[:, None] * np.full(r_px.shape, (omega * mo["jitter_ms"] * 1e-3) ** 2)
     var = np.stack([quant * s_read * inv_r2, lock * s_read * inv_r2, noise * s_read * inv_r2,
-                    (quant + lock + noise) * s_piv * inv_r2 + var_mark, var_skew,
+                    pivot_var * s_piv * inv_r2 + var_mark, var_skew,
                     resid * (s_read + s_piv) * inv_r2, var_timing])  # (K, O, C) rad² or (rad/V)²
     var = var * _DEG**2
     k = NormalDist().inv_cdf(0.5 * (1.0 + spec.goal["p"]))
@@ -271,7 +274,6 @@ def predict_candidates(spec: ChooseSpec, cand: Candidates, geo: PointGradients |
     # checks
     dof = optics.depth_of_field_mm(cand.f_number, lo["coc_px"] * pitch_mm, m)
     dof_need = sc["dial_diameter_mm"] * math.sin(beta) + sc["target_height_mm"]
-    blur = optics.motion_blur_px(omega, t_ms * 1e-3, r_px)
     fr_need = abs(mo["rate_deg_per_s"]) / mo["sample_step_deg"]
     fr_ok = cand.max_frame_rate_hz >= fr_need
     dof_ok = dof >= dof_need

@@ -49,7 +49,8 @@ def search(spec: ChooseSpec, cand: Candidates, geo: PointGradients) -> tuple[Can
     point. With ``f_numbers``, a lens's listed f-number is its largest aperture and every listed
     f-number at or above it is tried; with ``exposures_ms`` every exposure is tried (each still
     shortened against saturation and blur). Depth of field, diffraction and light trade against each
-    other through the surrogate (:func:`budget.choice.model.predict_candidates`).
+    other through the surrogate (:func:`budget.choice.model.predict_candidates`); the search screens
+    with the ADC's rounding as added noise, the prediction at the chosen setting has it exact.
     """
     n = cand.pitch_um.size
     lo, hi = distance_bounds(spec, cand)
@@ -71,7 +72,7 @@ def search(spec: ChooseSpec, cand: Candidates, geo: PointGradients) -> tuple[Can
             local, local_u = np.full(n, -np.inf), np.zeros(n)
 
             def consider(u, trial=trial, t=t, allowed=allowed, local=local, local_u=local_u):
-                pred = predict_candidates(spec, trial, geo, distance_mm=lo * ratio**u, exposure_ms=t)
+                pred = predict_candidates(spec, trial, geo, distance_mm=lo * ratio**u, exposure_ms=t, exact_adc=False)
                 s = np.where(allowed, _score(pred), -np.inf)
                 better = s > local
                 local[better], local_u[better] = s[better], np.broadcast_to(u, (n,))[better]

@@ -29,6 +29,7 @@ from budget.imaging.stack import (
     brightest_pixel,
     output_xy,
     window_around_peak,
+    window_at,
 )
 
 __all__ = [
@@ -64,7 +65,7 @@ def integer_peak(images: ArrayLike):
 
 
 def centre_of_mass(images: ArrayLike, *, window_px: int | None = None, background="median-border",
-                   threshold: float | None = None):
+                   threshold: float | None = None, recentre: bool = False):
     """Intensity-weighted centroid (centre of mass).
 
     Parameters
@@ -82,6 +83,9 @@ def centre_of_mass(images: ArrayLike, *, window_px: int | None = None, backgroun
         If given, only pixels whose background-subtracted value exceeds it
         contribute. Without it, negative values after subtraction are kept
         (they keep the estimate unbiased by noise).
+    recentre : bool
+        After a first centroid in the window on the brightest pixel, centre the window on the pixel
+        nearest that centroid and compute again (``[locator] window_at = "centroid"``).
 
     Returns
     -------
@@ -113,6 +117,12 @@ def centre_of_mass(images: ArrayLike, *, window_px: int | None = None, backgroun
     ii = np.arange(sub.shape[1], dtype=float)
     x = (wts.sum(axis=1) * jj).sum(axis=1) / total
     y = (wts.sum(axis=2) * ii).sum(axis=1) / total
+    if recentre and window_px is not None:
+        rows = np.rint(y + y_off).astype(int)
+        cols = np.rint(x + x_off).astype(int)
+        sub2, x_off, y_off = window_at(stack, window_px, rows, cols, where)
+        again = centre_of_mass(sub2, background=background, threshold=threshold)
+        x, y = np.atleast_1d(again[0]), np.atleast_1d(again[1])
     return output_xy(x + x_off, y + y_off, single)
 
 

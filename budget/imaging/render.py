@@ -129,6 +129,8 @@ def expected_electrons(
     pixel: str = "integrated",
     supersample: int = 8,
     n: int | None = None,
+    streak_px: float = 0.0,
+    substeps: int = 32,
 ) -> np.ndarray:
     """Noiseless mean image of a target, in electrons per pixel.
 
@@ -157,6 +159,11 @@ def expected_electrons(
         Sub-pixels per axis for the disk (midpoint rule), >= 1.
     n : int, optional
         Number of images when `centre_xy` is a single pair.
+    streak_px : float
+        Motion along +x during the exposure, px (>= 0): the image is the mean of `substeps`
+        sub-exposures at equally spaced positions over [−L/2, L/2] about the centre (midpoints).
+    substeps : int
+        Sub-exposures of a streak (>= 1).
 
     Returns
     -------
@@ -180,6 +187,18 @@ def expected_electrons(
     1e-3 px, and a larger `supersample` should be used.
     """
     where = "expected_electrons"
+    streak_px = _non_negative(streak_px, "streak_px", where)
+    if streak_px > 0:
+        if int(substeps) != substeps or substeps < 1:
+            raise field_error("substeps", "an integer >= 1", substeps, where)
+        c, single = _centres(centre_xy, n, where)
+        total = 0.0
+        for off in ((np.arange(int(substeps)) + 0.5) / substeps - 0.5) * streak_px:
+            total = total + expected_electrons(shape=shape, centre_xy=c + np.array([off, 0.0]), kind=kind,
+                                               sigma_px=sigma_px, diameter_px=diameter_px, signal_e=signal_e,
+                                               background_e=background_e, pixel=pixel, supersample=supersample)
+        img = total / int(substeps)
+        return img[0] if single else img
     h, w = _shape(shape, where)
     c, single = _centres(centre_xy, n, where)
     if kind not in _KINDS:
@@ -241,12 +260,14 @@ def render_target(
     n: int | None = None,
     pixel: str = "integrated",
     supersample: int = 8,
+    streak_px: float = 0.0,
+    substeps: int = 32,
 ) -> RenderedTargets:
     """Render noisy, digitized images of a target.
 
     Parameters
     ----------
-    shape, centre_xy, kind, sigma_px, diameter_px, signal_e, background_e, pixel, supersample, n
+    shape, centre_xy, kind, sigma_px, diameter_px, signal_e, background_e, pixel, supersample, n, streak_px, substeps
         As in :func:`expected_electrons`.
     read_noise_e : float
         Read noise, electrons rms (>= 0), Gaussian.
@@ -291,7 +312,7 @@ def render_target(
     mean_e = expected_electrons(shape=shape, centre_xy=centre_xy, kind=kind, sigma_px=sigma_px,
                                 diameter_px=diameter_px, signal_e=signal_e,
                                 background_e=background_e, pixel=pixel,
-                                supersample=supersample, n=n)
+                                supersample=supersample, n=n, streak_px=streak_px, substeps=substeps)
     electrons = rng.poisson(lam=mean_e).astype(float)
     if read_noise_e > 0:
         electrons += rng.normal(loc=0.0, scale=read_noise_e, size=electrons.shape)

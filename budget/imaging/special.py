@@ -14,7 +14,7 @@ import math
 import numpy as np
 from numpy.typing import ArrayLike
 
-__all__ = ["erf", "j1"]
+__all__ = ["erf", "erf_vec", "j1", "phi_cdf", "phi_coarse"]
 
 _ERF = np.frompyfunc(math.erf, 1, 1)
 
@@ -59,3 +59,66 @@ def j1(x: ArrayLike) -> np.ndarray:
             part = flat[s:s + step, None]
             out[s:s + step] = np.cos(theta - part * sin_t).sum(axis=1) / m
     return out.reshape(a.shape)
+
+
+_SERIES_TERMS = 40
+_FRACTION_DEPTH = 50
+_SERIES_BELOW = 2.5
+_ONE_FROM = 6.0  # erf(6) = 1 − 2e-17: 1 in double precision
+
+
+def erf_vec(x: ArrayLike) -> np.ndarray:
+    """The error function on whole arrays with numpy operations only (no element-by-element calls).
+
+    Notes
+    -----
+    For |x| < 2.5 the series erf(x) = (2/√π)·e^(−x²)·Σ 2ⁿx^(2n+1)/(1·3···(2n+1)) (DLMF 7.6.2), whose
+    terms are all positive (no cancellation; 40 terms leave less than 1e-16 at |x| = 2.5); for
+    2.5 ≤ |x| < 6 the continued fraction erfc(x) = (e^(−x²)/√π)·1/(x + (1/2)/(x + 1/(x + (3/2)/(x + …))))
+    (DLMF 7.9.2) evaluated from depth 50 backwards; beyond, ±1. Each branch works on its own elements
+    only. Tested against ``scipy.special.erf`` to 2e-15 (tests/imaging/test_special.py).
+    """
+    a = np.asarray(x, dtype=float)
+    ax = np.abs(a).ravel()
+    out = np.ones(ax.shape)
+    small = np.flatnonzero(ax < _SERIES_BELOW)
+    if small.size:
+        xs = ax[small]
+        x2 = xs * xs
+        term = xs.copy()
+        total = xs.copy()
+        for n in range(1, _SERIES_TERMS):
+            term *= 2.0 * x2 / (2 * n + 1)
+            total += term
+        out[small] = (2.0 / math.sqrt(math.pi)) * np.exp(-x2) * total
+    mid = np.flatnonzero((ax >= _SERIES_BELOW) & (ax < _ONE_FROM))
+    if mid.size:
+        xl = ax[mid]
+        frac = xl.copy()
+        for k in range(_FRACTION_DEPTH, 0, -1):
+            frac = xl + (0.5 * k) / frac
+        out[mid] = 1.0 - np.exp(-xl * xl) / (math.sqrt(math.pi) * frac)
+    out[np.isnan(ax)] = np.nan
+    return np.copysign(out.reshape(a.shape), a)
+
+
+_AS = (0.254829592, -0.284496736, 1.421413741, -1.453152027, 1.061405429)
+_AS_P = 0.3275911
+
+
+def phi_coarse(z: ArrayLike) -> np.ndarray:
+    """Φ(z) to an absolute error below 1e-7, fast: Abramowitz & Stegun 7.1.26 for erf (|error| <= 1.5e-7).
+
+    For the probabilities of the ADC's thresholds and of the brightest pixel, where 1e-7 is far below
+    what a located position can show; :func:`phi_cdf` is the accurate one.
+    """
+    x = np.abs(np.asarray(z, dtype=float)) / math.sqrt(2.0)
+    t = 1.0 / (1.0 + _AS_P * x)
+    poly = t * (_AS[0] + t * (_AS[1] + t * (_AS[2] + t * (_AS[3] + t * _AS[4]))))
+    half_tail = 0.5 * poly * np.exp(-x * x)  # (1 − erf(x))/2
+    return np.where(np.asarray(z) < 0, half_tail, 1.0 - half_tail)
+
+
+def phi_cdf(z: ArrayLike) -> np.ndarray:
+    """The standard normal distribution function Φ(z) = (1 + erf(z/√2))/2, vectorized (:func:`erf_vec`)."""
+    return 0.5 * (1.0 + erf_vec(np.asarray(z, dtype=float) / math.sqrt(2.0)))

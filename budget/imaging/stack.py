@@ -105,14 +105,20 @@ def window_around_peak(stack: np.ndarray, window_px: int | None, where: str):
     if isinstance(window_px, bool) or int(window_px) != window_px or window_px < 3 \
             or window_px % 2 == 0:
         raise field_error("window_px", "None or an odd integer >= 3", window_px, where)
-    half = (int(window_px) - 1) // 2
     pi_, pj = brightest_pixel(stack)
+    return window_at(stack, window_px, pi_, pj, where)
+
+
+def window_at(stack: np.ndarray, window_px: int, pi_: np.ndarray, pj: np.ndarray, where: str):
+    """Cut a square window of odd side centred on pixel (pi_, pj) of each image (as :func:`window_around_peak`)."""
+    n, h, w = stack.shape
+    half = (int(window_px) - 1) // 2
     bad = (pi_ < half) | (pi_ >= h - half) | (pj < half) | (pj >= w - half)
     if np.any(bad):
         k = int(np.argmax(bad))
         raise field_error(
             "window_px",
-            f"a window that fits inside the {h} x {w} image around the brightest pixel "
+            f"a window that fits inside the {h} x {w} image around its centre pixel "
             f"(image {k} peaks at x={int(pj[k])}, y={int(pi_[k])})",
             window_px, where)
     off = np.arange(-half, half + 1)

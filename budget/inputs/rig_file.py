@@ -100,6 +100,11 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "locator": {
         "method": choice("integer", "centroid", "fit"),
         "window_px": Field("int", "an odd integer in [3, 255]", lambda v: 3 <= v <= 255 and v % 2 == 1),
+        "window_at": Field("str", "one of 'brightest', 'centroid'", lambda v: v in ("brightest", "centroid"),
+                           assumed="the centroid window is centred on each frame's brightest pixel (as "
+                                   "'thetabudget frames' does); on a flat-topped target (a disk, a streak) that "
+                                   "pixel wanders over the top and a narrow window clips the target: say "
+                                   "\"centroid\" if your locator re-centres the window on a first centroid"),
         "source": _SOURCE,
     },
     "pivot": {
@@ -112,6 +117,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "frames": {
         "per_reading": Field("int", "an integer in [1, 100000]", lambda v: 1 <= v <= 100_000),
+        "averaged": Field("str", "one of 'positions', 'images'", lambda v: v in ("positions", "images"),
+                          assumed="each frame is located and the located positions are averaged (as 'thetabudget "
+                                  "frames' and 'run' with data do); say \"images\" if the frames are averaged "
+                                  "into one image first: the integer locator's answer differs"),
         "source": _SOURCE,
     },
     "motion": {

@@ -98,30 +98,41 @@ def build_inputs(
         Mapping of names to :class:`InputQuantity`, and ``{(a, b): r}``.
     """
     lm = locator_model(rig)
+    lm_moving = locator_model(rig, moving=True) if rig.motion.state == "moving" else lm
     lens = rig.lens
     n_frames = rig.frames.per_reading
     out: dict[str, InputQuantity] = {}
     corr: dict[tuple[str, str], float] = {}
-    loc_src = f"{rig.locator.source}; {lm.noise_formula}" + _supplied(rig, "target.signal_e", "target.sigma_px")
     labels = point_labels(rig)
+    averaged = f"{n_frames} frame(s) per reading, {rig.frames.averaged} averaged"
     fpn, fpn_src = _fixed_pattern(rig, lm.sigma_px)
+    supplied = _supplied(rig, "target.signal_e", "target.sigma_px")
     for lab in labels:
         pivot_point = lab.startswith("C") or lab == "M"
+        m = lm_moving if lab.startswith("P") else lm
+        loc_src = f"{rig.locator.source}; {m.noise_formula}{supplied}"
+        streak = f"; streak {m.streak_px:.3g} px" if m.streak_px > 0 else ""
         for ax in ("x", "y"):
-            if lm.quantization_half_width_px > 0:
-                h = lm.quantization_half_width_px
+            if m.quantization_half_width_px > 0:
+                h = m.quantization_half_width_px
                 out[f"quant_{ax}_{lab}"] = _q(Rectangular(-h, h), "px", PIVOT if pivot_point else QUANT,
-                                              rig.locator.source + "; integer locator, ±0.5 px")
-            if lm.locking_amplitude_px > 0:
-                a = lm.locking_amplitude_px
+                                              rig.locator.source + f"; integer locator, ±{h:.3g} px fixed by the "
+                                              f"sub-pixel phase{streak}")
+            if m.locking_amplitude_px > 0:
+                a = m.locking_amplitude_px
                 out[f"lock_{ax}_{lab}"] = _q(Arcsine(-a, a), "px", PIVOT if pivot_point else LOCK,
-                                             rig.target.source + "; sub-pixel phase unknown (arcsine)")
+                                             rig.target.source + f"; sub-pixel phase unknown (arcsine){streak}")
+            elif m.locking_half_width_px > 0:
+                h = m.locking_half_width_px
+                out[f"lock_{ax}_{lab}"] = _q(Rectangular(-h, h), "px", PIVOT if pivot_point else LOCK,
+                                             rig.target.source + "; sub-pixel phase unknown (sawtooth-like bias: "
+                                             f"rectangular){streak}")
             if type_a and lab in type_a:
                 pass  # the frames' own scatter, below
-            elif lm.noise_px_per_frame > 0:
-                s = lm.noise_px_per_frame / math.sqrt(n_frames)
+            elif m.reading_noise_px > 0:
+                s = m.reading_noise_px
                 out[f"noise_{ax}_{lab}"] = _q(Normal(0.0, s), "px", PIVOT if pivot_point else NOISE,
-                                              f"{loc_src}; {n_frames} frame(s) averaged")
+                                              f"{loc_src}; {averaged}{streak}")
             if fpn > 0:
                 out[f"fpn_{ax}_{lab}"] = _q(Normal(0.0, fpn), "px", PIVOT if pivot_point else FPN, fpn_src)
             if lens.distortion == "corrected":

@@ -99,6 +99,7 @@ class Pointer:
 class Locator:
     method: str = "centroid"
     window_px: int = 9
+    window_at: str = "brightest"
     source: str = "assumed"
 
 
@@ -115,6 +116,7 @@ class Pivot:
 @dataclass(frozen=True)
 class Frames:
     per_reading: int = 1
+    averaged: str = "positions"
     source: str = "assumed"
 
 

@@ -87,7 +87,8 @@ def test_render_refuses_a_frame_too_large_before_drawing(tmp_path):
 
 def test_verify_locator_limits_renders_by_image_size(tmp_path, monkeypatch):
     monkeypatch.setattr(verify, "MAX_RENDERED_PIXELS", 100_000)
-    _refused(["verify-locator", GAUGE, "--renders", "2000", "--seed", "1"], tmp_path, "'renders'", "renders × pixels")
+    _refused(["verify-locator", GAUGE, "--renders", "2000", "--seed", "1"], tmp_path, "'renders'",
+             "renders × frames × pixels")
 
 
 def test_choose_limits_candidates_and_evaluations(tmp_path, monkeypatch):
@@ -146,8 +147,10 @@ def test_an_arc_too_short_to_find_the_pivot_is_said_in_words(tmp_path):
         for key in keys:
             doc[section].pop(key)
     (tmp_path / "flat.toml").write_text(dumps_toml(doc), encoding="utf-8")
-    for argv in (["run", tmp_path / "flat.toml", "--trials", "2000", "--seed", "1", "--quiet"],
-                 ["predict", tmp_path / "flat.toml", "--angle", "0.05", "--trials", "2000", "--seed", "1"]):
+    # the refusal comes from a draw that leaves the flat arc with no circle: seed 4 gives one (seed 1 did
+    # before the locator model's phase-fixed error became rectangular for this window)
+    for argv in (["run", tmp_path / "flat.toml", "--trials", "2000", "--seed", "4", "--quiet"],
+                 ["predict", tmp_path / "flat.toml", "--angle", "0.05", "--trials", "2000", "--seed", "4"]):
         o = _refused(argv, tmp_path, "[pivot] method = 'readings'", "of arc", "method = 'mark'")
         assert not re.search(r"\b(noise|resid|lock)_[xy]_", o.err), o.err  # no engine input names
         assert "model returned" not in o.err

@@ -21,3 +21,21 @@ def test_j1_equals_scipy_from_small_to_large_arguments():
         assert np.allclose(j1(x), scipy_j1(x), rtol=0, atol=1e-13)
     assert j1(np.zeros((2, 3))).shape == (2, 3)
     assert abs(float(j1(3.0)) - float(scipy_j1(3.0))) < 1e-15
+
+
+def test_erf_vec_equals_scipy():
+    # DLMF 7.6.2 series and 7.9.2 continued fraction, numpy only; scipy.special.erf is the reference.
+    from budget.imaging.special import erf_vec
+    x = np.concatenate([np.linspace(-9, 9, 20001), [0.0, 1e-300, -40.0, 40.0, np.inf, -np.inf]])
+    assert np.allclose(erf_vec(x), scipy_erf(x), rtol=0, atol=3e-15)
+    assert erf_vec(np.zeros((2, 3))).shape == (2, 3) and np.isnan(erf_vec(np.nan))
+
+
+def test_phi_coarse_within_its_bound():
+    # Abramowitz & Stegun 7.1.26: |error of erf| <= 1.5e-7, so |error of Φ| <= 7.5e-8; scipy.special.ndtr.
+    from scipy.special import ndtr
+
+    from budget.imaging.special import phi_cdf, phi_coarse
+    z = np.linspace(-12, 12, 24001)
+    assert np.max(np.abs(phi_coarse(z) - ndtr(z))) < 7.5e-8
+    assert np.allclose(phi_cdf(z), ndtr(z), rtol=0, atol=3e-15)

@@ -50,14 +50,17 @@ def test_saturation_is_named():
 def test_not_supported_with_a_forced_wrong_noise():
     # A budget that assumes three times the noise per frame the light budget gives.
     rig = _rig(0.9, window_px=11)
-    wrong = replace(locator_model(rig), noise_px_per_frame=3 * locator_model(rig).noise_px_per_frame)
+    lm = locator_model(rig)
+    wrong = replace(lm, noise_px_per_frame=3 * lm.noise_px_per_frame, noise_px_per_reading=3 * lm.reading_noise_px)
     res = verify_locator(rig, renders=800, rng=np.random.default_rng(np.random.SeedSequence(13)), model=wrong)
     assert not res.supported
-    assert any(v.startswith("noise per frame") and "NOT supported" in v for v in res.verdict)
+    assert any(v.startswith("u of a located reading") and "NOT supported" in v for v in res.verdict)
 
 
 def test_integer_locator_quantization_is_supported():
     # JCGM 100 F.2.2.1: integer-pixel error uniform on [-1/2, 1/2] px, sd 1/sqrt(12) = 0.289 px.
-    res = verify_locator(_rig(0.9, method="integer"), renders=800, rng=np.random.default_rng(14))
+    rig = _rig(0.9, method="integer")
+    rig = replace(rig, frames=replace(rig.frames, per_reading=1))
+    res = verify_locator(rig, renders=800, rng=np.random.default_rng(14))
     assert res.supported, res.verdict
     assert abs(res.sd_px_empirical - 12**-0.5) < 0.03

@@ -137,28 +137,34 @@ def test_arc_pivot_component_of_run_budget(arc_run):
 # ---------------------------------------------------------------- locator
 def test_integer_locator_is_one_over_root_12():
     """JCGM 100 F.2.2.1 (resolution of a digital indication): a value known to one step q
-    is rectangular over ±q/2, u = q/√12; for one pixel 0.288675 px per axis."""
+    is rectangular over ±q/2, u = q/√12; for one pixel 0.288675 px per axis. [derived] With
+    pixel noise the brightest pixel of a bright spot is the nearest one except within the noise of
+    a pixel edge, where it goes either way and the error is still about ±½ px: the fixed part
+    (rectangular) and the changing part (noise) together keep u = 1/√12 to a fraction of a per cent."""
     rig = make_rig({"locator": {"method": "integer"}})
     inputs, _ = build_inputs(rig)
+    lm = locator_model(rig)
     for lab in ("Z", "P1", "P2", "M"):
         for ax in "xy":
-            q = inputs[f"quant_{ax}_{lab}"]
-            assert q.distribution.u == pytest.approx(1 / math.sqrt(12), rel=1e-12)
-            assert (q.distribution.low, q.distribution.high) == (-0.5, 0.5)
-    assert locator_model(rig).quantization_half_width_px == 0.5
-    assert not any(k.startswith(("lock_", "noise_")) for k in inputs)
+            q = inputs[f"quant_{ax}_{lab}"].distribution
+            n = inputs[f"noise_{ax}_{lab}"].distribution.u if f"noise_{ax}_{lab}" in inputs else 0.0
+            assert math.hypot(q.u, n) == pytest.approx(1 / math.sqrt(12), rel=2e-3)
+            assert q.high == -q.low == pytest.approx(0.5, rel=5e-3)
+    assert lm.u_px == pytest.approx(1 / math.sqrt(12), rel=2e-3)
+    assert not any(k.startswith("lock_") for k in inputs)
 
 
 def test_integer_locator_angle_u():
     """[derived] A located point moved by δ changes its direction about the pivot by
-    (p̂ × δ)/R; with isotropic per-axis u = 1/√12 px on the zero image and the
-    reading, u(angle) = √2·(1/√12)/R rad (pivot mark held fixed)."""
+    (p̂ × δ)/R; with isotropic per-axis u px on the zero image and the
+    reading, u(angle) = √2·u/R rad (pivot mark held fixed), u ≈ 1/√12 px for a bright spot."""
     rig = make_rig({"locator": {"method": "integer"}})
     inputs, _ = build_inputs(rig)
     sub = {k: q for k, q in inputs.items() if k.endswith(("_Z", "_P1"))}
     lin = linear(VirtualRig(rig), sub)
-    want = math.degrees(math.sqrt(2) / math.sqrt(12) / rig.radius_px)
+    want = math.degrees(math.sqrt(2) * locator_model(rig).u_px / rig.radius_px)
     assert lin["P1"].u == pytest.approx(want, rel=1e-6)
+    assert want == pytest.approx(math.degrees(math.sqrt(2) / math.sqrt(12) / rig.radius_px), rel=2e-3)
 
 
 def _com_bias_max(sigma: float) -> float:
@@ -182,12 +188,14 @@ def test_pixel_locking_amplitude(sigma):
     rig = make_rig({"locator": {"method": "centroid", "window_px": 9}, "target": {"sigma_px": sigma}})
     lm = locator_model(rig)
     amp = math.exp(-2 * math.pi**2 * sigma**2) / math.pi
-    assert lm.locking_amplitude_px == pytest.approx(amp, rel=1e-9)
+    # the arcsine carries the bias's mean square over the phase, √(ΣA_k²) with the harmonics A_k:
+    # above A_1 by ½(A_2/A_1)² relative, 3e-6 at σ = 0.3 [derived]
+    assert lm.locking_amplitude_px == pytest.approx(amp, rel=1e-5)
     assert _com_bias_max(sigma) == pytest.approx(amp, rel=0.5 * math.exp(-6 * math.pi**2 * sigma**2) + 1e-6)
     inputs, _ = build_inputs(rig)
     q = inputs["lock_x_P1"].distribution
-    assert (q.low, q.high) == pytest.approx((-amp, amp))
-    assert q.u == pytest.approx(amp / math.sqrt(2), rel=1e-12)  # arcsine, a/√2 (JCGM 101 6.4.6)
+    assert (q.low, q.high) == pytest.approx((-amp, amp), rel=1e-5)
+    assert q.u == pytest.approx(lm.locking_amplitude_px / math.sqrt(2), rel=1e-12)  # arcsine, a/√2 (JCGM 101 6.4.6)
 
 
 @pytest.mark.parametrize("method", ["centroid", "integer"])

@@ -1,0 +1,148 @@
+"""Expected pixel values of a target and what the ADC makes of them, for the locator model.
+
+Pixel convention as :mod:`budget.imaging.render`: pixel j covers [j − ½, j + ½]. Derivations are in
+:mod:`budget.imaging.pixel_model` (module notes); the renderer draws the same targets independently
+(erf differences, a tabulated blurred-disk profile on sub-pixels, sub-exposures for a streak), and the
+tests compare the two.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from budget.imaging.special import phi_cdf, phi_coarse
+
+__all__ = ["EXACT_BELOW", "adu_moments", "image_2d", "profile_1d"]
+
+EXACT_BELOW = 0.75
+"""Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
+
+
+
+def _cdf_gauss_streak(u: np.ndarray, sigma: np.ndarray, streak: np.ndarray) -> np.ndarray:
+    """CDF of a Gaussian (σ) convolved with a uniform segment of length L (L = 0: the Gaussian)."""
+    z = u / sigma
+    plain = phi_cdf(z)
+    if not np.any(streak > 0):
+        return plain
+    half = 0.5 * streak
+    L = np.where(streak > 0, streak, 1.0)
+
+    def integral(v):  # ∫ Φ(v/σ) dv
+        return v * phi_cdf(v / sigma) + sigma * np.exp(-0.5 * (v / sigma) ** 2) / math.sqrt(2.0 * math.pi)
+
+    smeared = (integral(u + half) - integral(u - half)) / L
+    return np.where(streak > 1e-3 * sigma, smeared, plain)
+
+
+def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
+               streak: np.ndarray) -> np.ndarray:
+    """Fraction of the signal in each pixel column ``offsets`` for a centre at ``phase``.
+
+    ``sigma``, ``disk``, ``streak`` have the leading shape of ``phase`` (broadcast); pixel j covers
+    [j − ½, j + ½]; the result has ``phase``'s shape plus the offsets' axis.
+    """
+    j = offsets.reshape((1,) * phase.ndim + (-1,))
+    ph = phase[..., None]
+    s, d, L = sigma[..., None], disk[..., None], streak[..., None]
+    if shape == "disk":  # ∫ K(x)·2h(x) dx/(πa²) over the disk's width, as in :func:`image_2d`
+        a = 0.5 * d
+        q = int(np.clip(np.ceil(8.0 * np.max(a / s)), 48, 600))
+        tq, wq = np.polynomial.legendre.leggauss(q)
+        theta = 0.5 * math.pi * tq
+        u = (j - ph)[..., None] - a[..., None] * np.sin(theta)
+        sq, lq = s[..., None], L[..., None]
+        k = _cdf_gauss_streak(u + 0.5, sq, lq) - _cdf_gauss_streak(u - 0.5, sq, lq)
+        h = np.cos(theta)
+        return np.sum(k * (0.5 * math.pi * wq * 2.0 * h * h), axis=-1) / math.pi
+    else:
+        hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
+        lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
+    return hi - lo
+
+
+def _phi_integral(v: np.ndarray, sigma: np.ndarray) -> np.ndarray:
+    """∫ Φ(u/σ) du = v·Φ(v/σ) + σ·φ(v/σ)."""
+    return v * phi_cdf(v / sigma) + sigma * np.exp(-0.5 * (v / sigma) ** 2) / math.sqrt(2.0 * math.pi)
+
+
+def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sigma: np.ndarray, disk: np.ndarray,
+             streak: np.ndarray) -> np.ndarray:
+    """Fraction of the signal on each pixel (jy, jx) of the grid ``j`` around the nearest pixel.
+
+    Arrays ``sigma``, ``disk``, ``streak`` are (C,), the phases (P,); the result is (C, Px, Py, Jy, Jx).
+
+    Notes
+    -----
+    A spot is the product of its two projections. A disk is not separable, but its blur and the
+    pixel's area are: a pixel's share is ∫∫_disk K_x(x)·K_y(y) dx dy with K the pixel's box
+    convolved with the Gaussian (and, along x, the streak). Along y the chord [−h(x), h(x)],
+    h = √(a² − x²), integrates in closed form (∫Φ = vΦ(v/σ) + σφ(v/σ)); along x, Gauss–Legendre
+    in θ with x = a·sin θ (smooth at the disk's edge) [derived].
+    """
+    c, p = sigma.size, phx.size
+    if shape != "disk":
+        px = profile_1d(j, np.broadcast_to(phx, (c, p)), shape=shape, sigma=sigma[:, None], disk=disk[:, None],
+                        streak=streak[:, None])
+        py = profile_1d(j, np.broadcast_to(phy, (c, phy.size)), shape=shape, sigma=sigma[:, None],
+                        disk=disk[:, None], streak=np.zeros((c, 1)))
+        return py[:, None, :, :, None] * px[:, :, None, None, :]
+    a = 0.5 * disk
+    q = int(np.clip(np.ceil(8.0 * np.max(a / sigma)), 48, 600))
+    tq, wq = np.polynomial.legendre.leggauss(q)
+    theta = 0.5 * math.pi * tq
+    xq = a[:, None] * np.sin(theta)[None, :]  # (C, Q)
+    hq = a[:, None] * np.cos(theta)[None, :]
+    wgt = (0.5 * math.pi * wq)[None, :] * hq  # dx = a cos θ dθ
+    e4 = (slice(None), None, None, None)
+    s4, L4 = sigma[e4], streak[e4]
+    # K_x: (C, Px, Jx, Q), centre at phase δx, node x_q
+    u = j[None, None, :, None] - phx[None, :, None, None] - xq[:, None, None, :]
+    kx = _cdf_gauss_streak(u + 0.5, s4, L4) - _cdf_gauss_streak(u - 0.5, s4, L4)
+    # L_y: (C, Py, Jy, Q) = ∫_{−h}^{h} [Φ((jy + ½ − δy − y)/σ) − Φ((jy − ½ − δy − y)/σ)] dy
+    cy = j[None, None, :, None] - phy[None, :, None, None]
+    h4 = hq[:, None, None, :]
+    ly = (_phi_integral(cy + 0.5 + h4, s4) - _phi_integral(cy + 0.5 - h4, s4)
+          - _phi_integral(cy - 0.5 + h4, s4) + _phi_integral(cy - 0.5 - h4, s4))
+    img = np.einsum("cxjq,cyiq,cq->cxyij", kx, ly, wgt, optimize=True)
+    return img / (math.pi * a * a)[e4 + (None,)]
+
+
+def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mean and variance (ADU, ADU²) of a pixel's reading; and where the rounding was exact.
+
+    Notes
+    -----
+    See the module notes: the exact sums over the ADC thresholds where the noise is below
+    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
+    """
+    shape = np.broadcast(mu_e, read_e, gain, top).shape
+    mu_e, read_e, gain, top = (np.atleast_1d(np.asarray(a, dtype=float)) for a in
+                               np.broadcast_arrays(mu_e, read_e, gain, top))
+    x = mu_e / gain
+    s = np.sqrt(mu_e + read_e**2) / gain
+    mean = np.minimum(x, top)
+    var = s**2 + 1.0 / 12.0
+    exact = s < EXACT_BELOW
+    # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain
+    for lo_s, hi_s, band in ((0.0, 0.15, 1), (0.15, 0.3, 2), (0.3, 0.5, 3), (0.5, EXACT_BELOW, 4)):
+        group = exact & (s >= lo_s) & (s < hi_s)
+        if not np.any(group):
+            continue
+        xe, se, te = x[group], np.maximum(s[group], 1e-9), top[group]
+        k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
+        below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
+        m1 = below.copy()
+        m2 = below**2
+        for o in range(-band + 1, band + 1):
+            k = k0 + o
+            ok = (k >= 1) & (k <= te)
+            p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
+            m1 += p
+            m2 += (2.0 * k - 1.0) * p
+        mean[group] = m1
+        var[group] = np.maximum(m2 - m1**2, 0.0)
+    return mean.reshape(shape), var.reshape(shape), exact.reshape(shape)
