@@ -14,7 +14,7 @@ from pathlib import Path
 from budget.errors import BudgetInputError, field_error
 from budget.imaging.locator_model import spot_sigma_px
 from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
-from budget.inputs.supplied import applies, conditional_assumptions, plausibility_warnings
+from budget.inputs.supplied import applies, conditional_assumptions, meter_check, plausibility_warnings
 from budget.rig import description as d
 
 __all__ = ["load_rig", "parse_rig", "SCHEMA"]
@@ -253,24 +253,11 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
     rig = d.RigDescription(title=title, raw=doc, assumptions=tuple(assumed), **built)  # type: ignore[arg-type]
     _cross_checks(rig)
     _target_checks(rig)
-    _meter_check(rig, doc)
+    meter_check(rig, doc)
     assumed = [a for a in assumed if applies(rig, a.field)]
     listed = tuple(a.field for a in assumed)
     return dataclasses.replace(rig, assumptions=(*assumed, *conditional_assumptions(rig, doc, listed)),
                                input_warnings=tuple(plausibility_warnings(doc)))
-
-
-def _meter_check(rig: d.RigDescription, doc: dict) -> None:
-    """A read-back meter without its specification would be a perfect meter: refused."""
-    s = rig.source
-    if s is None or s.readback != "dmm":
-        return
-    table = doc.get("source") or {}
-    for key in ("dmm_pct_reading", "dmm_counts"):
-        if key not in table:
-            raise BudgetInputError(f"The '{key}' field of [source] is missing; readback = \"dmm\" needs the meter's "
-                                   "specification (±% of reading and ±counts, each a number >= 0; 0 only if the "
-                                   "meter's certificate says so).")
 
 
 def _assumed(section: str, fields: dict[str, Field], given: dict) -> list[d.Assumption]:

@@ -15,10 +15,12 @@ this module adds those that apply only in some rigs, and the omissions.
 
 from __future__ import annotations
 
+from budget.errors import BudgetInputError
 from budget.imaging.locator_model import spot_sigma_px
 from budget.rig import description as d
 
-__all__ = ["OMISSION", "NOT_GIVEN", "conditional_assumptions", "plausibility_warnings", "PLAUSIBLE", "applies"]
+__all__ = ["OMISSION", "NOT_GIVEN", "conditional_assumptions", "plausibility_warnings", "PLAUSIBLE", "applies",
+           "meter_check"]
 
 OMISSION = "optimistic omission: "
 """How the reason of a left-out component begins: the budget lacks that term and is smaller for it."""
@@ -193,3 +195,16 @@ def plausibility_warnings(doc: dict) -> list[str]:
             out.append(f"The 'nominal_gain_deg_per_v' field of [sweep] is {k:g} °/V, outside the plausible range "
                        "[0.1, 1000] °/V: was it typed in rad/V or °/mV? (the budget uses it as given).")
     return out
+
+
+def meter_check(rig: d.RigDescription, doc: dict) -> None:
+    """A read-back meter without its specification would be a perfect meter: refused."""
+    s = rig.source
+    if s is None or s.readback != "dmm":
+        return
+    table = doc.get("source") or {}
+    for key in ("dmm_pct_reading", "dmm_counts"):
+        if key not in table:
+            raise BudgetInputError(f"The '{key}' field of [source] is missing; readback = \"dmm\" needs the meter's "
+                                   "specification (±% of reading and ±counts, each a number >= 0; 0 only if the "
+                                   "meter's certificate says so).")
