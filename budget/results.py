@@ -44,6 +44,9 @@ class ComponentLine:
     sources: tuple[str, ...]
     inputs: tuple[str, ...]
     description: str = ""
+    u_exact_pivot: float | None = None
+    """With a fitted pivot: this component's linear contribution had the pivot been known exactly (the
+    rest of ``contribution`` comes through the fit); None when the pivot is not fitted."""
 
     @property
     def effective_sensitivity(self) -> float | None:
@@ -84,6 +87,9 @@ class OutputBudget:
     method: str  # "linear" when validated, "monte carlo" otherwise
     warnings: tuple[str, ...]
     reference: ReferenceCheck | None = None
+    u_exact_pivot: float | None = None
+    """With a fitted pivot: the linear u had the pivot been known exactly; u² − u_exact² comes through
+    the fit (a pivot mark or a longer arc would remove it). None when the pivot is not fitted."""
 
     @property
     def result_estimate(self) -> float:

@@ -34,7 +34,8 @@ def execute(args: argparse.Namespace) -> int:
         print(f"  {name:<22} {q.group or name:<22} {q.evaluation:<4} {d.describe():<36} "
               f"{fmt(d.u):>7} {q.unit:<3} {fmt_dof(d.dof):>4}  {q.source}")
     if rig.assumptions:
-        print("assumptions (values the tool supplied because the file left them out):")
+        print("assumptions (values the tool supplied because the file left them out; an 'optimistic omission' "
+              "is a component the budget lacks):")
         for a in rig.assumptions:
             print(f"  {a.field} = {a.value!r}: {a.reason}")
     if ev.data is not None:
@@ -42,7 +43,7 @@ def execute(args: argparse.Namespace) -> int:
               f"{sum(f.kind == 'data' for f in ev.data.files)} data file(s) naming "
               f"{sum(f.kind == 'image' for f in ev.data.files)} image(s)")
         print(f"  {ev.data.scatter_check}")
-    for note in (*lm.notes, *ev.warnings):
+    for note in (*rig.input_warnings, *lm.notes, *ev.warnings):
         print(f"! {note}")
     return 0
 

@@ -23,14 +23,18 @@ SEED_BOUND = 2**32
 """A seed drawn when none is given is below this: ten digits at most, short enough to retype."""
 
 
-def make_rng(seed: int | None) -> np.random.Generator:
+def make_rng(seed: int | None, stream: int = 0) -> np.random.Generator:
     """The one place a generator is made from a seed; a seed below :data:`SEED_BOUND` is drawn when none is given.
 
     The drawn seed is the generator's seed-sequence entropy, so :func:`seed_of` and every report give it,
-    and ``--seed`` with that number repeats the run.
+    and ``--seed`` with that number repeats the run. ``stream`` > 0 gives an independent stream of the
+    same seed (a spawned seed sequence), for draws that follow a run made from ``seed`` and must not
+    repeat its numbers.
     """
     if seed is None:
         seed = secrets.randbelow(SEED_BOUND)
+    if stream:
+        return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(stream,)))
     return np.random.default_rng(np.random.SeedSequence(seed))
 
 

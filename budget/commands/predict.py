@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from budget.commands.common import dumps
+from budget.commands.common import dumps, make_rng
 from budget.errors import BudgetInputError, field_error
 
 __all__ = ["execute"]
@@ -24,14 +24,15 @@ def execute(args: argparse.Namespace) -> int:
             raise field_error("--volts", f"a voltage within the source's range [{lo:g}, {hi:g}] V "
                               f"({rig.source.polarity}, span {rig.source.span_v:g} V)", args.volts)
     rig, result = evaluate_rig_file(args, quiet=True)
-    pred = predict_from_sweep(rig, result, angle_deg=args.angle, volts=args.volts)
+    pred = predict_from_sweep(rig, result, angle_deg=args.angle, volts=args.volts,
+                              rng=make_rng(result.seed, stream=1))
     if args.json:
         print(dumps(pred))
         return 0
     what = "voltage to command" if args.angle is not None else "expected angle"
     print(f"{what}: {pred['statement']}")
-    print(f"  u = {pred['u']:.3g} {pred['unit']} (Monte Carlo, {pred['trials']} trials; "
-          f"linear: {pred['u_linear']:.3g} {pred['unit']})")
+    print(f"  Monte Carlo, {pred['trials']} trials, probabilistically symmetric interval (JCGM 101 7.7); "
+          f"linear: u = {pred['u_linear']:.3g} {pred['unit']}")
     for w in pred["warnings"]:
         print(f"  ! {w}")
     return 0

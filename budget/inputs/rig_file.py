@@ -14,6 +14,7 @@ from pathlib import Path
 from budget.errors import BudgetInputError, field_error
 from budget.imaging.locator_model import spot_sigma_px
 from budget.inputs.schema import Field, choice, coerce, non_negative, number, positive, read_toml, suggest
+from budget.inputs.supplied import applies, conditional_assumptions, meter_check, plausibility_warnings
 from budget.rig import description as d
 
 __all__ = ["load_rig", "parse_rig", "SCHEMA"]
@@ -39,6 +40,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "row_time_us": non_negative(),
         "frame_rate_hz": positive(),
         "exposure_ms": positive(),
+        "prnu_pct": number("a number in [0, 100]", lambda v: 0 <= v <= 100),
+        "dsnu_e": number("a number >= 0 and <= 1e6", lambda v: 0 <= v <= 1e6),
         "source": _SOURCE,
     },
     "lens": {
@@ -46,8 +49,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "f_number": number("a number in [0.5, 64]", lambda v: 0.5 <= v <= 64),
         "distortion": choice("corrected", "uncorrected"),
         "residual_rms_px": number("a number in (0, 100]", lambda v: 0 < v <= 100,
-                                  assumed="what a careful calibration reaches (common practice, value from "
-                                          "memory); give your calibration's RMS reprojection error"),
+                                  assumed="possibly optimistic: what a careful calibration reaches (common "
+                                          "practice, value from memory); give your calibration's RMS reprojection "
+                                          "error"),
         "residual_correlation_px": number("a number in [0, 1e6]", lambda v: 0 <= v <= 1e6),
         "distortion_edge_pct": number("a number in [0, 20]", lambda v: 0 <= v <= 20),
         "wavelength_nm": number("a number in [200, 2000]", lambda v: 200 <= v <= 2000),
@@ -72,6 +76,14 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "tilt_azimuth_deg": number("a number in [-360, 360]", lambda v: -360 <= v <= 360),
         "remounted": Field("bool", "true or false"),
         "roll_bound_deg": number("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "mount_shift_um": number("a number in [0, 1e5]", lambda v: 0 <= v <= 1e5),
+        "mount_roll_deg": number("a number in [0, 45]", lambda v: 0 <= v <= 45),
+        "source": _SOURCE,
+    },
+    "pointer": {
+        "repeatability_deg": number("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "settling_deg": number("a number in [0, 90)", lambda v: 0 <= v < 90),
+        "pivot_play_mm": number("a number in [0, 100]", lambda v: 0 <= v <= 100),
         "source": _SOURCE,
     },
     "target": {
@@ -79,8 +91,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "sigma_px": number("a number in [0.01, 100]", lambda v: 0.01 <= v <= 100),
         "diameter_mm": number("a number >= 0 and <= 1000", lambda v: 0 <= v <= 1000),
         "signal_e": number("a number in [1, 1e12]", lambda v: 1 <= v <= 1e12,
-                           assumed="a well-exposed target (assumption); the signal sets the centroid "
-                                   "noise: measure it from a frame"),
+                           assumed="possibly optimistic: a well-exposed target (assumption); the signal "
+                                   "sets the centroid noise: measure it from a frame"),
         "background_e": number("a number >= 0 and <= 1e9", lambda v: 0 <= v <= 1e9,
                                assumed="a dark surround (assumption); measure it beside the target"),
         "source": _SOURCE,
@@ -175,7 +187,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
 }
 
 _CLASSES = {
-    "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target,
+    "camera": d.Camera, "lens": d.Lens, "geometry": d.Geometry, "target": d.Target, "pointer": d.Pointer,
     "locator": d.Locator, "pivot": d.Pivot, "frames": d.Frames, "motion": d.Motion,
     "source": d.VoltageSource, "positions": d.Positions, "sweep": d.Sweep, "data": d.Data,
     "reference": d.Reference,
@@ -221,7 +233,7 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
                 raise BudgetInputError(f"The '{key}' field of [{section}] is missing; it must be {spec.allowed}.")
         built[section] = _CLASSES[section](**values)
         assumed += _assumed(section, fields, values)
-    for section in ("target", "locator", "pivot", "frames", "motion"):
+    for section in ("target", "pointer", "locator", "pivot", "frames", "motion"):
         if built[section] is None:
             built[section] = _CLASSES[section]()
             assumed += _assumed(section, SCHEMA[section], {})
@@ -241,7 +253,11 @@ def parse_rig(doc: dict, base: Path | None = None) -> d.RigDescription:
     rig = d.RigDescription(title=title, raw=doc, assumptions=tuple(assumed), **built)  # type: ignore[arg-type]
     _cross_checks(rig)
     _target_checks(rig)
-    return rig
+    meter_check(rig, doc)
+    assumed = [a for a in assumed if applies(rig, a.field)]
+    listed = tuple(a.field for a in assumed)
+    return dataclasses.replace(rig, assumptions=(*assumed, *conditional_assumptions(rig, doc, listed)),
+                               input_warnings=tuple(plausibility_warnings(doc)))
 
 
 def _assumed(section: str, fields: dict[str, Field], given: dict) -> list[d.Assumption]:

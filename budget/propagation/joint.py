@@ -211,7 +211,8 @@ def collapse_joint(cu: np.ndarray, r: np.ndarray | None, dofs: np.ndarray,
     dofs : array
         ν_i.
     groups : list of index lists
-        The joint quantities (:func:`joint_groups`).
+        The joint quantities (:func:`joint_groups`), or any set of correlated inputs
+        (:func:`budget.propagation.lpu.correlated_clusters`): a set's ν is its smallest.
 
     Returns
     -------
@@ -235,7 +236,7 @@ def collapse_joint(cu: np.ndarray, r: np.ndarray | None, dofs: np.ndarray,
         v = cu[g]
         rr = np.eye(len(g)) if r is None else r[np.ix_(g, g)]
         contrib.append(math.sqrt(max(float(v @ rr @ v), 0.0)))
-        nus.append(float(dofs[g[0]]))
+        nus.append(float(np.min(dofs[g])))  # a joint quantity's ν is shared; a correlated set: the smallest
     return np.array(contrib, dtype=float), np.array(nus, dtype=float)
 
 

@@ -192,12 +192,54 @@ def _groups(
     return tuple(out)
 
 
+def correlated_clusters(rr: np.ndarray | None, joint: list[list[int]]) -> list[list[int]]:
+    """Inputs linked by a non-zero correlation (directly or through others) or by a joint quantity.
+
+    Each cluster of two or more inputs is one term of Welch–Satterthwaite (:func:`_ws`); the
+    joint quantities of :mod:`budget.propagation.joint` are clusters of their own (or part of a
+    larger one if an outside input is correlated with them).
+    """
+    n = 0 if rr is None else rr.shape[0]
+    parent = list(range(max(n, max((max(g) for g in joint), default=-1) + 1)))
+
+    def root(i: int) -> int:
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    pairs = [] if rr is None else zip(*np.nonzero(np.triu(rr, 1)), strict=True)
+    links = [*((int(a), int(b)) for a, b in pairs), *((g[0], j) for g in joint for j in g[1:])]
+    for a, b in links:
+        parent[root(a)] = root(b)
+    found: dict[int, list[int]] = {}
+    for i in range(len(parent)):
+        found.setdefault(root(i), []).append(i)
+    return [c for c in found.values() if len(c) > 1]
+
+
+def _correlated_dof_note(names: list[str], rr: np.ndarray | None, dofs: np.ndarray, joint: list[list[int]],
+                         cu: np.ndarray) -> str:
+    """Words for correlated inputs with finite ν outside one joint quantity: how ν_eff counts them."""
+    joint_sets = [set(g) for g in joint]
+    odd = [c for c in correlated_clusters(rr, joint)
+           if set(c) not in joint_sets and np.isfinite(dofs[c]).any() and np.any(cu[c] != 0)]
+    if not odd:
+        return ""
+    which = "; ".join(", ".join(f"'{names[i]}'" for i in c) for c in odd[:3])
+    return ("Correlated inputs with finite degrees of freedom (" + which + "): Welch–Satterthwaite assumes "
+            "independent inputs, so each correlated set is one term, u = √(cᵀRc), with the smallest ν of the set "
+            "(the form of Willink 2007, Metrologia 44:340, for dependent errors, recalled from memory; the "
+            "smallest ν is our conservative choice when they differ).")
+
+
 def _ws(u_c: float, cu: np.ndarray, rr: np.ndarray | None, dofs: np.ndarray, joint: list[list[int]],
         subset: list[int] | None = None) -> float:
-    """ν_eff over the inputs ``subset`` (all by default), each joint quantity counted once."""
+    """ν_eff over the inputs ``subset`` (all by default), each joint quantity and each set of correlated
+    inputs counted once (:func:`correlated_clusters`, smallest ν of the set)."""
     idx = list(range(cu.size)) if subset is None else list(subset)
     pos = {i: k for k, i in enumerate(idx)}
-    groups = [[pos[i] for i in g if i in pos] for g in joint]
+    groups = [[pos[i] for i in g if i in pos] for g in correlated_clusters(rr, joint)]
     sub_r = None if rr is None else rr[np.ix_(idx, idx)]
     contrib, nus = collapse_joint(cu[idx], sub_r, dofs[idx], [g for g in groups if len(g) > 1])
     return welch_satterthwaite(u_c, contrib, nus)
@@ -285,13 +327,22 @@ def linear(
             diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
             u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu, STEP2)
         u_c2 = u1_2 + u2_2
-        if u_c2 < 0:
-            u_c2 = 0.0
+        warn: list[str] = []
+        if u_c2 < 0:  # eq. (14) is a truncated series; far from linear its sum can be negative
+            warn.append(
+                f"Output '{on}': the second-order terms of JCGM 100 eq. (14) ({u2_2:.3g}) exceed the first-order "
+                f"variance ({u1_2:.3g}), so the series gives a negative u_c² ({u_c2:.3g}): the model is too "
+                "non-linear over the inputs' spread for the linear method, which keeps only the first-order "
+                "u here; rely on Monte Carlo (JCGM 101) for this output."
+            )
+            u_c2 = u1_2
         u_c = math.sqrt(u_c2)
         contributions = np.abs(cu)
         nu = _ws(u_c, cu, r, dofs, joint)
         kf = coverage_factor(p, nu)
-        warn: list[str] = []
+        note = _correlated_dof_note(names, r, dofs, joint, cu)
+        if note:
+            warn.append(note)
         # row_share_i = Σ_j of row i of cov_share, and the percent, for every input at once; the
         # columns no output changes come from ``fixed``.
         percent = (100.0 * cov_share.sum(axis=1) / u_c2).tolist() if u_c2 > 0 else [0.0] * n_in

@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import math
-from decimal import ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal, localcontext
+from decimal import ROUND_CEILING, ROUND_FLOOR, ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal, localcontext
 
 from budget.errors import field_error
 
-__all__ = ["round_pair", "statement", "interval_statement"]
+__all__ = ["round_pair", "statement", "interval_statement", "outward_interval"]
 
 _MODES = {"nearest": ROUND_HALF_UP, "up": ROUND_UP, "even": ROUND_HALF_EVEN}
 
@@ -73,13 +73,41 @@ def statement(name: str, estimate: float, U: float, k: float, p: float, unit: st
 
 def interval_statement(name: str, estimate: float, u: float, interval: tuple[float, float],
                        p: float, unit: str = "", digits: int = 2) -> str:
-    """A Monte Carlo statement: estimate, u and the coverage interval (JCGM 101 7.6–7.8)."""
+    """A Monte Carlo statement: estimate, u and the coverage interval (JCGM 101 7.6–7.8).
+
+    The interval's ends are given at the decimal place of u and rounded outward
+    (:func:`outward_interval`), so the stated interval holds the computed one.
+    """
     y, uu = round_pair(estimate, u, digits)
     places = max(0, -Decimal(uu).as_tuple().exponent)
-    lo, hi = (f"{v:.{places}f}" for v in interval)
+    lo, hi = outward_interval(interval, places)
     unit_txt = f" {unit}" if unit else ""
     return (f"{name} = {y}{unit_txt}, u = {uu}{unit_txt}, "
             f"{_percent(p)} % coverage interval [{lo}, {hi}]{unit_txt}")
+
+
+def outward_interval(interval: tuple[float, float], places: int) -> tuple[str, str]:
+    """The ends of a coverage interval with ``places`` decimals, the low end rounded down and the high
+    end rounded up.
+
+    Notes
+    -----
+    Rounding the ends outward keeps the stated interval's coverage at least the computed one
+    (common practice; from memory, JCGM 101 asks for the endpoints to be stated so that the
+    interval is not made narrower by rounding; clause not verified here). E.g.
+    [1.0834, 1.3826] at 3 decimals is [1.083, 1.383], [1.0839, 1.3821] is [1.083, 1.383] too.
+    """
+    lo, hi = (Decimal(repr(float(v))) for v in interval)
+    quantum = Decimal(1).scaleb(-places)
+    with localcontext() as ctx:
+        ctx.prec = max(28, max(lo.adjusted(), hi.adjusted()) + places + 4)
+        lo_d = lo.quantize(quantum, rounding=ROUND_FLOOR)
+        hi_d = hi.quantize(quantum, rounding=ROUND_CEILING)
+    if lo_d.is_zero():
+        lo_d = lo_d.copy_abs()
+    if hi_d.is_zero():
+        hi_d = hi_d.copy_abs()
+    return format(lo_d, "f"), format(hi_d, "f")
 
 
 def _percent(p: float) -> str:

@@ -21,7 +21,7 @@ import io
 from decimal import Decimal
 
 from budget.errors import BudgetInputError
-from budget.propagation.rounding import round_pair
+from budget.propagation.rounding import outward_interval, round_pair
 from budget.report.safe_write import csv_text, csv_writer
 from budget.results import RunResult
 
@@ -53,7 +53,7 @@ def statement_numbers(ob) -> dict[str, str]:
             mc = ob.monte_carlo
             out["estimate"], out["u"] = round_pair(mc.estimate, mc.u)
             places = max(0, -Decimal(out["u"]).as_tuple().exponent)
-            out["low"], out["high"] = (f"{v:.{places}f}" for v in mc.interval)
+            out["low"], out["high"] = outward_interval(mc.interval, places)  # ends rounded outward
     except BudgetInputError:  # u or U = 0: the statement has no rounded numbers
         return dict.fromkeys(STATED, "")
     return out

@@ -16,6 +16,7 @@ def _components(ob: OutputBudget) -> list[dict]:
             "name": c.name, "description": c.description, "type": c.evaluation, "distribution": c.distribution,
             "u": c.contribution, "percent": c.percent, "dof": finite_or_none(c.dof),
             "monte_carlo_u": c.mc_u, "sources": list(c.sources),
+            **({"u_exact_pivot": c.u_exact_pivot} if c.u_exact_pivot is not None else {}),
         }
         for c in ob.components
     ]
@@ -42,6 +43,10 @@ def output_to_dict(ob: OutputBudget, suffix: str = "") -> dict:
         "result_method": ob.method,
         "statement": ob.statement if ob.method == "linear" else ob.mc_statement,
         "components": _components(ob),
+        **({"pivot_fit": {f"u_fitted_pivot{s}": lin.u, f"u_exact_pivot{s}": ob.u_exact_pivot,
+                          "percent_of_variance_through_fit":
+                              100.0 * max(0.0, 1.0 - (ob.u_exact_pivot / lin.u) ** 2) if lin.u > 0 else 0.0}}
+           if ob.u_exact_pivot is not None else {}),
         "warnings": list(ob.warnings),
     }
 

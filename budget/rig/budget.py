@@ -15,8 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from budget import __version__
-from budget.errors import BudgetInputError, collected_warnings
-from budget.fit import ols_batch_residuals
+from budget.errors import BudgetInputError, collected_warnings, warn
 from budget.imaging.locator_model import locator_model
 from budget.propagation import (
     InputQuantity,
@@ -31,6 +30,7 @@ from budget.propagation.model import NonFiniteOutput
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
 from budget.rig import checks
 from budget.rig import components as comp
+from budget.rig.attribution import exact_pivot_linear, with_pivot_attribution
 from budget.rig.description import RigDescription
 from budget.rig.evaluation import Evaluation
 from budget.rig.model import VirtualRig
@@ -102,6 +102,8 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     # The engine's per-input zero-sensitivity notes list every other point's inputs for each
     # angle; the component-level comparison with Monte Carlo below says what matters.
     warns = [w for w in lin.warnings if "zero first-order sensitivity" not in w] + list(mc.warnings)
+    if lin2 is not None:  # a negative second-order variance is said, never clamped silently
+        warns += [f"{label}: {w}" for w in lin2.warnings if "negative u_c²" in w]
     u2 = lin2.u if lin2 is not None else None
     lines = _component_lines(lin, group_mc, name)
     missed = [c for c in lines if c.mc_u is not None and c.contribution <= 1e-9 * max(lin.u, 1e-300)
@@ -139,28 +141,6 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
         monte_carlo=mc, validation=val, components=lines, statement=lin_stmt, mc_statement=mc_stmt,
         method="linear" if val.validated else "monte carlo", warnings=tuple(warns),
     )
-
-
-NONLINEARITY = "nonlinearity_pct"
-"""Per-trial value the sweep's Monte Carlo keeps beside its outputs (``derived``)."""
-
-
-def _nonlinearity_per_trial(rig: RigDescription) -> Callable[[dict[str, np.ndarray]], np.ndarray]:
-    """Largest |residual| of each trial's straight line as % of its angle span, from a chunk's outputs."""
-    x = np.array(rig.sweep.set_points_v)
-    names = [f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))]
-
-    def per_trial(out: dict[str, np.ndarray]) -> np.ndarray:
-        y = np.stack([out[k] for k in names]).T  # (trials, points), each point a contiguous row beneath
-        _, _, res = ols_batch_residuals(x, y)
-        return 100.0 * np.max(np.abs(res), axis=1) / np.ptp(y, axis=1)
-
-    return per_trial
-
-
-def _nonlinearity_pct(nl: np.ndarray) -> tuple[float, float]:
-    """Mean and 95th percentile over the trials of the per-trial non-linearity."""
-    return float(nl.mean()), float(np.quantile(nl, 0.95))
 
 
 def run_budget(
@@ -217,6 +197,8 @@ def run_budget(
 def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, trials: int | None,
                 input_path: str | Path, progress: Callable[[int], None] | None, type_a: dict | None,
                 measured_deg: tuple[float, ...] | None) -> RunResult:
+    for note in rig.input_warnings:  # numbers outside their plausible range: into every report
+        warn(note)
     inputs, corr = comp.build_inputs(rig, type_a)
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
@@ -235,14 +217,18 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             inputs = {**inputs, **checks.misfit_inputs(rig, lof)}
             lin = linear(model, inputs, p=p, correlation=corr_arg)
     lin2 = None if corr else linear(model, inputs, p=p, second_order=True)
+    exact = VirtualRig(rig, type_a, exact_pivot=True)
+    exact = exact if measured_deg is None else TrueValueModel(exact, located=reference, nominal=nominal)
+    lin0 = exact_pivot_linear(rig, exact, inputs, p, corr_arg)  # None unless the pivot is fitted
     # Kept in trial order: what predict propagates further ((K, θ0), and a rejected line's
     # discrepancy at a new point), and each trial's non-linearity; the intervals, histograms and
     # correlations need no trial order.
     sweep = rig.sweep is not None
-    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()))
+    keep = ("gain", "intercept", *(("line_discrepancy",) if "misfit_new" in inputs else ()),
+            *(("gain_shared", "intercept_shared") if model_shares(model) else ()))
     mc = monte_carlo(model, inputs, p=p, trials=trials, rng=rng, correlation=corr_arg, progress=progress,
                      joint=keep if sweep else False,
-                     derived={NONLINEARITY: _nonlinearity_per_trial(rig)} if sweep else None)
+                     derived={checks.NONLINEARITY: checks.nonlinearity_per_trial(rig)} if sweep else None)
     groups: dict[str, tuple[str, ...]] = {}
     for name, q in inputs.items():
         groups.setdefault(q.group or name, ())
@@ -257,7 +243,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
                      mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes)
         if measured_deg is not None:
             ob = replace(ob, reference=checks.reference_check(rig, ob, i))
-        angles.append(ob)
+        angles.append(ob if lin0 is None else with_pivot_attribution(ob, lin0[name], rig.pivot.method))
     gain = summary = None
     if rig.sweep is not None:
         gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
@@ -265,11 +251,14 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
                             lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
                             rig.pivot.method, causes)
+        if lin0 is not None:
+            gain = with_pivot_attribution(gain, lin0["gain"], rig.pivot.method)
+            intercept = with_pivot_attribution(intercept, lin0["intercept"], rig.pivot.method)
         ig, ii = lin.names.index("gain"), lin.names.index("intercept")
         corr_lin = lin.correlation[ig, ii]
         jg, ji = mc.names.index("gain"), mc.names.index("intercept")
         corr_mc = float(mc.correlation[jg, ji])
-        nl_mean, nl_95 = _nonlinearity_pct(mc.joint[NONLINEARITY])
+        nl_mean, nl_95 = checks.nonlinearity_pct(mc.joint[checks.NONLINEARITY])
         summary = GainSummary(intercept=intercept, correlation_linear=float(corr_lin),
                               correlation_mc=corr_mc, nonlinearity_mean_pct=nl_mean,
                               nonlinearity_p95_pct=nl_95, chi2=lof.chi2 if lof is not None else None,
@@ -286,6 +275,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
             warns.append(f"{ob.label}: E_n = {ref.E_n:+.2f} against the reference {ref.angle_deg:g}° "
                          f"(U_ref = {ref.U_deg:g}°, {ref.source}): |E_n| > 1, the measurement and the reference "
                          "disagree beyond their expanded uncertainties (ISO 13528).")
+    reported = [n for n in lin.names if n in nominal]  # not the model's helper outputs (shared terms, discrepancy)
     path = Path(input_path) if input_path else None
     sha = hashlib.sha256(path.read_bytes()).hexdigest() if path and path.is_file() else ""
     return RunResult(
@@ -293,11 +283,12 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         input_sha256=sha, created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
         seed=mc.seed, p=p, angles=tuple(angles), gain=gain, gain_summary=summary,
         warnings=tuple(warns), inputs=inputs, rig_raw=rig.raw,
-        locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != NONLINEARITY},
+        locator_notes=notes, joint={k: v for k, v in mc.joint.items() if k != checks.NONLINEARITY},
         assumptions=rig.assumptions,
         mode="design" if measured_deg is None else "evaluation",
-        covariance_names=tuple(lin.names), covariance_linear=np.array(lin.covariance),
-        covariance_mc=np.array(mc.covariance)[np.ix_(*[[mc.names.index(n) for n in lin.names]] * 2)],
+        covariance_names=tuple(reported),
+        covariance_linear=np.array(lin.covariance)[np.ix_(*[[lin.names.index(n) for n in reported]] * 2)],
+        covariance_mc=np.array(mc.covariance)[np.ix_(*[[mc.names.index(n) for n in reported]] * 2)],
     )
 
 
@@ -313,9 +304,20 @@ class TrueValueModel:
     def __init__(self, model, *, located: dict[str, float], nominal: dict[str, float]) -> None:
         self.model, self.located, self.nominal = model, located, nominal
 
+    @property
+    def shared(self) -> bool:
+        return self.model.shared
+
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
-        return {k: self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v for k, v in out.items()}
+        # the terms calibration and use share are an effect on the line, not a measurand: kept as they are
+        return {k: v if k.endswith("_shared") else self.located.get(k, 0.0) + self.nominal.get(k, 0.0) - v
+                for k, v in out.items()}
+
+
+def model_shares(model) -> bool:
+    """Whether the rig model gives the source's shared terms (``gain_shared``, ``intercept_shared``)."""
+    return bool(getattr(model, "shared", False))
 
 
 def _not_finite(rig: RigDescription, exc: NonFiniteOutput) -> str:
@@ -365,6 +367,10 @@ def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
 def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...], evaluated: bool = False) -> list[str]:
     """What the physics says about this rig, whatever the numbers (``per_reading`` only in design mode)."""
     out = list(locator_notes)
+    g = rig.geometry
+    if g.tilt_bound_deg is None and g.tilt_deg is None:  # the omission that matters most, also among the notes
+        out.append("No camera tilt is given ([geometry] tilt_bound_deg, or tilt_deg with tilt_u_deg): the budget has "
+                   "no camera-tilt term, often its largest component, and is optimistic by it.")
     if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid") and not evaluated:
         what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
         out.append(

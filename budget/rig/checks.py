@@ -11,16 +11,18 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 
-from budget.fit import straight_line
+from budget.fit import ols_batch_residuals, straight_line
 from budget.propagation import InputQuantity, MultivariateT, Normal
 from budget.results import LackOfFit, OutputBudget, ReferenceCheck
 from budget.rig.components import MISFIT
 from budget.rig.description import RigDescription
 
-__all__ = ["own_u_deg", "lack_of_fit", "paule_mandel", "misfit_inputs", "reference_check"]
+__all__ = ["own_u_deg", "lack_of_fit", "paule_mandel", "misfit_inputs", "reference_check", "NONLINEARITY",
+           "nonlinearity_per_trial", "nonlinearity_pct"]
 
 METHOD = ("per-point discrepancy s_d with χ²(u_j² + s_d²) = ν (Paule & Mandel 1982, J. Res. Natl. Bur. Stand. "
           "87:377, applied to the straight line), carried as a joint t with ν = n − 2 into the gain, the "
@@ -155,3 +157,25 @@ def reference_check(rig: RigDescription, ob: OutputBudget, index: int) -> Refere
     e_n = (y - a) / math.hypot(big_u, u_ref)
     return ReferenceCheck(angle_deg=a, U_deg=u_ref, measured_deg=y, measured_U_deg=big_u, E_n=e_n,
                           ok=abs(e_n) <= 1.0, source=ref.source)
+
+
+NONLINEARITY = "nonlinearity_pct"
+"""Per-trial value the sweep's Monte Carlo keeps beside its outputs (``derived``)."""
+
+
+def nonlinearity_per_trial(rig: RigDescription) -> Callable[[dict[str, np.ndarray]], np.ndarray]:
+    """Largest |residual| of each trial's straight line as % of its angle span, from a chunk's outputs."""
+    x = np.array(rig.sweep.set_points_v)
+    names = [f"P{i + 1}" for i in range(len(rig.nominal_angles_deg))]
+
+    def per_trial(out: dict[str, np.ndarray]) -> np.ndarray:
+        y = np.stack([out[k] for k in names]).T  # (trials, points), each point a contiguous row beneath
+        _, _, res = ols_batch_residuals(x, y)
+        return 100.0 * np.max(np.abs(res), axis=1) / np.ptp(y, axis=1)
+
+    return per_trial
+
+
+def nonlinearity_pct(nl: np.ndarray) -> tuple[float, float]:
+    """Mean and 95th percentile over the trials of the per-trial non-linearity."""
+    return float(nl.mean()), float(np.quantile(nl, 0.95))

@@ -13,6 +13,8 @@ import math
 
 import numpy as np
 
+from budget.imaging.fixed_pattern import FORMULA as FPN_FORMULA
+from budget.imaging.fixed_pattern import dsnu_sd_px, prnu_sd_px
 from budget.imaging.locator_model import locator_model
 from budget.propagation import Arcsine, InputQuantity, MultivariateT, Normal, Rectangular
 from budget.rig.description import RigDescription, point_labels
@@ -31,7 +33,13 @@ DIST = "lens distortion"
 TIMING = "frame timing"
 DRIFT = "drift in frames"
 MISFIT = "lack of fit"
-GROUPS = (QUANT, LOCK, NOISE, DRIFT, PIVOT, SKEW, DIST, TIMING, SOURCE, READBACK, MISFIT)
+FPN = "fixed-pattern noise"
+REPEAT = "pointer repeatability"
+SETTLE = "pointer settling"
+PLAY = "pivot runout"
+MOUNT = "camera-mount drift"
+GROUPS = (QUANT, LOCK, NOISE, FPN, DRIFT, PIVOT, SKEW, MOUNT, REPEAT, SETTLE, PLAY, DIST, TIMING, SOURCE, READBACK,
+          MISFIT)
 
 DESCRIPTIONS = {
     QUANT: "integer-pixel locator: the located position is a whole pixel",
@@ -47,6 +55,14 @@ DESCRIPTIONS = {
     READBACK: "the meter that reads the voltage back: its ±% of reading, ±counts and resolution",
     DRIFT: "the located target moved steadily during a position's frames (a significant trend): where the "
            "pointer was is uncertain over the drift's extent",
+    FPN: "pixel-to-pixel differences of gain (PRNU) and dark signal (DSNU): the same in every frame, so "
+         "averaging frames does not reduce them",
+    REPEAT: "the pointer does not come to rest at the same angle each time (friction, hysteresis): zero image "
+            "and readings each",
+    SETTLE: "a reading taken before the pointer has settled: what it still moves afterwards",
+    PLAY: "the shaft's runout or bearing play: the pointer's pivot moves between images",
+    MOUNT: "the camera moves on its mount between the zero image and the readings (thermal drift, knocks): "
+           "a shift at the dial and a roll",
     MISFIT: "the sweep's readings scatter about the straight line more than their own uncertainties allow "
             "(χ² test): a per-point discrepancy of the line, carried into the gain and the intercept",
 }
@@ -55,6 +71,12 @@ DESCRIPTIONS = {
 
 def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
     return InputQuantity(distribution=dist, unit=unit, group=group, source=source)
+
+
+def _supplied(rig: RigDescription, *names: str) -> str:
+    """Words for a source note when a value behind the term came from the tool, not from the section's source."""
+    found = [n for n in names if rig.assumed(n)]
+    return f"; {', '.join(found)} supplied by thetabudget (an assumption, not from this source)" if found else ""
 
 
 def build_inputs(
@@ -83,10 +105,12 @@ def build_inputs(
     corr: dict[tuple[str, str], float] = {}
     labels = point_labels(rig)
     averaged = f"{n_frames} frame(s) per reading, {rig.frames.averaged} averaged"
+    fpn, fpn_src = _fixed_pattern(rig, lm.sigma_px)
+    supplied = _supplied(rig, "target.signal_e", "target.sigma_px")
     for lab in labels:
         pivot_point = lab.startswith("C") or lab == "M"
         m = lm_moving if lab.startswith("P") else lm
-        loc_src = f"{rig.locator.source}; {m.noise_formula}"
+        loc_src = f"{rig.locator.source}; {m.noise_formula}{supplied}"
         streak = f"; streak {m.streak_px:.3g} px" if m.streak_px > 0 else ""
         for ax in ("x", "y"):
             if m.quantization_half_width_px > 0:
@@ -109,10 +133,13 @@ def build_inputs(
                 s = m.reading_noise_px
                 out[f"noise_{ax}_{lab}"] = _q(Normal(0.0, s), "px", PIVOT if pivot_point else NOISE,
                                               f"{loc_src}; {averaged}{streak}")
+            if fpn > 0:
+                out[f"fpn_{ax}_{lab}"] = _q(Normal(0.0, fpn), "px", PIVOT if pivot_point else FPN, fpn_src)
             if lens.distortion == "corrected":
                 s = lens.residual_rms_px / math.sqrt(2.0)
                 out[f"resid_{ax}_{lab}"] = _q(Normal(0.0, s), "px", DIST,
-                                              lens.source + "; RMS reprojection residual / √2 per axis")
+                                              lens.source + "; RMS reprojection residual / √2 per axis"
+                                              + _supplied(rig, "lens.residual_rms_px"))
         if type_a and lab in type_a:
             out.update(type_a_inputs(as_point_scatter(lab, type_a[lab]), PIVOT if pivot_point else None))
     if lens.distortion == "corrected" and lens.residual_correlation_px > 0:
@@ -122,6 +149,7 @@ def build_inputs(
         out["k1"] = _q(Rectangular(-k1, k1), "", DIST,
                        lens.source + f"; ±{lens.distortion_edge_pct:g} % at the field edge, uncorrected")
     _skew_inputs(rig, out)
+    _mechanical_inputs(rig, labels, out)
     if rig.pivot.method == "mark" and rig.pivot.mark_offset_bound_mm > 0:
         b = rig.pivot.mark_offset_bound_mm
         for ax in ("x", "y"):
@@ -206,3 +234,50 @@ def _skew_inputs(rig: RigDescription, out: dict) -> None:
     if g.target_height_u_mm > 0:
         out["target_height_mm"] = _q(Normal(g.target_height_mm, g.target_height_u_mm), "mm", SKEW,
                                      src + "; target height above the dial (parallax)")
+
+
+def _fixed_pattern(rig: RigDescription, sigma_px: float) -> tuple[float, str]:
+    """sd per axis of a located position from the fixed pattern (PRNU and DSNU in quadrature), and its note.
+
+    The centre-of-mass formulas (:mod:`budget.imaging.fixed_pattern`); a fit weights the pixels much
+    alike and is given the same figure (approximation); an integer locator's whole pixel rarely moves
+    with a pattern of a few %, so it gets none.
+    """
+    cam = rig.camera
+    if rig.locator.method == "integer" or not (cam.prnu_pct or cam.dsnu_e):
+        return 0.0, ""
+    shape = "disk" if rig.target.shape == "disk" else "spot"
+    prnu = prnu_sd_px(cam.prnu_pct or 0.0, shape)
+    dsnu = dsnu_sd_px(cam.dsnu_e or 0.0, rig.target.signal_e, rig.locator.window_px)
+    note = (f"{cam.source}; PRNU {cam.prnu_pct or 0:g} % rms, DSNU {cam.dsnu_e or 0:g} e rms; {FPN_FORMULA}"
+            + ("; the fit is given the centre-of-mass figure (approximation)" if rig.locator.method == "fit" else ""))
+    return math.hypot(prnu, dsnu), note
+
+
+def _mechanical_inputs(rig: RigDescription, labels, out: dict) -> None:
+    """The pointer's repeatability and settling, its pivot's play, and the camera mount's drift."""
+    pt, g = rig.pointer, rig.geometry
+    for lab in labels:
+        if lab == "M":
+            continue  # a pivot mark is on the dial: the shaft's play does not move it
+        if pt.repeatability_deg and (lab == "Z" or lab.startswith("P")):
+            out[f"repeat_deg_{lab}"] = _q(Normal(0.0, pt.repeatability_deg), "°", REPEAT,
+                                          pt.source + "; rest angle from one approach to the next (sd)")
+        if pt.settling_deg and lab.startswith("P"):
+            b = pt.settling_deg
+            out[f"settle_deg_{lab}"] = _q(Rectangular(-b, b), "°", SETTLE, pt.source + "; not yet settled, bound")
+        if pt.pivot_play_mm:
+            b = pt.pivot_play_mm
+            for ax in ("x", "y"):
+                out[f"play_{ax}_{lab}"] = _q(Rectangular(-b, b), "mm", PLAY,
+                                             pt.source + "; pivot runout / bearing play, bound per axis, each image")
+    if g.mount_shift_um:
+        b = g.mount_shift_um
+        for ax in ("x", "y"):
+            out[f"mount_shift_{ax}_um"] = _q(Rectangular(-b, b), "µm", MOUNT,
+                                             g.source + "; camera shift at the dial between the zero image and the "
+                                                        "readings, bound per axis")
+    if g.mount_roll_deg:
+        b = g.mount_roll_deg
+        out["mount_roll_deg"] = _q(Rectangular(-b, b), "°", MOUNT,
+                                   g.source + "; camera roll between the zero image and the readings, bound")

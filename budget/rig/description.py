@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 from budget.imaging import optics
 
 __all__ = [
-    "Camera", "Lens", "Geometry", "Target", "Locator", "Pivot", "Frames", "Motion",
+    "Camera", "Lens", "Geometry", "Target", "Pointer", "Locator", "Pivot", "Frames", "Motion",
     "VoltageSource", "Positions", "Sweep", "Data", "Reference", "MeasuredData", "RigDescription", "Assumption",
     "point_labels", "Goal", "Conformity", "RangeClaimForm",
 ]
@@ -30,6 +30,8 @@ class Camera:
     frame_rate_hz: float = 30.0
     exposure_ms: float = 5.0
     source: str = "assumed"
+    prnu_pct: float | None = None  # fixed gain pattern, % rms (None: not given, omitted from the budget)
+    dsnu_e: float | None = None  # fixed dark-signal pattern, e rms per pixel (None: not given)
 
     @property
     def gain_e_per_adu(self) -> float:
@@ -66,6 +68,8 @@ class Geometry:
     remounted: bool = False
     roll_bound_deg: float = 0.0
     source: str = "assumed"
+    mount_shift_um: float | None = None  # camera-mount drift between the zero image and the readings, bound
+    mount_roll_deg: float | None = None  # per axis at the dial (µm) and as a roll (deg); None: not given
 
 
 @dataclass(frozen=True)
@@ -75,6 +79,19 @@ class Target:
     diameter_mm: float = 0.0
     signal_e: float = 50000.0
     background_e: float = 10.0
+    source: str = "assumed"
+
+
+@dataclass(frozen=True)
+class Pointer:
+    """The pointer under test (``[pointer]``): its repeatability and settling, and the play of its pivot.
+
+    None: not given, and the budget has no term for it (each is listed as an optimistic omission).
+    """
+
+    repeatability_deg: float | None = None  # sd of the rest angle from one approach to the next
+    settling_deg: float | None = None  # bound of what the pointer still moves after the image is taken
+    pivot_play_mm: float | None = None  # bound per axis of the shaft's runout / bearing play at the pivot
     source: str = "assumed"
 
 
@@ -247,6 +264,13 @@ class RigDescription:
     goal: Goal | None = None
     conformity: Conformity | None = None
     range_claim: RangeClaimForm | None = None
+    pointer: Pointer = field(default_factory=Pointer)
+    input_warnings: tuple[str, ...] = ()
+    """Numbers outside their plausible range, with the likely unit slip (:mod:`budget.inputs.supplied`)."""
+
+    def assumed(self, name: str) -> bool:
+        """Whether the value of ``name`` ("section.key") was supplied by the tool, not the file."""
+        return any(a.field == name for a in self.assumptions)
 
     # ---- derived optics (pinhole with a thin lens focused at the working distance)
     @property

@@ -39,7 +39,7 @@ from budget.rig.pivot import fit_circle
 __all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "reading_image_points",
            "principal_point",
            "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg",
-           "screen_angles_deg"]
+           "screen_angles_deg", "true_pivot_image"]
 
 
 def travel_sign(rig: RigDescription) -> float:
@@ -144,13 +144,16 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
-                 reading_deg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+                 reading_deg: np.ndarray | None = None, zero_deg: np.ndarray | None = None,
+                 shift_mm: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Noise-free image coordinates (x right, y down, px) of every located point, each (n_points, T).
 
     ``dial_deg`` are the points' nominal directions (:func:`dial_angles_deg`); ``reading_deg``
-    (n_readings, T), if given, replaces the readings (angles travelled from the zero image).
-    ``kw`` holds the trial values (T,) of the geometric inputs (tilt, target height, mark
-    offset, k1).
+    (n_readings, T), if given, replaces the readings (angles travelled from the zero image);
+    ``zero_deg`` (T,), if given, is where the pointer rests in the zero image (travelled from its
+    nominal); ``shift_mm`` (dx, dy), each (n_points, T), moves points in the dial plane (x right,
+    y up; the pivot's play). ``kw`` holds the trial values (T,) of the geometric inputs (tilt,
+    target height, mark offset, k1).
     """
     g = rig.geometry
     n_read = len(rig.nominal_angles_deg)
@@ -161,6 +164,11 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     y = np.repeat(r_mm * np.sin(dial), t, axis=1)
     if reading_deg is not None:  # only the readings move from trial to trial
         x[1:1 + n_read], y[1:1 + n_read] = _reading_dial_xy(rig, reading_deg)
+    if zero_deg is not None:  # the pointer's rest in the zero image (its repeatability)
+        x[0], y[0] = _reading_dial_xy(rig, zero_deg)
+    if shift_mm is not None:
+        x += shift_mm[0]
+        y += shift_mm[1]
     z = h  # one height per trial, the same for every target point
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
         x[-1] = kw.get("mark_offset_x_mm", 0.0)
@@ -246,14 +254,28 @@ def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
     return np.degrees(np.arctan2(y0 * x - x0 * y, x0 * x + y0 * y))
 
 
-def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) -> np.ndarray:
+def true_pivot_image(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
+    """Image coordinates of the true pivot, each (T,): the dial's origin, which the tilt (a rotation about
+    it) leaves in place, projected with the trial's distortion. The pivot a perfect mark would give."""
+    g = rig.geometry
+    x = np.full(t, g.pivot_offset_x_mm)
+    y = np.full(t, -g.pivot_offset_y_mm)
+    u, v = project(x, y, np.zeros(t), focal_px=rig.focal_px, distance_mm=g.working_distance_mm,
+                   k1=kw["k1"] if "k1" in kw else 0.0)
+    cx, cy = principal_point(rig)
+    return u + cx, cy - v
+
+
+def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray,
+                       pivot: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
 
     Rows of ``img_x``, ``img_y`` (n_points, T; image coordinates) follow :func:`point_labels`. The angle
     travelled from the zero image in the rig's ``travel`` direction (:func:`screen_angles_deg`
-    times :func:`travel_sign`), on the branch nearest the nominal reading.
+    times :func:`travel_sign`), on the branch nearest the nominal reading. ``pivot`` (each (T,)), if given,
+    replaces the pivot the rig's method finds (:func:`true_pivot_image` for an exact pivot).
     """
-    xc, yc = estimate_pivot(rig, img_x, img_y)
+    xc, yc = estimate_pivot(rig, img_x, img_y) if pivot is None else pivot
     n_read = len(rig.nominal_angles_deg)
     x0, y0 = img_x[0] - xc, img_y[0] - yc
     xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc

@@ -23,7 +23,9 @@ from budget.rig.geometry import (
     principal_point,
     reading_angles_deg,
     reading_image_points,
+    true_pivot_image,
 )
+from budget.rig.source import shared_names
 
 __all__ = ["VirtualRig"]
 
@@ -48,14 +50,16 @@ class VirtualRig:
 
     Called with keyword arrays named like :func:`budget.rig.components.build_inputs`
     (every array of one length T), it returns ``{"P1": angle_deg, …}`` and, for a
-    sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg).
+    sweep, ``"gain"`` (deg/V) and ``"intercept"`` (deg). With ``exact_pivot`` the angles are taken about
+    the true pivot (what the budget would be with a perfect pivot mark): the attribution of a fitted pivot.
 
     Inside, arrays over points or readings are (n, T): one contiguous row per point
     (see :mod:`budget.rig.geometry`).
     """
 
-    def __init__(self, rig: RigDescription, type_a: dict | None = None) -> None:
+    def __init__(self, rig: RigDescription, type_a: dict | None = None, exact_pivot: bool = False) -> None:
         self.rig = rig
+        self.exact_pivot = exact_pivot  # the angles about the true pivot, not the one the rig's method finds
         self.labels = point_labels(rig)
         # input name -> (column, unit vector in the image) of the frames' principal axes and drifts
         self.directions: dict[str, tuple[int, float, float]] = {}
@@ -73,14 +77,23 @@ class VirtualRig:
         readings = range(self.n_read)
         self.per_reading = {name: [(i, f"{name}_P{i + 1}") for i in readings]
                             for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
+        self.shared = bool(shared_names(rig))
         self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
-                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "resid")}
+                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "fpn", "resid", "play")}
+        self.pointer_rows = {kind: [(i, f"{kind}_deg_P{i + 1}") for i in readings] for kind in ("repeat", "settle")}
+        self.mount_px = rig.magnification / self.pitch_mm * 1e-3  # px in the image per µm at the dial
+        # Inputs that move the pointer or its pivot on the dial (they shape the image); the fast path of
+        # :meth:`_image` holds them at zero only.
+        self.pointer_keys = {key for rows in self.pointer_rows.values() for _, key in rows} | {"repeat_deg_Z"} | {
+            key for ax in ("x", "y") for _, key in self.per_point[ax, "play"]}
         # Inputs that enter only after the image is formed (locator errors, timing, the meter's
-        # readings, the fit's misfit, the zero image's roll), and the reading each per-reading
+        # readings, the fit's misfit, the zero image's roll and shift), and the reading each per-reading
         # source input moves: what :meth:`_image` may hold when the rest is held.
-        self.after_image = {key for keys in self.per_point.values() for _, key in keys} | set(self.directions) | {
+        located = {key for (_, kind), keys in self.per_point.items() if kind != "play" for _, key in keys}
+        self.after_image = located | set(self.directions) | {
             key for name in ("jitter_ms", "dmm_res_mv") for _, key in self.per_reading[name]} | {
-            f"misfit_P{i + 1}" for i in readings} | {"misfit_new", "dmm_gain_pct", "dmm_offset_mv", "roll_deg"}
+            f"misfit_P{i + 1}" for i in readings} | {"misfit_new", "dmm_gain_pct", "dmm_offset_mv", "roll_deg",
+                                                     "mount_roll_deg", "mount_shift_x_um", "mount_shift_y_um"}
         self.reading_of = {key: i for name in ("lsb_mv", "inl_mv", "vnoise_mv") for i, key in self.per_reading[name]}
 
     # ---- pieces of the chain -------------------------------------------------------
@@ -118,7 +131,7 @@ class VirtualRig:
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
         for ax, arr in (("x", img_x), ("y", img_y)):
-            for kind in ("quant", "lock", "noise", "resid"):  # this order of additions per point
+            for kind in ("quant", "lock", "noise", "fpn", "resid"):  # this order of additions per point
                 _add_rows(arr, kw, self.per_point[ax, kind])
         for key, (j, ux, uy) in self.directions.items():
             if key in kw:
@@ -145,14 +158,18 @@ class VirtualRig:
         kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
         sweep = self.rig.sweep
         volts, img_x, img_y = self._image(kw, t)
-        if "roll_deg" in kw:  # the zero image was taken before the camera was re-mounted
-            r = np.radians(kw["roll_deg"])  # counterclockwise on the displayed image, about the principal point
+        if "roll_deg" in kw or "mount_roll_deg" in kw:  # the camera re-mounted or rolled after the zero image
+            r = np.radians(kw.get("roll_deg", 0.0) + kw.get("mount_roll_deg", 0.0))  # counterclockwise, about
             cx, cy = principal_point(self.rig)
             x0, y0 = img_x[0] - cx, cy - img_y[0]
             img_x[0] = cx + np.cos(r) * x0 - np.sin(r) * y0
             img_y[0] = cy - (np.sin(r) * x0 + np.cos(r) * y0)
+        if "mount_shift_x_um" in kw:  # the camera shifted after the zero image: the zero image is off by it
+            img_x[0] = img_x[0] + kw["mount_shift_x_um"] * self.mount_px
+            img_y[0] = img_y[0] + kw["mount_shift_y_um"] * self.mount_px
         self._locator_errors(kw, img_x, img_y)
-        angle = reading_angles_deg(self.rig, img_x, img_y)
+        pivot = true_pivot_image(self.rig, kw, t) if self.exact_pivot else None
+        angle = reading_angles_deg(self.rig, img_x, img_y, pivot)
         if self.rate != 0.0:
             angle += self._timing_deg(kw, t, img_y[1:1 + self.n_read])
         out = {f"P{i + 1}": angle[i] for i in range(self.n_read)}
@@ -164,7 +181,50 @@ class VirtualRig:
             out["intercept"] = intercept
             if "misfit_new" in kw:  # a rejected line's discrepancy at a new point, for predictions
                 out["line_discrepancy"] = kw["misfit_new"].copy()
+            if self.shared:  # what calibration and use share, for predictions (budget.rig.prediction)
+                a, c = self._use_map(kw, t)
+                out["gain_shared"] = sweep.nominal_gain_deg_per_v * (a - 1.0)
+                out["intercept_shared"] = sweep.nominal_gain_deg_per_v * c
         return out
+
+    def _use_map(self, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:
+        """The straight line V_pointer = a·x + c from the fit's x (commanded or read back) to the voltage at
+        the pointer, from the terms shared by every set point (gain, offset, output divider; or the
+        meter's ±% and ±counts): the same in calibration and later use, so a prediction cancels them."""
+        s = self.rig.source
+        a, c = np.ones(t), np.zeros(t)
+        if s.readback == "commanded":
+            if "source_gain_pct" in kw:
+                a = a + kw["source_gain_pct"] * 1e-2
+            if "source_offset_mv" in kw:
+                c = c + kw["source_offset_mv"] * 1e-3
+            if "source_zout_ohm" in kw and s.load_resistance_ohm is not None:
+                f = s.load_resistance_ohm / (s.load_resistance_ohm + kw["source_zout_ohm"])
+                a, c = a * f, c * f
+            return a, c
+        g = 1.0 + kw["dmm_gain_pct"] * 1e-2 if "dmm_gain_pct" in kw else np.ones(t)
+        mo = kw["dmm_offset_mv"] * 1e-3 if "dmm_offset_mv" in kw else np.zeros(t)
+        return 1.0 / g, -mo / g
+
+    def _pointer_deg(self, kw: dict, t: int, true_deg: np.ndarray | None) -> np.ndarray | None:
+        """Where the pointer rests for each reading, (n, T) deg from the zero image: the nominal (or the
+        sweep's true angle) plus its repeatability and settling; None when neither is an input."""
+        keys = [k for rows in self.pointer_rows.values() for _, k in rows if k in kw]
+        if not keys:
+            return true_deg
+        out = np.repeat(self.nominal_deg[:, None], t, axis=1) if true_deg is None else true_deg.copy()
+        for rows in self.pointer_rows.values():
+            _add_rows(out, kw, rows)
+        return out
+
+    def _play_mm(self, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray] | None:
+        """The pivot's play at every located point, (dx, dy) each (n_points, T) mm (dial x right, y up)."""
+        if not any(k in kw for _, k in self.per_point["x", "play"]):
+            return None
+        dx, dy = np.zeros((len(self.labels), t)), np.zeros((len(self.labels), t))
+        _add_rows(dx, kw, self.per_point["x", "play"])
+        _add_rows(dy, kw, self.per_point["y", "play"])
+        return dx, dy
 
     def _image(self, kw: dict, t: int) -> tuple[np.ndarray | None, np.ndarray, np.ndarray]:
         """The voltages at the pointer (sweep; else None) and the noise-free image points (n, T).
@@ -180,8 +240,9 @@ class VirtualRig:
         rows = self._moving_readings(kw, t)
         if rows is None:  # the image varies from trial to trial
             volts = self._actual_volts(kw, t) if sweep is not None else None
-            true_deg = sweep.nominal_gain_deg_per_v * volts if sweep is not None else None
-            img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg)
+            true_deg = self._pointer_deg(kw, t, sweep.nominal_gain_deg_per_v * volts if sweep is not None else None)
+            img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg,
+                                        zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw, t))
             return volts, img_x, img_y
         kw1 = {k: a[:1] for k, a in kw.items()}
         one = self._actual_volts(kw1, 1) if sweep is not None else None
@@ -216,6 +277,8 @@ class VirtualRig:
             return None
         rows: set[int] = set()
         for key, a in kw.items():
+            if key in self.pointer_keys and a.size and a[0] != 0.0:
+                return None  # the pointer or its pivot held off its place: the readings' fast path omits it
             if a.strides == (0,) or key in self.after_image:
                 continue
             i = self.reading_of.get(key)

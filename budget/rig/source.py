@@ -12,12 +12,15 @@ import math
 from budget.propagation import InputQuantity, Normal, Rectangular
 from budget.rig.description import RigDescription
 
-__all__ = ["SOURCE", "READBACK", "PER_POINT", "source_inputs", "per_point_u_v"]
+__all__ = ["SOURCE", "READBACK", "PER_POINT", "SHARED", "source_inputs", "per_point_u_v", "shared_names"]
 
 SOURCE = "input voltage source"
 READBACK = "voltage readback"
 PER_POINT = ("lsb_mv", "inl_mv", "vnoise_mv")
 """Name stems of the source's per-set-point inputs (``{stem}_P{j}``), in mV."""
+SHARED = ("source_gain_pct", "source_offset_mv", "source_zout_ohm", "dmm_gain_pct", "dmm_offset_mv")
+"""Inputs shared by every set point: with the fit's x values as commanded (or read on the meter) they
+are the same when the calibration is used later, so a prediction cancels them."""
 
 
 def _q(dist, unit: str, group: str, source: str) -> InputQuantity:
@@ -83,3 +86,13 @@ def per_point_u_v(rig: RigDescription) -> float:
     q = source_inputs(rig)
     u_mv2 = sum(q[f"{stem}_P1"].distribution.u ** 2 for stem in PER_POINT if f"{stem}_P1" in q)
     return math.sqrt(u_mv2) * 1e-3
+
+
+def shared_names(rig: RigDescription) -> tuple[str, ...]:
+    """The inputs of :func:`source_inputs` that calibration and later use share (:data:`SHARED`) and that
+    set the line from the fit's x to the pointer's voltage: the source's with ``readback = "commanded"``,
+    the meter's with ``readback = "dmm"``."""
+    if rig.source is None or rig.sweep is None:
+        return ()
+    own = ("dmm_",) if rig.source.readback == "dmm" else ("source_",)
+    return tuple(n for n in source_inputs(rig) if n in SHARED and n.startswith(own))

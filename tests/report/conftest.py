@@ -77,7 +77,7 @@ def type_a(tmp_path_factory):
 def correlated(tmp_path_factory):
     """The gauge with correlated lens residuals (residual_correlation_px set)."""
     text = (TEMPLATE_DIR / "gauge_static.toml").read_text(encoding="utf-8")
-    text = re.sub(r"^(residual_rms_px = .*)$", r"\1\nresidual_correlation_px = 800", text, count=1, flags=re.M)
+    text = re.sub(r"^residual_correlation_px = .*$", "residual_correlation_px = 800", text, count=1, flags=re.M)
     path = tmp_path_factory.mktemp("rigs") / "correlated.toml"
     path.write_text(text, encoding="utf-8")
     return run(path)
