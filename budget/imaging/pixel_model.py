@@ -28,9 +28,16 @@ Derivations [derived]:
   e^(−2π²s²)/π < 2e-5 counts (the dither series of rounding), so the linear form is used; below, the exact sums:
   rounding is then deterministic and does not average away, and a dark pixel adds no noise.
 * Integer locator (brightest pixel): P(pixel k is the largest) = ∫ φ_k(v)·Π_{l≠k} Φ_l(v) dv for
-  independent normal pixel values (trapezoidal rule on a fine grid); the error is E[j] − δ (fixed)
+  independent normal pixel values (trapezoidal rule on a fine grid, :mod:`budget.imaging.brightest`);
+  the error is E[j] − δ (fixed)
   and Var[j] (changing) per phase. When the images are averaged before locating, the pixel variance
   is divided by the frames and the result is one located position per reading.
+* A window on each frame's brightest pixel (``window_at = "brightest"``) over a flat top (disk, streak):
+  the window's position is random with the brightest pixel's probabilities; given the chosen pixel o
+  the centroid's mean is the clipping bias of the window on o, plus the pull of the choice itself (o
+  reads high, its rivals low: :func:`budget.imaging.brightest.selection_shift`), plus the pull of the
+  dark pixels' lift through the ADC's clip at 0 toward the window's centre (a camera with no
+  background); the spread of these means over o adds to the noise.
 * Motion blur: the spot moves ``streak_px`` along x during the exposure (along the arc: the
   tangential direction, the one the angle depends on); the profile is the spot convolved with a
   uniform segment, for a Gaussian in closed form with ∫Φ = uΦ(u/σ) + σφ(u/σ).
@@ -47,16 +54,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from budget.imaging.pixels import EXACT_BELOW, adu_moments, image_2d, profile_1d
-from budget.imaging.special import phi_coarse
+from budget.imaging.brightest import brightest, reach, selection_shift
+from budget.imaging.pixels import EXACT_BELOW, adu_moments, clipped_moments, image_2d, profile_1d
 
 __all__ = ["LocatorTerms", "locator_terms", "PHASES"]
 
 PHASES = 8
 """Sub-pixel phases per axis (midpoint rule over one pixel)."""
 
-_INT_HALF = 3  # the brightest pixel is looked for within ±3 px of the nearest pixel, or a flat top's half-width
-_V_NODES = 96
 
 
 @dataclass(frozen=True)
@@ -228,8 +233,19 @@ def _window_linear(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, a
                                              averaged, ph, wanders)
         if wander:
             return f, pk, c1, wander[0]
-    b2 = bg + rd**2 + g**2 / 12.0
+    b2 = _dark(bg, rd, g, top)[1]
     return f, pk, c1 / sgn + c2 * b2 / sgn**2, np.zeros(sig.size)
+
+
+def _dark(bg, rd, g, top):
+    """A dark pixel's lift above the known background (ADU) and its variance (e²) through the ADC's clip at 0
+    (the linear camera's figures where the background is far above 0)."""
+    x, s = bg / g, np.sqrt(bg + rd**2) / g
+    mean, var = clipped_moments(x, np.maximum(s, 1e-9))
+    near = np.flatnonzero((s < EXACT_BELOW) & (x < 6.0 * s + 1.0))  # rounding decides: the exact sums
+    if near.size:
+        mean[near], var[near], _ = adu_moments(bg[near], rd[near], g[near], top[near])
+    return mean - x, var * g**2
 
 
 _MEMO_FROM = 64
@@ -267,7 +283,7 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
     can take (offsets ox, oy from the nearest pixel) or the nearest pixel alone."""
     c, p = sig.size, ph.size
     half = int(win.max()) // 2
-    k = _reach(disk, streak) if wanders else 0
+    k = reach(disk, streak) if wanders else 0
     j = np.arange(-half - k, half + k + 1, dtype=float)
     o = np.arange(-k, k + 1, dtype=float)
     inside = (np.abs(j[None, None, :] - o[None, :, None]) <= (win // 2)[:, None, None])[:, None]  # (C, 1, O, J)
@@ -278,6 +294,10 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
     rows = py.sum(axis=3)  # (C, Py, Oy)
     sx = px.sum(axis=3)  # (C, Px, Ox)
     xbar = (px * j).sum(axis=3) / sx
+    lift, b2 = _dark(bg, rd, g, top)
+    if wanders:  # the dark pixels' lift (the clip at 0) pulls the centroid toward the window's centre
+        ped = (lift * g / sgn * win)[:, None, None]  # per column of the window, as a fraction of the signal
+        xbar = ((px * j).sum(axis=3) + ped * (inside * j).sum(axis=3)) / (sx + ped * inside.sum(axis=3))
     bias = xbar - ph[None, :, None]  # (C, Px, Ox)
     dev2 = (j - xbar[..., None]) ** 2 * inside  # (C, Px, Ox, J)
     wn = win.astype(float)
@@ -289,15 +309,16 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
         b = bias[:, :, 0]
         return np.mean(b**2, axis=1), np.max(np.abs(b), axis=1), np.mean(c1, axis=(1, 2, 3, 4)), \
             np.mean(c2, axis=(1, 2, 3, 4))
-    b2 = bg + rd**2 + g**2 / 12.0
     noise = c1 / sgn[e5] + c2 * (b2 / sgn**2)[e5]  # (C, Px, Py, Ox, Oy)
     div = frames if averaged == "images" else 1
-    prob, jx, jy = _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
+    prob, jx, jy, parts = brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph, parts=True)
     kk = 2 * k + 1
     prob = prob.reshape(c, p, p, kk, kk).transpose(0, 1, 2, 4, 3)  # (C, Px, Py, Ox, Oy)
-    px_o = prob.sum(axis=4)  # (C, Px, Py, Ox)
-    mean_b = (px_o * bias[:, :, None, :]).sum(axis=3)  # (C, Px, Py)
-    var_b = np.maximum((px_o * bias[:, :, None, :] ** 2).sum(axis=3) - mean_b**2, 0.0)
+    # the window's mean given which pixel was chosen: its clipping bias and the choice's own pull
+    total = (sgn / g)[e5] * sx[:, :, None, :, None] * rows[:, None, :, None, :]
+    sel = bias[:, :, None, :, None] + selection_shift(parts, jx, jy, xbar, total, win // 2)
+    mean_b = (prob * sel).sum(axis=(3, 4))  # (C, Px, Py)
+    var_b = np.maximum((prob * sel**2).sum(axis=(3, 4)) - mean_b**2, 0.0)
     mean_n = (prob * noise).sum(axis=(3, 4))
     return (np.mean(mean_b**2, axis=(1, 2)), np.max(np.abs(mean_b), axis=(1, 2)), np.mean(mean_n, axis=(1, 2)),
             None, np.mean(var_b, axis=(1, 2)))
@@ -337,47 +358,11 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     return np.mean(bias**2, axis=(1, 2)), np.max(np.abs(bias), axis=(1, 2)), np.mean(noise, axis=(1, 2))
 
 
-def _reach(disk, streak) -> int:
-    """How far (px) from the nearest pixel the brightest one is looked for: over a flat top, its half-width."""
-    return int(min(_REACH_MAX, max(_INT_HALF, math.ceil(float(np.max(0.5 * disk + 0.5 * streak))) + 1)))
-
-
-_REACH_MAX = 12
-
-
-def _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, var_div, ph):
-    """P(the brightest pixel is at offset (jy, jx) from the nearest pixel), (C, Px, Py, K·K), and the offsets."""
-    c, p = sig.size, ph.size
-    r = _reach(disk, streak)
-    j = np.arange(-r, r + 1, dtype=float)
-    e5 = (slice(None), None, None, None, None)
-    mu = sgn[e5] * image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) + bg[e5]
-    mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
-    sd = np.sqrt(np.maximum(var / var_div, 1e-18))
-    m = mean.reshape(c, p, p, -1)
-    s = sd.reshape(c, p, p, -1)
-    lo = m.max(axis=3) - 6.0 * s.max(axis=3)
-    hi = (m + 6.0 * s).max(axis=3)
-    t = np.linspace(0.0, 1.0, _V_NODES)
-    vv = lo[..., None] + (hi - lo)[..., None] * t  # (C, P, P, V)
-    z = (vv[..., None, :] - m[..., None]) / s[..., None]  # (C, P, P, K, V)
-    cdf = np.clip(phi_coarse(z), 1e-300, 1.0)
-    dens = np.exp(-0.5 * z**2) / (math.sqrt(2 * math.pi) * s[..., None])
-    prod = np.exp(np.log(cdf).sum(axis=3, keepdims=True))
-    f = dens * prod / cdf
-    dv = (hi - lo)[..., None] / (_V_NODES - 1)
-    prob = (f.sum(axis=4) - 0.5 * (f[..., 0] + f[..., -1])) * dv  # trapezoidal rule
-    prob = prob / prob.sum(axis=3, keepdims=True)
-    jy = np.repeat(j, j.size)
-    jx = np.tile(j, j.size)
-    return prob, jx, jy
-
-
 def _integer(sig, sgn, bg, rd, g, top, shape, disk, streak, frames, averaged, ph) -> LocatorTerms:
     """The brightest pixel: its probabilities under normal pixel noise, per phase."""
     c = sig.size
     div = frames if averaged == "images" else 1
-    prob, jx, _ = _brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
+    prob, jx, _ = brightest(sig, sgn, bg, rd, g, top, shape, disk, streak, div, ph)
     ex = (prob * jx).sum(axis=3)
     vx = np.maximum((prob * jx**2).sum(axis=3) - ex**2, 0.0)
     err = ex - ph[None, :, None]

@@ -14,12 +14,14 @@ import numpy as np
 
 from budget.imaging.special import phi_cdf, phi_coarse
 
-__all__ = ["EXACT_BELOW", "adu_moments", "image_2d", "profile_1d"]
+__all__ = ["EXACT_BELOW", "adu_moments", "clipped_moments", "image_2d", "profile_1d"]
 
 EXACT_BELOW = 0.75
 """Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
 _BAND_EDGES = (0.0, 0.15, 0.3, 0.5, EXACT_BELOW)
 """Noise (counts) from which 1, 2, 3, 4 thresholds each side of the value are summed."""
+_CLIP_WITHIN = 6.0
+"""Pixels whose mean is within this many sd of 0 are read through the ADC's clip at 0 (linear form)."""
 
 
 
@@ -112,6 +114,15 @@ def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sig
     return img / (math.pi * a * a)[e4 + (None,)]
 
 
+def clipped_moments(x: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean and variance (ADU) of round(X) clipped at 0, X normal (x, s²) with s ≥ ``EXACT_BELOW``: see
+    :func:`adu_moments`."""
+    z = x / s
+    cdf, dens = phi_cdf(z), np.exp(-0.5 * z * z) / math.sqrt(2.0 * math.pi)
+    m1 = s * dens + x * cdf
+    return m1, np.maximum((x * x + s * s) * cdf + x * s * dens + cdf / 12.0 - m1 * m1, 0.0)
+
+
 def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.ndarray
                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Mean and variance (ADU, ADU²) of a pixel's reading; and where the rounding was exact.
@@ -119,7 +130,10 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     Notes
     -----
     See the module notes: the exact sums over the ADC thresholds where the noise is below
-    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere.
+    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere, except within
+    6 sd of 0, where the clip at 0 is taken with the rounding as a midpoint rule over the thresholds:
+    E[R] = Σ_{k≥1} P(X ≥ k − ½) ≈ ∫₀^∞ P(X ≥ t) dt = s·φ(z) + x·Φ(z) and
+    E[R²] ≈ E[max(X, 0)²] + Φ(z)/12 = (x² + s²)·Φ(z) + x·s·φ(z) + Φ(z)/12, z = x/s [derived].
     """
     # per-candidate arrays broadcast against the pixels without being copied to their size
     mu_e, read_e, gain, top = (np.asarray(a, dtype=float) for a in (mu_e, read_e, gain, top))
@@ -129,6 +143,9 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     mean = np.minimum(x.reshape(shape), top).reshape(-1)
     var = s**2 + 1.0 / 12.0
     exact = s < EXACT_BELOW
+    low = np.flatnonzero(~exact & (x < _CLIP_WITHIN * s))
+    if low.size:  # the ADC's clip at 0 (a dark pixel without background reads ≥ 0: its mean is lifted)
+        mean[low], var[low] = clipped_moments(x[low], s[low])
     # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain;
     # the exact pixels are gathered once, then each band of noise from them
     idx = np.flatnonzero(exact)
