@@ -119,7 +119,7 @@ def clipped_moments(x: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarra
     :func:`adu_moments`."""
     z = x / s
     cdf, dens = phi_cdf(z), np.exp(-0.5 * z * z) / math.sqrt(2.0 * math.pi)
-    m1 = s * dens + x * cdf
+    m1 = s * dens + x * cdf - dens / (24.0 * s)
     return m1, np.maximum((x * x + s * s) * cdf + x * s * dens + cdf / 12.0 - m1 * m1, 0.0)
 
 
@@ -132,8 +132,9 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     See the module notes: the exact sums over the ADC thresholds where the noise is below
     ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere, except within
     6 sd of 0, where the clip at 0 is taken with the rounding as a midpoint rule over the thresholds:
-    E[R] = Σ_{k≥1} P(X ≥ k − ½) ≈ ∫₀^∞ P(X ≥ t) dt = s·φ(z) + x·Φ(z) and
-    E[R²] ≈ E[max(X, 0)²] + Φ(z)/12 = (x² + s²)·Φ(z) + x·s·φ(z) + Φ(z)/12, z = x/s [derived].
+    E[R] = Σ_{k≥1} P(X ≥ k − ½) ≈ ∫₀^∞ P(X ≥ t) dt − φ(z)/(24s) = s·φ(z) + x·Φ(z) − φ(z)/(24s) and
+    E[R²] ≈ E[max(X, 0)²] + Φ(z)/12 = (x² + s²)·Φ(z) + x·s·φ(z) + Φ(z)/12, z = x/s (the midpoint rule's
+    error term, h²/24·f'(0), on each sum) [derived].
     """
     # per-candidate arrays broadcast against the pixels without being copied to their size
     mu_e, read_e, gain, top = (np.asarray(a, dtype=float) for a in (mu_e, read_e, gain, top))
