@@ -7,7 +7,12 @@ traceback and no internal error; no temporary file is left; no existing file is 
 written CSV has no cell that a spreadsheet would run.
 
 The tests are repeatable: ``derandomize=True`` fixes the examples (a seed derived from each test), and no
-example database is read or written. A failure found here becomes an ``@example`` beside its test (see
+example database is read or written.
+
+Source of the expectations: the README's section "What the tool promises" (the project's own
+contract, not an outside reference); the one outside reference is the spreadsheet formula rule
+(a cell whose text starts with =, +, -, @, tab or CR is run as a formula: common practice, from memory).
+A failure found here becomes an ``@example`` beside its test (see
 ``test_mutated_rig_files_keep_the_promise``). Example counts keep the file to about a minute on 2 cores.
 """
 

@@ -4,6 +4,10 @@
 figures of a candidate already computed in the process taken from a memo. None of that may change a
 figure: each candidate alone (one rig, no memo) is the reference, to 1e-10 relative or 1e-16 px²
 (floating-point summation order only; a bias of 1e-5 px squared keeps few digits).
+
+Not a reference check: the expected value is the same model on one candidate (internal
+consistency of the batching). The model itself is checked against rendered images, an outside
+simulation, in tests/imaging/test_locator_rendered.py.
 """
 
 from __future__ import annotations

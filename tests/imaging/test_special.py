@@ -1,4 +1,9 @@
-"""The error function of the spot formulas against scipy.special.erf (reference library)."""
+"""The special functions of the spot formulas against a reference library.
+
+Source of every expected value: scipy.special (erf, j1, ndtr), the reference library; the formulas
+implemented are DLMF 7.6.2 and 7.9.2 (erf), DLMF 10.9.2 (J1) and Abramowitz & Stegun 7.1.26 (the
+coarse normal CDF, whose stated bound 1.5e-7 on erf is the tolerance).
+"""
 
 import numpy as np
 from scipy.special import erf as scipy_erf

@@ -1,4 +1,8 @@
-"""references/README.md lists every file of the folder (and no file that is not there)."""
+"""references/README.md lists every file of the folder (and no file that is not there).
+
+Not a reference check of a value: it keeps the index of the reference cases complete, so that
+each case file's source (named in the file itself and in the README) can be found.
+"""
 
 from __future__ import annotations
 
