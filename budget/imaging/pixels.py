@@ -12,14 +12,13 @@ import math
 
 import numpy as np
 
-from budget.imaging.special import phi_cdf, phi_coarse
+from budget.imaging.rounding import moments_at, scratch, split
+from budget.imaging.special import phi_cdf
 
 __all__ = ["EXACT_BELOW", "adu_moments", "clipped_moments", "image_2d", "profile_1d"]
 
 EXACT_BELOW = 0.75
 """Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
-_BAND_EDGES = (0.0, 0.15, 0.3, 0.5, EXACT_BELOW)
-"""Noise (counts) from which 1, 2, 3, 4 thresholds each side of the value are summed."""
 _CLIP_WITHIN = 6.0
 """Pixels whose mean is within this many sd of 0 are read through the ADC's clip at 0 (linear form)."""
 
@@ -61,9 +60,12 @@ def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.
         k = _cdf_gauss_streak(u + 0.5, sq, lq) - _cdf_gauss_streak(u - 0.5, sq, lq)
         h = np.cos(theta)
         return np.sum(k * (0.5 * math.pi * wq * 2.0 * h * h), axis=-1) / math.pi
-    else:
-        hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
-        lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
+    if offsets.size > 1 and np.all(np.diff(offsets) == 1.0):  # consecutive pixels share their edges
+        edges = np.append(offsets - 0.5, offsets[-1] + 0.5).reshape((1,) * phase.ndim + (-1,))
+        cdf = _cdf_gauss_streak(edges - ph, s, L)
+        return cdf[..., 1:] - cdf[..., :-1]
+    hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
+    lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
     return hi - lo
 
 
@@ -90,8 +92,11 @@ def image_2d(j: np.ndarray, phx: np.ndarray, phy: np.ndarray, *, shape: str, sig
     if shape != "disk":
         px = profile_1d(j, np.broadcast_to(phx, (c, p)), shape=shape, sigma=sigma[:, None], disk=disk[:, None],
                         streak=streak[:, None])
-        py = profile_1d(j, np.broadcast_to(phy, (c, phy.size)), shape=shape, sigma=sigma[:, None],
-                        disk=disk[:, None], streak=np.zeros((c, 1)))
+        if not np.any(streak) and np.array_equal(phx, phy):  # the same profile along y
+            py = px
+        else:
+            py = profile_1d(j, np.broadcast_to(phy, (c, phy.size)), shape=shape, sigma=sigma[:, None],
+                            disk=disk[:, None], streak=np.zeros((c, 1)))
         return py[:, None, :, :, None] * px[:, :, None, None, :]
     a = 0.5 * disk
     q = int(np.clip(np.ceil(8.0 * np.max(a / sigma)), 48, 600))
@@ -136,41 +141,32 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
     E[R²] ≈ E[max(X, 0)²] + Φ(z)/12 = (x² + s²)·Φ(z) + x·s·φ(z) + Φ(z)/12, z = x/s (the midpoint rule's
     error term, h²/24·f'(0), on each sum) [derived].
     """
-    # per-candidate arrays broadcast against the pixels without being copied to their size
+    # per-candidate arrays broadcast against the pixels without being copied to their size; the work arrays
+    # kept between calls (budget.imaging.rounding: fresh ones cost more in page faults than in arithmetic)
     mu_e, read_e, gain, top = (np.asarray(a, dtype=float) for a in (mu_e, read_e, gain, top))
     shape = np.broadcast(mu_e, read_e, gain, top).shape
-    x = np.broadcast_to(mu_e / gain, shape).reshape(-1)
-    s = np.broadcast_to(np.sqrt(mu_e + read_e**2) / gain, shape).reshape(-1)
+    n = math.prod(shape)
+    x, s = scratch("adu0", n), scratch("adu1", n)
+    np.divide(mu_e, gain, out=x.reshape(shape))
+    np.add(mu_e, read_e**2, out=s.reshape(shape))
+    np.sqrt(s, out=s)
+    np.divide(s.reshape(shape), gain, out=s.reshape(shape))
     mean = np.minimum(x.reshape(shape), top).reshape(-1)
-    var = s**2 + 1.0 / 12.0
+    var = np.multiply(s, s)
+    var += 1.0 / 12.0
     exact = s < EXACT_BELOW
-    low = np.flatnonzero(~exact & (x < _CLIP_WITHIN * s))
+    work = scratch("adu2", n)
+    np.multiply(s, _CLIP_WITHIN, out=work)
+    low = np.flatnonzero((x < work) & ~exact)
     if low.size:  # the ADC's clip at 0 (a dark pixel without background reads ≥ 0: its mean is lifted)
         mean[low], var[low] = clipped_moments(x[low], s[low])
-    # the thresholds farther than 6σ (and 2.5 counts) from the value are passed or not for certain;
-    # the exact pixels are gathered once, then each band of noise from them
-    idx = np.flatnonzero(exact)
-    if idx.size:
-        # (a flat iterator over the broadcast top is slower than copying it to the pixels' size)
-        flat_top = top.reshape(-1)
-        top_all = np.broadcast_to(top, shape).reshape(-1)[idx] if top.size > 1 else np.full(idx.size, flat_top[0])
-        x_all, s_all = x[idx], s[idx]
-        for band in range(1, len(_BAND_EDGES)):
-            sel = np.flatnonzero((s_all >= _BAND_EDGES[band - 1]) & (s_all < _BAND_EDGES[band]))
-            if not sel.size:
-                continue
-            xe, se, te = x_all[sel], np.maximum(s_all[sel], 1e-9), top_all[sel]
-            k0 = np.round(xe)  # thresholds k0 − band + ½ … k0 + band − ½ lie within band − ½ … of x
-            below = np.clip(k0 - band, 0.0, te)  # thresholds k = 1 … below: always passed
-            m1 = below.copy()
-            m2 = below**2
-            for o in range(-band + 1, band + 1):
-                k = k0 + o
-                ok = (k >= 1) & (k <= te)
-                p = np.where(ok, phi_coarse((xe - k + 0.5) / se), 0.0)
-                m1 += p
-                m2 += (2.0 * k - 1.0) * p
-            group = idx[sel]
-            mean[group] = m1
-            var[group] = np.maximum(m2 - m1**2, 0.0)
+    # the exact pixels: the dither series or the sums over the thresholds (budget.imaging.rounding)
+    if exact.any():
+        if top.size == 1:
+            flat_top = top.reshape(())
+        else:
+            flat_top = work
+            np.copyto(work.reshape(shape), top)
+        series, sums = split(x, s, flat_top, within=exact)
+        moments_at(x, s, flat_top, series, sums, mean, var)
     return mean.reshape(shape), var.reshape(shape), exact.reshape(shape)

@@ -14,7 +14,7 @@ import math
 import numpy as np
 from numpy.typing import ArrayLike
 
-__all__ = ["erf", "erf_vec", "j1", "phi_cdf", "phi_coarse"]
+__all__ = ["erf", "erf_vec", "j1", "phi_cdf", "phi_coarse", "phi_coarse_into"]
 
 _ERF = np.frompyfunc(math.erf, 1, 1)
 
@@ -113,14 +113,25 @@ def phi_coarse(z: ArrayLike) -> np.ndarray:
     what a located position can show; :func:`phi_cdf` is the accurate one.
     """
     z = np.asarray(z, dtype=float)
-    x = np.abs(z.reshape(-1))  # an array even for one value: the steps below work in place
+    flat = z.reshape(-1)
+    out = np.empty(flat.shape)
+    phi_coarse_into(flat, out, np.empty(flat.shape), np.empty(flat.shape))
+    return out.reshape(z.shape)
+
+
+def phi_coarse_into(z: np.ndarray, out: np.ndarray, work1: np.ndarray, work2: np.ndarray) -> None:
+    """:func:`phi_coarse` of the 1-D array ``z`` written to ``out``, with two scratch arrays of its size.
+
+    Every step works in place, in the same order of operations as t·(a1 + t·(a2 + …)) and ½·poly·e^(−x²):
+    no array is allocated (a loop over many thresholds allocates nothing; fresh arrays of 2^16 values
+    cost more in page faults than the arithmetic).
+    """
+    x = np.abs(z, out=work1)
     x /= math.sqrt(2.0)
-    # in place, in the same order of operations as t·(a1 + t·(a2 + …)) and ½·poly·e^(−x²): the same values,
-    # a third fewer passes over memory
-    t = _AS_P * x
+    t = np.multiply(x, _AS_P, out=work2)
     t += 1.0
     np.reciprocal(t, out=t)
-    poly = t * _AS[4]
+    poly = np.multiply(t, _AS[4], out=out)
     for a in _AS[3::-1]:
         poly += a
         poly *= t
@@ -129,8 +140,7 @@ def phi_coarse(z: ArrayLike) -> np.ndarray:
     np.exp(x, out=x)
     poly *= 0.5
     poly *= x  # (1 − erf(|z|/√2))/2
-    poly = poly.reshape(z.shape)
-    return np.where(z < 0, poly, 1.0 - poly)
+    np.subtract(1.0, poly, out=poly, where=z >= 0)
 
 
 def phi_cdf(z: ArrayLike) -> np.ndarray:
