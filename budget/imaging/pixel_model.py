@@ -25,8 +25,9 @@ Derivations [derived]:
   limit) reads R = round(X/g) clipped to [0, 2^bits − 1]. E[R] = Σ_{k≥1} P(X/g ≥ k − ½) and
   E[R²] = Σ_{k≥1} (2k − 1)·P(X/g ≥ k − ½), exact for any noise. Where the noise is at least
   ``EXACT_BELOW`` counts these equal μ/g and (μ + r²)/g² + 1/12 (JCGM 100 F.2.2.1) to within
-  e^(−2π²s²)/π < 2e-5 counts (the dither series of rounding), so the linear form is used; below, the exact sums:
-  rounding is then deterministic and does not average away, and a dark pixel adds no noise.
+  e^(−2π²s²)/π < 2e-5 counts (the dither series of rounding), so the linear form is used; below, exactly
+  (:mod:`budget.imaging.rounding`: that series to three terms from 0.3 count where the clips are 7 sd away,
+  the sums elsewhere): rounding is then deterministic and does not average away, and a dark pixel adds no noise.
 * Integer locator (brightest pixel): P(pixel k is the largest) = ∫ φ_k(v)·Π_{l≠k} Φ_l(v) dv for
   independent normal pixel values (trapezoidal rule on a fine grid, :mod:`budget.imaging.brightest`);
   the error is E[j] − δ (fixed)

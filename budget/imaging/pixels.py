@@ -134,9 +134,10 @@ def adu_moments(mu_e: np.ndarray, read_e: np.ndarray, gain: np.ndarray, top: np.
 
     Notes
     -----
-    See the module notes: the exact sums over the ADC thresholds where the noise is below
-    ``EXACT_BELOW`` counts, the linear form (μ/g, (μ + r²)/g² + 1/12) elsewhere, except within
-    6 sd of 0, where the clip at 0 is taken with the rounding as a midpoint rule over the thresholds:
+    See the module notes: the rounding exactly where the noise is below ``EXACT_BELOW`` counts (the
+    dither series or the sums over the thresholds, :mod:`budget.imaging.rounding`), the linear form
+    (μ/g, (μ + r²)/g² + 1/12) elsewhere, except within 6 sd of 0, where the clip at 0 is taken with the
+    rounding as a midpoint rule over the thresholds:
     E[R] = Σ_{k≥1} P(X ≥ k − ½) ≈ ∫₀^∞ P(X ≥ t) dt − φ(z)/(24s) = s·φ(z) + x·Φ(z) − φ(z)/(24s) and
     E[R²] ≈ E[max(X, 0)²] + Φ(z)/12 = (x² + s²)·Φ(z) + x·s·φ(z) + Φ(z)/12, z = x/s (the midpoint rule's
     error term, h²/24·f'(0), on each sum) [derived].
