@@ -160,15 +160,19 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
         memo = ex.size >= _MEMO_FROM  # choose's calls over many candidates; a single rig computes afresh
         todo = _from_memo(ex, (fixed, peak, noise), args, method, frames, averaged, p) if memo else ex
         # each window size on its own span: no candidate is padded to a wider window
+        # the targets are symmetric: the bias is odd in δx and even in δy, so the phases in (0, ½)² give the
+        # same means as the whole pixel, at a quarter of the work
+        half_ph = ph[ph > 0]
         for w in np.unique(win[todo]):
             same = todo[win[todo] == w]
             step = max(1, _CHUNK_VALUES // ((p // 2) ** 2 * (2 * (int(w) // 2) + 1) ** 2))
+            # a spot's column and row profiles for all of this window size at once (image_2d's product per chunk)
+            prof = _spot_profiles(sig[same], streak[same], half_ph, int(w) // 2) if shape == "spot" else None
             for s0 in range(0, same.size, step):
                 part = same[s0:s0 + step]
-                # the targets are symmetric: the bias is odd in δx and even in δy, so the phases in (0, ½)²
-                # give the same means as the whole pixel, at a quarter of the work
                 sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
-                fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], ph[ph > 0], method == "fit")
+                cut = None if prof is None else (prof[0][s0:s0 + step], prof[1][s0:s0 + step])
+                fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], half_ph, method == "fit", cut)
                 if memo:
                     _to_memo(part, (fixed, peak, noise), args, method, frames, averaged, p)
         if method != "fit" and window_at == "brightest":  # the window's wandering, from the linear sums
@@ -325,7 +329,19 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
             None, np.mean(var_b, axis=(1, 2)))
 
 
-def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, fit=False):
+def _spot_profiles(sig, streak, ph, half):
+    """A spot's column (streaked) and row profiles, (C, P, J) each, on the pixels −half … half."""
+    j = np.arange(-half, half + 1, dtype=float)
+    grid = np.broadcast_to(ph, (sig.size, ph.size))
+    px = profile_1d(j, grid, shape="spot", sigma=sig[:, None], disk=np.zeros((sig.size, 1)), streak=streak[:, None])
+    if not np.any(streak):
+        return px, px
+    return px, profile_1d(j, grid, shape="spot", sigma=sig[:, None], disk=np.zeros((sig.size, 1)),
+                          streak=np.zeros((sig.size, 1)))
+
+
+def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, fit=False,
+                  profiles=None):
     """Rounding modelled exactly: every pixel of the window at every phase in x and y.
 
     For a least-squares fit (``fit``), to first order x̂ − x₀ = Σ d·r / Σ d² with d = ∂μ/∂x₀ (ADU per
@@ -337,11 +353,16 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     j = np.arange(-half, half + 1, dtype=float)
     inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
     e5 = (slice(None), None, None, None, None)
-    mu = sgn[e5] * image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) + bg[e5]
+    if profiles is None:
+        img = image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak)
+    else:  # (the product image_2d forms for a spot)
+        img = profiles[1][:, None, :, :, None] * profiles[0][:, :, None, None, :]
+    mu = sgn[e5] * img + bg[e5]
     mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
     mask = inside[:, :, None, :, None] & inside[:, :, None, None, :]  # (C, 1, 1, Jy, Jx)
-    w = np.where(mask, mean - (bg / g)[e5], 0.0)
-    v = np.where(mask, var, 0.0)
+    w, v = mean - (bg / g)[e5], var
+    if not mask.all():  # candidates of narrower windows in the span
+        w, v = np.where(mask, w, 0.0), np.where(mask, var, 0.0)
     col = w.sum(axis=3)  # (C, Px, Py, Jx)
     total = col.sum(axis=3)
     xbar = (col * j).sum(axis=3) / total

@@ -189,11 +189,11 @@ def _sums_into(x, s, top, mean, var) -> None:
         d2[:c] += p[:c]
     np.take(mean, head, out=z, mode="clip")
     z += d1
-    np.put(mean, head, z, mode="clip")
+    mean[head] = z
     d1 *= d1
     d2 -= d1
     np.maximum(d2, 0.0, out=d2)
-    np.put(var, head, d2, mode="clip")
+    var[head] = d2
 
 
 def exact_moments(x: np.ndarray, s: np.ndarray, top) -> tuple[np.ndarray, np.ndarray]:
@@ -248,5 +248,5 @@ def moments_at(x, s, top, series, sums, mean, var) -> None:
             _sums_into(xs, ss, ts, ms, vs)
         else:
             _series_into(xs, ss, ms, vs)
-        np.put(mean, idx, ms, mode="clip")
-        np.put(var, idx, vs, mode="clip")
+        mean[idx] = ms
+        var[idx] = vs
