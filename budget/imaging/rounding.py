@@ -159,7 +159,7 @@ def _sums_into(x, s, top, mean, var) -> None:
     np.floor(hi, out=hi)
     np.minimum(hi, top, out=hi)  # the last
     np.subtract(lo, 1.0, out=mean)
-    np.clip(mean, 0.0, top, out=mean)  # the thresholds passed for certain (lo − 1 wherever one is summed)
+    np.minimum(mean, top, out=mean)  # the thresholds passed for certain (lo − 1 ≥ 0 wherever one is summed)
     hi -= lo
     np.maximum(hi, -1.0, out=hi)
     count = hi.astype(np.int8)
