@@ -18,7 +18,7 @@ from budget.propagation.joint import collapse_joint, joint_correlation, joint_gr
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
-from budget.propagation.stencils import axis_points, pair_values, second_order_terms
+from budget.propagation.stencils import axis_points, pair_values, paired_inputs, second_order_terms
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
 
@@ -295,8 +295,10 @@ def linear(
     dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
     h = STEP * u
     n_in = len(names)
-    h2 = STEP2 * u
-    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2)] if second_order else [])
+    if second_order:
+        paired, u_paired = paired_inputs(model, names, u)
+        h2 = STEP2 * u_paired
+    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2, paired)] if second_order else [])
     pts = np.vstack(blocks)
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
     out_names = list(out)
@@ -306,7 +308,7 @@ def linear(
         fm2, fm1, fp1, fp2 = first[on].T
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
     if second_order:
-        ii, jj, pair_f = pair_values(model, names, x0, h2) if n_in > 1 else \
+        ii, jj, pair_f = pair_values(model, names, x0, h2, paired) if paired.size > 1 else \
             (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((0, 2, 2)) for on in out_names})
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
@@ -324,8 +326,8 @@ def linear(
         u1_2 = float(cov_share.sum())
         u2_2 = 0.0
         if second_order:
-            diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
-            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu, STEP2)
+            diag = out[on][1 + 4 * n_in:].reshape(paired.size, 4)
+            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, c[paired] * u_paired, STEP2)
         u_c2 = u1_2 + u2_2
         warn: list[str] = []
         if u_c2 < 0:  # eq. (14) is a truncated series; far from linear its sum can be negative

@@ -266,6 +266,22 @@ class VirtualRig:
         tiles them apart (:func:`budget.propagation.stencils.pair_values`)."""
         return [nm for nm in names if nm not in self.after_image and nm not in self.reading_of]
 
+    def additive_inputs(self, names) -> list[dict[str, float]]:
+        """Sets of inputs among ``names`` that the rig reads only through their sum, each ``{name: 1.0}``:
+        the locator's errors of one point along one image axis (added to that coordinate, px), the
+        source's errors at one set point (added to its voltage, mV) and the pointer's repeatability and
+        settling at one reading (added to where it rests, deg). The linear method's second-order terms
+        count each set as one quantity (:func:`budget.propagation.stencils.paired_inputs`); tests/rig/
+        test_additive_inputs.py holds the rig to this."""
+        have = set(names)
+        kinds = ("quant", "lock", "noise", "fpn", "resid")
+        sets = [[self.per_point[ax, kind][j][1] for kind in kinds]
+                for ax in ("x", "y") for j in range(len(self.labels))]
+        for i in range(self.n_read):
+            sets.append([self.per_reading[name][i][1] for name in ("lsb_mv", "inl_mv", "vnoise_mv")])
+            sets.append([self.pointer_rows[kind][i][1] for kind in ("repeat", "settle")])
+        return [{key: 1.0 for key in keys if key in have} for keys in sets]
+
     def _moving_readings(self, kw: dict, t: int) -> list[int] | None:
         """The readings whose source inputs vary across the trials when nothing else that shapes the
         image does; None when something else does (or T = 1: nothing to save).
