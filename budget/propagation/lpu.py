@@ -8,8 +8,9 @@ the model in one vectorized call.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -18,7 +19,7 @@ from budget.propagation.joint import collapse_joint, joint_correlation, joint_gr
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
-from budget.propagation.stencils import axis_points, pair_values, second_order_terms
+from budget.propagation.stencils import axis_points, pair_values, paired_inputs, second_order_terms
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
 
@@ -72,7 +73,9 @@ class LinearResult:
     ``u`` is the combined standard uncertainty u_c, ``nu_eff`` the effective
     degrees of freedom (``math.inf`` when infinite), ``k`` the coverage factor
     t_p(ν_eff), ``U = k·u``. With ``second_order`` the second-order terms of
-    JCGM 100 eq. (14) are included in ``u`` and listed in ``u_second_order``.
+    JCGM 100 eq. (14) are included in ``u`` and listed in ``u_second_order``. ``rows``
+    (one per input) are formed when first read: a model of many inputs and outputs (a 51-point
+    sweep: 680 × 55) often needs them for few of its outputs.
     """
 
     output: str
@@ -82,12 +85,17 @@ class LinearResult:
     k: float
     U: float
     p: float
-    rows: tuple[Row, ...]
     groups: tuple[GroupRow, ...]
     u_first_order: float
     u_second_order: float
     second_order: bool
     warnings: tuple[str, ...]
+    row_maker: Callable[[], tuple[Row, ...]] = field(default=tuple, repr=False, compare=False)
+
+    @cached_property
+    def rows(self) -> tuple[Row, ...]:
+        """One line per input quantity (JCGM 100 7.2.2), in the order of the inputs."""
+        return self.row_maker()
 
     @property
     def interval(self) -> tuple[float, float]:
@@ -169,15 +177,19 @@ def _group_index(names: list[str], q: dict[str, InputQuantity]) -> list[tuple[st
 
 
 def _groups(
-    index: list[tuple[str, list[int], str, tuple, tuple]], cu: np.ndarray, cov_share: np.ndarray,
+    index: list[tuple[str, list[int], str, tuple, tuple]], cu: np.ndarray, cov_share: np.ndarray | None,
     dofs: np.ndarray, u_c2: float, rr: np.ndarray | None = None, joint: list[list[int]] | None = None,
 ) -> tuple[GroupRow, ...]:
+    """The components' lines; ``cov_share`` None for uncorrelated inputs (its diagonal is then cu²)."""
     out = []
     for gname, idx, evaluation, inputs, sources in index:
-        share = float(cov_share[np.ix_(idx, idx)].sum())
+        if cov_share is None:
+            share = row_share = float(np.sum(cu[idx] ** 2))
+        else:
+            share = float(cov_share[np.ix_(idx, idx)].sum())
+            row_share = float(cov_share[idx, :].sum())
         contrib = math.sqrt(max(share, 0.0))
         gdof = _ws(contrib, cu, rr, dofs, joint or [], idx) if contrib > 0 else math.inf
-        row_share = float(cov_share[idx, :].sum())
         out.append(
             GroupRow(
                 name=gname,
@@ -245,6 +257,17 @@ def _ws(u_c: float, cu: np.ndarray, rr: np.ndarray | None, dofs: np.ndarray, joi
     return welch_satterthwaite(u_c, contrib, nus)
 
 
+def _row_maker(fixed: list[tuple], c: np.ndarray, contributions: np.ndarray, percent: np.ndarray
+               ) -> Callable[[], tuple[Row, ...]]:
+    """The rows of one output, formed when called: the columns no output changes from ``fixed``."""
+    def rows() -> tuple[Row, ...]:
+        return tuple(Row(name=nm, estimate=est, u=ui, sensitivity=ci, contribution=con, dof=dof, percent=pc,
+                         group=grp, evaluation=ev, distribution=dist, unit=unit, source=src, value=val, divisor=div)
+                     for (nm, est, ui, dof, grp, ev, dist, unit, src, val, div), ci, con, pc
+                     in zip(fixed, c.tolist(), contributions.tolist(), percent.tolist(), strict=True))
+    return rows
+
+
 def linear(
     model: Model,
     inputs: Mapping,
@@ -295,8 +318,10 @@ def linear(
     dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
     h = STEP * u
     n_in = len(names)
-    h2 = STEP2 * u
-    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2)] if second_order else [])
+    if second_order:
+        paired, u_paired = paired_inputs(model, names, u)
+        h2 = STEP2 * u_paired
+    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2, paired)] if second_order else [])
     pts = np.vstack(blocks)
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
     out_names = list(out)
@@ -306,7 +331,7 @@ def linear(
         fm2, fm1, fp1, fp2 = first[on].T
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
     if second_order:
-        ii, jj, pair_f = pair_values(model, names, x0, h2) if n_in > 1 else \
+        ii, jj, pair_f = pair_values(model, names, x0, h2, paired) if paired.size > 1 else \
             (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((0, 2, 2)) for on in out_names})
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
@@ -320,12 +345,14 @@ def linear(
     for k, on in enumerate(out_names):
         c = jac[k]
         cu = c * u
-        cov_share = np.outer(cu, cu) * rr
-        u1_2 = float(cov_share.sum())
+        # covariance shares c_i u_i r_ij c_j u_j; for uncorrelated inputs only their diagonal (cu²)
+        cov_share = None if r is None else np.outer(cu, cu) * rr
+        row_share = cu * cu if r is None else cov_share.sum(axis=1)
+        u1_2 = float(row_share.sum())
         u2_2 = 0.0
         if second_order:
-            diag = out[on][1 + 4 * n_in:].reshape(n_in, 4)
-            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, cu, STEP2)
+            diag = out[on][1 + 4 * n_in:].reshape(paired.size, 4)
+            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, c[paired] * u_paired, STEP2)
         u_c2 = u1_2 + u2_2
         warn: list[str] = []
         if u_c2 < 0:  # eq. (14) is a truncated series; far from linear its sum can be negative
@@ -345,11 +372,7 @@ def linear(
             warn.append(note)
         # row_share_i = Σ_j of row i of cov_share, and the percent, for every input at once; the
         # columns no output changes come from ``fixed``.
-        percent = (100.0 * cov_share.sum(axis=1) / u_c2).tolist() if u_c2 > 0 else [0.0] * n_in
-        rows = [Row(name=nm, estimate=est, u=ui, sensitivity=ci, contribution=con, dof=dof, percent=pc,
-                    group=grp, evaluation=ev, distribution=dist, unit=unit, source=src, value=val, divisor=div)
-                for (nm, est, ui, dof, grp, ev, dist, unit, src, val, div), ci, con, pc
-                in zip(fixed, c.tolist(), contributions.tolist(), percent, strict=True)]
+        percent = 100.0 * row_share / u_c2 if u_c2 > 0 else np.zeros(n_in)
         # u_c = 0 (every sensitivity zero, e.g. y = x² at x = 0) is the case that most needs the
         # warning, so the comparison is <=, not guarded by u_c > 0.
         zero = [] if second_order else [f"'{names[i]}'" for i in np.flatnonzero(contributions <= NEGLIGIBLE * u_c)]
@@ -365,7 +388,8 @@ def linear(
                 warn.append(f"Component '{g.name}' carries {g.percent:.0f} % of the variance of '{on}'.")
         results[on] = LinearResult(
             output=on, estimate=float(out[on][0]), u=u_c, nu_eff=nu, k=kf, U=kf * u_c, p=p,
-            rows=tuple(rows), groups=groups, u_first_order=math.sqrt(max(u1_2, 0.0)),
+            row_maker=_row_maker(fixed, c, contributions, percent), groups=groups,
+            u_first_order=math.sqrt(max(u1_2, 0.0)),
             u_second_order=math.sqrt(abs(u2_2)) * (1 if u2_2 >= 0 else -1),
             second_order=second_order, warnings=tuple(warn),
         )

@@ -308,6 +308,14 @@ class TrueValueModel:
     def shared(self) -> bool:
         return self.model.shared
 
+    def costly_inputs(self, names) -> list[str]:
+        """The wrapped rig's: the true value is the located one moved by a constant."""
+        return self.model.costly_inputs(names)
+
+    def additive_inputs(self, names) -> list[dict[str, float]]:
+        """The wrapped rig's, for the same reason."""
+        return self.model.additive_inputs(names)
+
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
         # the terms calibration and use share are an effect on the line, not a measurand: kept as they are

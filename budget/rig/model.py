@@ -29,6 +29,8 @@ from budget.rig.source import shared_names
 
 __all__ = ["VirtualRig"]
 
+_FLOAT = np.dtype(float)
+
 
 def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
     """``arr[row] += kw[key]·scale`` for every (row, key) present (rows are contiguous).
@@ -95,6 +97,7 @@ class VirtualRig:
             f"misfit_P{i + 1}" for i in readings} | {"misfit_new", "dmm_gain_pct", "dmm_offset_mv", "roll_deg",
                                                      "mount_roll_deg", "mount_shift_x_um", "mount_shift_y_um"}
         self.reading_of = {key: i for name in ("lsb_mv", "inl_mv", "vnoise_mv") for i, key in self.per_reading[name]}
+        self._names_checked: frozenset[str] = frozenset()
 
     # ---- pieces of the chain -------------------------------------------------------
     def _actual_volts(self, kw: dict, t: int, rows: list[int] | None = None) -> np.ndarray:
@@ -137,10 +140,12 @@ class VirtualRig:
             if key in kw:
                 img_x[j] += kw[key] * ux
                 img_y[j] += kw[key] * uy
-        axial = ("noise_major_", "noise_minor_", "drift_")
-        unknown = [k for k in kw if k.startswith(axial) and k not in self.directions]
-        if unknown:  # an error along an axis the model was not told: never drop it silently
-            raise ValueError(f"VirtualRig was built without the Type A data of {unknown}; pass type_a")
+        if kw.keys() != self._names_checked:  # once per set of input names (every chunk of a run has one)
+            axial = ("noise_major_", "noise_minor_", "drift_")
+            unknown = [k for k in kw if k.startswith(axial) and k not in self.directions]
+            if unknown:  # an error along an axis the model was not told: never drop it silently
+                raise ValueError(f"VirtualRig was built without the Type A data of {unknown}; pass type_a")
+            self._names_checked = frozenset(kw)
 
     def _misfit_deg(self, kw: dict, t: int) -> np.ndarray | None:
         """Per-point discrepancies of the straight line (``misfit_Pj``, deg, (n, T)): they enter the fit
@@ -155,7 +160,8 @@ class VirtualRig:
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         t = len(next(iter(kw.values()))) if kw else 1
-        kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
+        if not all(type(a) is np.ndarray and a.dtype is _FLOAT for a in kw.values()):  # as the engines pass them
+            kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
         sweep = self.rig.sweep
         volts, img_x, img_y = self._image(kw, t)
         if "roll_deg" in kw or "mount_roll_deg" in kw:  # the camera re-mounted or rolled after the zero image
@@ -265,6 +271,22 @@ class VirtualRig:
         to enter after the image or through one reading's voltage): the linear method's pair stencil
         tiles them apart (:func:`budget.propagation.stencils.pair_values`)."""
         return [nm for nm in names if nm not in self.after_image and nm not in self.reading_of]
+
+    def additive_inputs(self, names) -> list[dict[str, float]]:
+        """Sets of inputs among ``names`` that the rig reads only through their sum, each ``{name: 1.0}``:
+        the locator's errors of one point along one image axis (added to that coordinate, px), the
+        source's errors at one set point (added to its voltage, mV) and the pointer's repeatability and
+        settling at one reading (added to where it rests, deg). The linear method's second-order terms
+        count each set as one quantity (:func:`budget.propagation.stencils.paired_inputs`); tests/rig/
+        test_additive_inputs.py holds the rig to this."""
+        have = set(names)
+        kinds = ("quant", "lock", "noise", "fpn", "resid")
+        sets = [[self.per_point[ax, kind][j][1] for kind in kinds]
+                for ax in ("x", "y") for j in range(len(self.labels))]
+        for i in range(self.n_read):
+            sets.append([self.per_reading[name][i][1] for name in ("lsb_mv", "inl_mv", "vnoise_mv")])
+            sets.append([self.pointer_rows[kind][i][1] for kind in ("repeat", "settle")])
+        return [{key: 1.0 for key in keys if key in have} for keys in sets]
 
     def _moving_readings(self, kw: dict, t: int) -> list[int] | None:
         """The readings whose source inputs vary across the trials when nothing else that shapes the

@@ -124,3 +124,75 @@ def test_pairs_tiled_apart_are_each_evaluated_once():
             if not (set(ii) | set(jj)) & apart:
                 continue
             assert all(i in apart or j in apart for i, j in zip(ii, jj, strict=True))
+
+
+class _Summed:
+    """y = s²·d + exp(s/4) with s = a + 2b: the model reads a and b only through their sum s, and says so."""
+
+    def __init__(self, declare: bool) -> None:
+        if declare:
+            self.additive_inputs = lambda names: [{"a": 1.0, "b": 2.0}]
+
+    def __call__(self, a, b, d):
+        s = a + 2.0 * b
+        return s**2 * d + np.exp(s / 4.0)
+
+
+def _eq14_by_hand(x: dict[str, float], u: dict[str, float]) -> float:
+    """The double sum of JCGM 100 eq. (14) for :class:`_Summed`, its derivatives written out by hand."""
+    s, d = x["a"] + 2.0 * x["b"], x["d"]
+    c = {"a": 1.0, "b": 2.0}  # ∂s/∂a, ∂s/∂b
+    e = np.exp(s / 4.0)
+    y_s, y_ss, y_sss = 2 * s * d + e / 4, 2 * d + e / 16, e / 64  # derivatives in s at fixed d
+    y_d, y_sd, y_ssd = s**2, 2 * s, 2.0  # y_dd = y_sdd = y_ddd = 0
+    names = ("a", "b", "d")
+
+    def first(i):
+        return y_d if i == "d" else c[i] * y_s
+
+    def second(i, j):
+        if i == "d" and j == "d":
+            return 0.0
+        if "d" in (i, j):
+            k = j if i == "d" else i
+            return c[k] * y_sd
+        return c[i] * c[j] * y_ss
+
+    def third_ijj(i, j):  # ∂³y/∂x_i∂x_j²
+        ks = [k for k in (i, j, j) if k != "d"]
+        nd = 3 - len(ks)
+        prod = float(np.prod([c[k] for k in ks]))
+        return prod * {0: y_sss, 1: y_ssd, 2: 0.0, 3: 0.0}[nd]
+
+    return sum((0.5 * second(i, j) ** 2 + first(i) * third_ijj(i, j)) * u[i] ** 2 * u[j] ** 2
+               for i in names for j in names)
+
+
+def test_inputs_read_through_one_sum_count_once():
+    # A model that reads a and b only through s = a + 2b may say so (``additive_inputs``); the
+    # second-order terms then move s once (u² = u_a² + (2u_b)² in the units of a) instead of a and b
+    # apart. Both give the double sum of JCGM 100 eq. (14) with the derivatives written out by hand.
+    inputs = {"a": Normal(1.5, 0.2), "b": Rectangular(0.2, 0.8), "d": Normal(2.0, 0.3)}
+    x = {k: v.mean for k, v in inputs.items()}
+    u = {k: v.u for k, v in inputs.items()}
+    declared = linear(_Summed(True), inputs, second_order=True)
+    apart = linear(_Summed(False), inputs, second_order=True)
+    expected = _eq14_by_hand(x, u)
+    assert np.sign(declared.u_second_order) * declared.u_second_order**2 == pytest.approx(expected, rel=1e-6)
+    assert np.sign(apart.u_second_order) * apart.u_second_order**2 == pytest.approx(expected, rel=1e-6)
+    assert declared.u == pytest.approx(apart.u, rel=1e-9)
+    assert declared.u_first_order == apart.u_first_order
+
+
+def test_inputs_read_through_one_sum_are_paired_once():
+    calls: list[int] = []
+    model = _Summed(True)
+
+    def counted(**kw):
+        calls.append(len(next(iter(kw.values()))))
+        return model(**kw)
+
+    counted.additive_inputs = model.additive_inputs
+    linear(counted, {"a": Normal(1.5, 0.2), "b": Rectangular(0.2, 0.8), "d": Normal(2.0, 0.3)}, second_order=True)
+    # 1 + 4·3 first-order points, 4·2 axis points of (s, d), 4 points of the one pair (s, d)
+    assert sum(calls) == 1 + 12 + 8 + 4

@@ -42,10 +42,12 @@ RIGS = {
 
 
 class _Plain:
-    """The rig with every input materialized (no held views) and no tiling hint."""
+    """The rig with every input materialized (no held views) and no tiling hint (the sets of inputs read
+    through one sum are still counted once: tests/rig/test_additive_inputs.py checks that step)."""
 
     def __init__(self, model: VirtualRig) -> None:
         self.model = model
+        self.additive_inputs = model.additive_inputs
 
     def __call__(self, **kw):
         return self.model(**{k: np.array(v, dtype=float) for k, v in kw.items()})

@@ -1,0 +1,78 @@
+"""The virtual rig reads each set of inputs it declares additive only through their sum (issue 14).
+
+``VirtualRig.additive_inputs`` lets the linear method's second-order terms count such a set as one
+quantity (the algebra is checked against eq. (14) written out by hand in
+tests/propagation/test_second_order.py). Here the rig is held to its declaration: moving two
+members of a set by equal and opposite amounts changes no output, and moving either one alone
+changes every output alike; and the second-order u with the sets counted once is that with every
+input on its own, to 1e-6 relative (issue 14: second-order terms to 1e-6). Internal consistency of
+one model, not an outside reference.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from budget.propagation import linear
+from budget.rig import components as comp
+from budget.rig.budget import TrueValueModel
+from budget.rig.model import VirtualRig
+from tests.rig.test_linear_paths_agree import RIGS
+
+
+class _Apart:
+    """The rig without its declaration: every input its own quantity in the second-order terms."""
+
+    def __init__(self, model) -> None:
+        self.model = model
+        self.costly_inputs = model.costly_inputs
+
+    def __call__(self, **kw):
+        return self.model(**kw)
+
+
+def _sets(rig):
+    inputs, _ = comp.build_inputs(rig)
+    model = VirtualRig(rig)
+    sets = [s for s in model.additive_inputs(list(inputs)) if len(s) > 1]
+    return inputs, model, sets
+
+
+@pytest.mark.parametrize("name", list(RIGS))
+def test_declared_sets_enter_only_through_their_sum(name):
+    inputs, model, sets = _sets(RIGS[name]())
+    assert sets, "every template has a point with more than one locator error"
+    names = list(inputs)
+    x0 = {k: np.full(3, q.distribution.mean) for k, q in inputs.items()}
+    base = model(**x0)
+    for s in sets:
+        a, b = list(s)[:2]
+        d = inputs[a].distribution.u
+        opposite = {**x0, a: x0[a] + np.array([d, -d, 3 * d]), b: x0[b] - np.array([d, -d, 3 * d])}
+        alone_a = {**x0, a: x0[a] + d}
+        alone_b = {**x0, b: x0[b] + d}
+        moved_a, moved_b, both = model(**alone_a), model(**alone_b), model(**opposite)
+        for out, v in base.items():
+            np.testing.assert_allclose(both[out], v, rtol=0, atol=1e-10 * max(1.0, abs(v[0])), err_msg=f"{s} {out}")
+            np.testing.assert_allclose(moved_a[out], moved_b[out], rtol=0, atol=1e-10 * max(1.0, abs(v[0])))
+    # something of every kind the rig declares is present in some template
+    assert all(k in names for s in sets for k in s)
+
+
+@pytest.mark.parametrize("name", list(RIGS))
+def test_sets_counted_once_keep_the_second_order_u(name):
+    inputs, model, sets = _sets(RIGS[name]())
+    once = linear(model, inputs, second_order=True)
+    apart = linear(_Apart(model), inputs, second_order=True)
+    for out in once.names:
+        assert once[out].u == pytest.approx(apart[out].u, rel=1e-6), out
+        assert once[out].u_first_order == apart[out].u_first_order
+
+
+def test_evaluation_mode_keeps_the_declaration():
+    rig = RIGS["gain_sweep"]()
+    inputs, model, sets = _sets(rig)
+    wrapped = TrueValueModel(model, located={}, nominal={})
+    assert wrapped.additive_inputs(list(inputs)) == model.additive_inputs(list(inputs))
+    assert wrapped.costly_inputs(list(inputs)) == model.costly_inputs(list(inputs))
