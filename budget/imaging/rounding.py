@@ -36,10 +36,14 @@ SUM_REACH = 6.5
 those above not, for certain (the former bands of 1–4 counts left out thresholds from 5.3 sd on)."""
 
 _WORK: dict[str, np.ndarray] = {}
+_WORK_MAX = 1 << 16
+"""Largest work array kept (512 kB; the locator model's chunks of pixel values): larger calls allocate afresh."""
 
 
 def scratch(name: str, n: int, dtype=float) -> np.ndarray:
-    """A work array of n values kept between calls under ``name`` (grown when too small)."""
+    """A work array of n values kept between calls under ``name`` (grown when too small, up to ``_WORK_MAX``)."""
+    if n > _WORK_MAX:
+        return np.empty(n, dtype=dtype)
     buf = _WORK.get(name)
     if buf is None or buf.size < n or buf.dtype != dtype:
         buf = np.empty(max(n, 1 << 12), dtype=dtype)
