@@ -11,12 +11,13 @@ A pixel reads R = round(X) clipped to [0, top], X normal (x, s²) in counts. Whe
 
 The work arrays are kept between calls (:func:`scratch`): fresh arrays of some 10^4–10^5 values are
 mapped from the system on each allocation, and their page faults cost more than the arithmetic on them
-(``choose`` over 10^4 options: 3.6·10^5 faults, about a second, without them). Not for concurrent threads.
+(``choose`` over 10^4 options: 3.6·10^5 faults, about a second, without them); each thread has its own.
 """
 
 from __future__ import annotations
 
 import math
+import threading
 
 import numpy as np
 
@@ -35,19 +36,22 @@ SUM_REACH = 6.5
 """The threshold sums take the thresholds within this many sd of x (Φ(−6.5) = 4e-11); those below are passed,
 those above not, for certain (the former bands of 1–4 counts left out thresholds from 5.3 sd on)."""
 
-_WORK: dict[str, np.ndarray] = {}
+_WORK = threading.local()
+"""Each thread's work arrays, by name."""
 _WORK_MAX = 1 << 16
 """Largest work array kept (512 kB; the locator model's chunks of pixel values): larger calls allocate afresh."""
 
 
 def scratch(name: str, n: int, dtype=float) -> np.ndarray:
-    """A work array of n values kept between calls under ``name`` (grown when too small, up to ``_WORK_MAX``)."""
+    """A work array of n values kept between calls under ``name`` in this thread (grown when too small, up to
+    ``_WORK_MAX``); its contents are undefined."""
     if n > _WORK_MAX:
         return np.empty(n, dtype=dtype)
-    buf = _WORK.get(name)
+    work = _WORK.__dict__
+    buf = work.get(name)
     if buf is None or buf.size < n or buf.dtype != dtype:
         buf = np.empty(max(n, 1 << 12), dtype=dtype)
-        _WORK[name] = buf
+        work[name] = buf
     return buf[:n]
 
 
