@@ -143,6 +143,7 @@ def test_an_arc_too_short_to_find_the_pivot_is_said_in_words(tmp_path):
     (tmp_path / "flat.toml").write_text(dumps_toml(doc), encoding="utf-8")
     # refused before any draw (budget/rig/arc.py), so for every seed: the check no longer waits for a
     # trial whose circle fit is not finite, which some seeds never drew
+    _refused(["check", tmp_path / "flat.toml"], tmp_path, "The pivot cannot be found", "own scatter")
     for seed in ("1", "4", "7"):
         for argv in (["run", tmp_path / "flat.toml", "--trials", "2000", "--seed", seed, "--quiet"],
                      ["predict", tmp_path / "flat.toml", "--angle", "0.05", "--trials", "2000", "--seed", seed]):
