@@ -30,6 +30,7 @@ from budget.propagation.model import NonFiniteOutput
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
 from budget.rig import checks
 from budget.rig import components as comp
+from budget.rig.arc import short_arc_reason
 from budget.rig.attribution import exact_pivot_linear, with_pivot_attribution
 from budget.rig.description import RigDescription
 from budget.rig.evaluation import Evaluation
@@ -200,6 +201,9 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
     for note in rig.input_warnings:  # numbers outside their plausible range: into every report
         warn(note)
     inputs, corr = comp.build_inputs(rig, type_a)
+    reason = short_arc_reason(rig, inputs)
+    if reason is not None:  # refused before any work, whatever the draws would give
+        raise BudgetInputError(f"The pivot cannot be found: {reason}")
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
         nominal.update(gain=rig.sweep.nominal_gain_deg_per_v, intercept=0.0)
@@ -330,17 +334,9 @@ def model_shares(model) -> bool:
 
 def _not_finite(rig: RigDescription, exc: NonFiniteOutput) -> str:
     """Why the rig model gave NaN or inf for an output, in the rig file's words."""
-    method = rig.pivot.method
-    if method in ("readings", "arc"):
-        span = (2 * rig.pivot.arc_half_angle_deg if method == "arc"
-                else max(0.0, *rig.nominal_angles_deg) - min(0.0, *rig.nominal_angles_deg))
-        sagitta = rig.radius_px * (1 - math.cos(math.radians(min(span, 360.0)) / 2))
-        if sagitta < 1.0:  # the arc bends less than a pixel: its scatter can straighten it
-            where = "[pivot] arc_half_angle_deg" if method == "arc" else "the readings ([positions] or [sweep])"
-            return (f"The pivot cannot be found for '{exc.output}': [pivot] method = '{method}' fits a circle to "
-                    f"points that span only {span:.3g}° of arc (they bow {sagitta:.2g} px from a straight line), so "
-                    f"within their uncertainties they can lie on a line. Widen {where}, or give the pivot as "
-                    "method = 'mark'.")
+    reason = short_arc_reason(rig)  # the arc bends less than a pixel: its scatter can straighten it
+    if reason is not None:
+        return f"The pivot cannot be found for '{exc.output}': {reason}"
     moved = sorted(((abs(v), k) for k, v in exc.point.items() if v != 0), reverse=True)[:3]
     at = ", ".join(f"{k} = {exc.point[k]:.4g}" for _, k in moved) or "the nominal values"
     return (f"The rig model gives no finite value of '{exc.output}' for input values within their uncertainties "

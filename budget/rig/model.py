@@ -160,8 +160,10 @@ class VirtualRig:
     # ---- the model ---------------------------------------------------------------
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         t = len(next(iter(kw.values()))) if kw else 1
-        if not all(type(a) is np.ndarray and a.dtype is _FLOAT for a in kw.values()):  # as the engines pass them
-            kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
+        for a in kw.values():  # the engines pass float arrays; anything else is converted, once
+            if type(a) is not np.ndarray or a.dtype is not _FLOAT:
+                kw = {k: np.asarray(a, dtype=float) for k, a in kw.items()}
+                break
         sweep = self.rig.sweep
         volts, img_x, img_y = self._image(kw, t)
         if "roll_deg" in kw or "mount_roll_deg" in kw:  # the camera re-mounted or rolled after the zero image

@@ -130,6 +130,10 @@ def test_a_folder_that_turns_read_only_is_one_line(ws, tmp_path, monkeypatch):
 def test_a_signal_while_writing_removes_the_temporary_files(ws, tmp_path, monkeypatch, sig):
     import budget.report.markdown as markdown
 
+    if signal.getsignal(sig) is signal.SIG_IGN:  # the tool keeps a signal its caller ignores, as it should
+        pytest.skip(f"{sig.name} is ignored in this test process (a shell without job control starts background "
+                    "jobs so); nothing to catch")
+
     real = markdown.render_markdown
 
     def interrupted(result):

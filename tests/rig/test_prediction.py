@@ -101,9 +101,10 @@ def test_voltage_for_45_degrees(sweep_run):
 
 
 @pytest.mark.parametrize(("query", "outside"), [({"volts": 9.5}, 0.5), ({"volts": 0.25}, 0.75),
-                                                 ({"angle_deg": 5.0}, 0.5), ({"angle_deg": 100.0}, 1.0)])
+                                                 ({"angle_deg": 5.0}, 0.5), ({"angle_deg": 99.0}, 0.9)])
 def test_outside_the_calibrated_span_warns(sweep_run, query, outside):
-    """The sweep calibrates 1…9 V; beyond it the straight line is not verified."""
+    """The sweep calibrates 1…9 V; beyond it the straight line is not verified. (99°, not 100°: 100° asks for
+    the source's own limit of 10 V, which the estimate of a Monte Carlo run exceeds for some draws.)"""
     rig, res = sweep_run
     p = predict_from_sweep(rig, res, **query, rng=_rng())
     warns = [w for w in p["warnings"] if "Extrapolation" in w]
