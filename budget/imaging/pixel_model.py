@@ -56,7 +56,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from budget.imaging.brightest import brightest, reach, selection_shift
-from budget.imaging.pixels import EXACT_BELOW, adu_moments, clipped_moments, image_2d, profile_1d
+from budget.imaging.pixels import (
+    EXACT_BELOW,
+    adu_moments,
+    clipped_moments,
+    image_2d,
+    profile_1d,
+    spot_adu_moments,
+    spot_profiles,
+)
 
 __all__ = ["LocatorTerms", "locator_terms", "PHASES"]
 
@@ -167,11 +175,12 @@ def _window(method, sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, 
             same = todo[win[todo] == w]
             step = max(1, _CHUNK_VALUES // ((p // 2) ** 2 * (2 * (int(w) // 2) + 1) ** 2))
             # a spot's column and row profiles for all of this window size at once (image_2d's product per chunk)
-            prof = _spot_profiles(sig[same], streak[same], half_ph, int(w) // 2) if shape == "spot" else None
+            prof = spot_profiles(sig[same], streak[same], half_ph, int(w) // 2) if shape == "spot" else None
             for s0 in range(0, same.size, step):
                 part = same[s0:s0 + step]
                 sub = [a[part] if isinstance(a, np.ndarray) and a.shape == (c,) else a for a in args]
-                cut = None if prof is None else (prof[0][s0:s0 + step], prof[1][s0:s0 + step])
+                cut = None if prof is None else (prof[0][s0:s0 + step],) * 2 if prof[1] is prof[0] else \
+                    (prof[0][s0:s0 + step], prof[1][s0:s0 + step])  # a still spot: one profile, `is` tells
                 fixed[part], peak[part], noise[part] = _window_exact(*sub[:-1], half_ph, method == "fit", cut)
                 if memo:
                     _to_memo(part, (fixed, peak, noise), args, method, frames, averaged, p)
@@ -329,17 +338,6 @@ def _linear_sums(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, ave
             None, np.mean(var_b, axis=(1, 2)))
 
 
-def _spot_profiles(sig, streak, ph, half):
-    """A spot's column (streaked) and row profiles, (C, P, J) each, on the pixels −half … half."""
-    j = np.arange(-half, half + 1, dtype=float)
-    grid = np.broadcast_to(ph, (sig.size, ph.size))
-    px = profile_1d(j, grid, shape="spot", sigma=sig[:, None], disk=np.zeros((sig.size, 1)), streak=streak[:, None])
-    if not np.any(streak):
-        return px, px
-    return px, profile_1d(j, grid, shape="spot", sigma=sig[:, None], disk=np.zeros((sig.size, 1)),
-                          streak=np.zeros((sig.size, 1)))
-
-
 def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, averaged, ph, fit=False,
                   profiles=None):
     """Rounding modelled exactly: every pixel of the window at every phase in x and y.
@@ -353,12 +351,13 @@ def _window_exact(sig, sgn, bg, rd, g, top, win, shape, disk, streak, frames, av
     j = np.arange(-half, half + 1, dtype=float)
     inside = np.abs(j)[None, None, :] <= (win // 2)[:, None, None]  # (C, 1, J)
     e5 = (slice(None), None, None, None, None)
-    if profiles is None:
-        img = image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak)
-    else:  # (the product image_2d forms for a spot)
-        img = profiles[1][:, None, :, :, None] * profiles[0][:, :, None, None, :]
-    mu = sgn[e5] * img + bg[e5]
-    mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
+    if profiles is None or fit:
+        img = image_2d(j, ph, ph, shape=shape, sigma=sig, disk=disk, streak=streak) if profiles is None else \
+            profiles[1][:, None, :, :, None] * profiles[0][:, :, None, None, :]  # (the product image_2d forms)
+        mu = sgn[e5] * img + bg[e5]
+        mean, var, _ = adu_moments(mu, rd[e5], g[e5], top[e5])
+    else:
+        mean, var = spot_adu_moments(profiles[0], profiles[1], sgn, bg, rd, g, top)
     mask = inside[:, :, None, :, None] & inside[:, :, None, None, :]  # (C, 1, 1, Jy, Jx)
     w, v = mean - (bg / g)[e5], var
     if not mask.all():  # candidates of narrower windows in the span

@@ -15,7 +15,8 @@ import numpy as np
 from budget.imaging.rounding import moments_at, scratch, split
 from budget.imaging.special import phi_cdf
 
-__all__ = ["EXACT_BELOW", "adu_moments", "clipped_moments", "image_2d", "profile_1d"]
+__all__ = ["EXACT_BELOW", "adu_moments", "clipped_moments", "image_2d", "profile_1d", "spot_adu_moments",
+           "spot_profiles"]
 
 EXACT_BELOW = 0.75
 """Noise (ADC counts) below which the rounding is modelled exactly rather than as g²/12 added."""
@@ -67,6 +68,41 @@ def profile_1d(offsets: np.ndarray, phase: np.ndarray, *, shape: str, sigma: np.
     hi = _cdf_gauss_streak(j + 0.5 - ph, s, L)
     lo = _cdf_gauss_streak(j - 0.5 - ph, s, L)
     return hi - lo
+
+
+def spot_profiles(sigma: np.ndarray, streak: np.ndarray, ph: np.ndarray, half: int) -> tuple[np.ndarray, np.ndarray]:
+    """A spot's column (streaked) and row profiles, (C, P, J) each, on the pixels −half … half at the phases
+    ``ph``: the factors of :func:`image_2d` for a spot (the same array twice for a still spot)."""
+    j = np.arange(-half, half + 1, dtype=float)
+    grid = np.broadcast_to(ph, (sigma.size, ph.size))
+    zero = np.zeros((sigma.size, 1))
+    px = profile_1d(j, grid, shape="spot", sigma=sigma[:, None], disk=zero, streak=streak[:, None])
+    if not np.any(streak):
+        return px, px
+    return px, profile_1d(j, grid, shape="spot", sigma=sigma[:, None], disk=zero, streak=zero)
+
+
+def spot_adu_moments(px: np.ndarray, py: np.ndarray, signal_e, background_e, read_e, gain, top
+                     ) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`adu_moments` of a spot's pixels (C, Px, Py, Jy, Jx) from its column and row profiles (C, P, J).
+
+    The image is py·px as :func:`image_2d` forms it. For a still spot (``py is px``) the image at the phases
+    (a, b) is the transpose of that at (b, a), the same products, so only the pairs a ≤ b are computed
+    (10 of 16 for 4 × 4 phases) and the others are their transposes: the same values.
+    """
+    e4, e5 = (slice(None), None, None, None), (slice(None), None, None, None, None)
+    if py is not px:
+        mu = signal_e[e5] * (py[:, None, :, :, None] * px[:, :, None, None, :]) + background_e[e5]
+        mean, var, _ = adu_moments(mu, read_e[e5], gain[e5], top[e5])
+        return mean, var
+    c, p, n = px.shape
+    pa, pb = np.triu_indices(p)
+    mu = signal_e[e4] * (px[:, pb, :, None] * px[:, pa, None, :]) + background_e[e4]  # (C, pairs, Jy, Jx)
+    m_pairs, v_pairs, _ = adu_moments(mu, read_e[e4], gain[e4], top[e4])
+    mean, var = np.empty((c, p, p, n, n)), np.empty((c, p, p, n, n))
+    mean[:, pb, pa], var[:, pb, pa] = m_pairs.swapaxes(-1, -2), v_pairs.swapaxes(-1, -2)
+    mean[:, pa, pb], var[:, pa, pb] = m_pairs, v_pairs
+    return mean, var
 
 
 def _phi_integral(v: np.ndarray, sigma: np.ndarray) -> np.ndarray:

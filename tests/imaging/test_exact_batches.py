@@ -96,3 +96,25 @@ def test_dither_series_leaves_the_locator_figures(phi, rel, monkeypatch):
     assert with_series.exact_adc.sum() > 30
     for name in ("fixed_var", "fixed_peak", "noise_var", "random_var"):
         assert np.allclose(getattr(with_series, name), getattr(sums_only, name), rtol=rel, atol=0)
+
+
+@pytest.mark.parametrize("streak", [0.0, 1.7])
+def test_spot_moments_from_profiles_equal_those_of_the_image(streak):
+    # The exact model forms a spot's profiles once per window size and, for a still spot, takes the ADC's
+    # moments on the phase pairs a <= b only (the others are transposes): the same values, bit for bit, as
+    # adu_moments on image_2d's image. Internal consistency.
+    from budget.imaging.pixels import image_2d, spot_adu_moments, spot_profiles
+    kw = _cameras(12, 7)
+    sig = kw["sigma_px"]
+    ph = (np.arange(4) + 0.5) / 8.0
+    streaks = np.full(sig.size, streak)
+    px, py = spot_profiles(sig, streaks, ph, 6)
+    assert (py is px) == (streak == 0.0)
+    top = 2.0 ** kw["bit_depth"] - 1.0
+    mean, var = spot_adu_moments(px, py, kw["signal_e"], kw["background_e"], kw["read_noise_e"],
+                                 kw["gain_e_per_adu"], top)
+    e5 = (slice(None), None, None, None, None)
+    img = image_2d(np.arange(-6, 7.0), ph, ph, shape="spot", sigma=sig, disk=np.zeros(sig.size), streak=streaks)
+    ref_mean, ref_var, _ = adu_moments(kw["signal_e"][e5] * img + kw["background_e"][e5], kw["read_noise_e"][e5],
+                                       kw["gain_e_per_adu"][e5], top[e5])
+    assert np.array_equal(mean, ref_mean) and np.array_equal(var, ref_var)
