@@ -13,7 +13,7 @@ from pathlib import Path
 __all__ = ["run"]
 
 
-def run(rig, *, seed: int | None = None, trials: int | None = None, p: float = 0.95):
+def run(rig, *, seed: int | None = None, trials: int | None = None, p: float | None = None):
     """Run a rig's full budget by both methods.
 
     Parameters
@@ -25,8 +25,9 @@ def run(rig, *, seed: int | None = None, trials: int | None = None, p: float = 0
         Seed of the random generator; None draws one (recorded in ``result.seed``, short enough to retype).
     trials : int, optional
         Fixed Monte Carlo trials; None runs the adaptive procedure (JCGM 101 7.9).
-    p : float
-        Coverage probability (default 0.95); a rig with a ``[goal]`` p needs the same value here.
+    p : float, optional
+        Coverage probability; None (default) takes the ``[goal]`` p, else 0.95, as the command does. A value
+        that differs from the ``[goal]`` p is refused (a target is judged at its own p).
 
     Returns
     -------
@@ -47,7 +48,8 @@ def run(rig, *, seed: int | None = None, trials: int | None = None, p: float = 0
         rig = load_rig(path)
     ev = load_evaluation(rig, read_rig_data(rig))
     rng = make_rng(seed)
-    result = run_budget(ev.rig, rng=rng, p=run_p(check_p(p), rig), trials=trials, input_path=path or "", evaluation=ev)
+    p_run = run_p(None if p is None else check_p(p), rig, "p =")
+    result = run_budget(ev.rig, rng=rng, p=p_run, trials=trials, input_path=path or "", evaluation=ev)
     result = with_verdicts(rig, result)
     if rig.range_claim is not None:
         result = replace(result, range_claim=claim_for_range(ev.rig, result, rng=rng, trials=trials))

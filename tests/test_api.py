@@ -25,7 +25,7 @@ def sweep():
 
 def test_public_names():
     assert {"run", "RunResult"} <= set(budget.__all__)
-    assert isinstance(budget.run(load_rig(TEMPLATES / "gauge_static.toml"), seed=2, trials=2000), budget.RunResult)
+    assert isinstance(budget.run(load_rig(TEMPLATES / "gauge_static.toml"), seed=2, trials=10_000), budget.RunResult)
 
 
 def test_summary_one_row_per_output(sweep):
@@ -88,3 +88,20 @@ def test_angle_correlation_matches_an_independent_monte_carlo(sweep):
     d = (uf["P3"] - uf["P1"]).std_dev
     s = np.std(b - a, ddof=1)
     assert abs(d - s) < 4 * math.sqrt(2) * s / math.sqrt(2 * (TRIALS - 1)), (d, s)
+
+
+def test_p_defaults_to_the_goal_p_as_the_command_does(tmp_path):
+    import tomllib
+
+    from budget.errors import BudgetInputError
+    from budget.inputs.toml_text import dumps_toml
+
+    doc = tomllib.loads((TEMPLATES / "gauge_static.toml").read_text(encoding="utf-8"))
+    doc["goal"]["p"] = 0.99
+    path = tmp_path / "gauge99.toml"
+    path.write_text(dumps_toml(doc), encoding="utf-8")
+    res = budget.run(path, seed=1, trials=10_000)
+    assert res.p == 0.99 and all(g.p == 0.99 for g in res.goals)
+    assert budget.run(path, seed=1, trials=10_000, p=0.99).p == 0.99
+    with pytest.raises(BudgetInputError, match=r"^p = 0.95 differs from the 'p' field of \[goal\] \(0.99\)"):
+        budget.run(path, seed=1, trials=10_000, p=0.95)

@@ -26,8 +26,8 @@ BASIS = ("the larger distance from the reference value (nominal, or measured) to
          "probabilistically symmetric interval")
 
 
-def run_p(given: float | None, rig: RigDescription) -> float:
-    """The coverage probability of a run: the one given, else the ``[goal]`` p, else 0.95.
+def run_p(given: float | None, rig: RigDescription, name: str = "--p") -> float:
+    """The coverage probability of a run: the one given (as ``name``), else the ``[goal]`` p, else 0.95.
 
     Raises
     ------
@@ -36,7 +36,7 @@ def run_p(given: float | None, rig: RigDescription) -> float:
     """
     goal_p = rig.goal.p if rig.goal is not None else None
     if given is not None and goal_p is not None and abs(given - goal_p) > 1e-12:
-        raise BudgetInputError(f"--p {given:g} differs from the 'p' field of [goal] ({goal_p:g}); a target is "
+        raise BudgetInputError(f"{name} {given:g} differs from the 'p' field of [goal] ({goal_p:g}); a target is "
                                "judged at its own coverage probability: give one of them, or the same value.")
     return given if given is not None else (goal_p if goal_p is not None else 0.95)
 

@@ -126,11 +126,29 @@ def run_to_dict(result: RunResult) -> dict:
         block["measured_deg"] = list(s.measured_deg) if s.measured_deg is not None else None
         _targets(block, result, "gain")
         doc["gain"] = block
+    if (cov := _covariance(result)) is not None:
+        doc["covariance"] = cov
     if result.decisions:
         doc["decision_rule"] = result.decision_rule
     if result.range_claim is not None:
         doc["range_claim"] = claim_dict(result)
     return doc
+
+
+def _covariance(result: RunResult) -> dict | None:
+    """The reported outputs' joint covariance by each method (entry (i, j) in the unit of output i times
+    that of output j): what a follow-on calculation needs to keep the outputs' correlations."""
+    names = list(result.covariance_names)
+    if not names or result.covariance_linear is None or result.covariance_mc is None:
+        return None
+    return {
+        "outputs": names,
+        "units": ["deg/V" if n == "gain" else "deg" for n in names],
+        "linear": [[float(v) for v in row] for row in result.covariance_linear],
+        "monte_carlo": [[float(v) for v in row] for row in result.covariance_mc],
+        "method": "linear: C U_x C^T with the sensitivities of the first-order budget (JCGM 102 6.2); "
+                  "Monte Carlo: the trials' sample covariance (JCGM 102 clause 7, recalled from memory)",
+    }
 
 
 def _targets(block: dict, result: RunResult, name: str) -> None:
