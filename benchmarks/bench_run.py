@@ -16,7 +16,8 @@ Run by hand (never as a timed test)::
 2. The phases of ``run_budget`` in process, each with the same engine calls it makes.
 3. With ``--points``: the sweep template with that many set points (1 V to 9 V), the whole
    ``run_budget`` in CPU seconds against the same floor measured in process; aim: 51 points
-   under 5 s.
+   under 5 s. With ``--lean`` also the same sweeps without the pointer, fixed-pattern and
+   camera-mount components (added after the aim was set: 366 inputs at 51 points, not 680).
 """
 
 from __future__ import annotations
@@ -147,8 +148,21 @@ def phases(path: str, repeat: int, seed: int) -> None:
     print(f"  {'rest (validation, statements, warnings)':<44} {rest:7.3f} s {100 * rest / t_total:5.1f} %")
 
 
-def sweep_points(points: list[int]) -> None:
+def lean(doc: dict) -> dict:
+    """The sweep template without the components added after issue 14's aims were set (issue 10's
+    pointer repeatability, settling and pivot play, fixed-pattern noise and camera-mount drift)."""
+    doc = {k: (dict(v) if isinstance(v, dict) else v) for k, v in doc.items() if k != "pointer"}
+    for section, keys in (("camera", ("prnu_pct", "dsnu_e")), ("geometry", ("mount_shift_um", "mount_roll_deg"))):
+        for key in keys:
+            doc[section].pop(key, None)
+    return doc
+
+
+def sweep_points(points: list[int], without_later: bool = False) -> None:
     doc = tomllib.loads((ROOT / "templates" / "gain_sweep.toml").read_text())
+    if without_later:
+        doc = lean(doc)
+        print("without the pointer, fixed-pattern and camera-mount components:")
     for n in points:
         volts = [round(float(v), 6) for v in np.linspace(1.0, 9.0, n)]
         rig = parse_rig(merge_doc(doc, {"sweep": {"set_points_v": volts}}))
@@ -170,6 +184,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--points", type=int, nargs="*", default=[], help="sweeps of this many set points")
     ap.add_argument("--skip-phases", action="store_true")
+    ap.add_argument("--lean", action="store_true", help="--points also without the components added after the aims")
     ap.add_argument("--profile", action="store_true", help="cProfile one whole run_budget (CPU time)")
     args = ap.parse_args(argv)
     print(f"Python {platform.python_version()}, numpy {np.__version__}, {platform.machine()}")
@@ -178,6 +193,8 @@ def main(argv: list[str] | None = None) -> int:
         phases(args.file, max(1, args.repeat // 2), args.seed)
     if args.points:
         sweep_points(args.points)
+        if args.lean:
+            sweep_points(args.points, without_later=True)
     if args.profile:
         rig = load_rig(args.file)
         prof = cProfile.Profile(time.process_time)
