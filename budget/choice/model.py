@@ -19,11 +19,20 @@ from budget.choice.design import PointGradients, design_geometry
 from budget.imaging import optics, pixel_model, spot
 from budget.inputs.choose_file import ChooseSpec
 
-__all__ = ["COMPONENTS", "Candidates", "PointGradients", "Prediction", "design_geometry", "predict_candidates",
-           "distance_bounds", "truncation_by_window"]
+__all__ = ["COMPONENTS", "OMITTED", "Candidates", "PointGradients", "Prediction", "design_geometry",
+           "predict_candidates", "distance_bounds", "truncation_by_window"]
 
 COMPONENTS = ("pixel quantization", "pixel-locking", "centroid noise", "pivot estimate", "camera skew",
               "lens distortion", "frame timing")
+OMITTED = (
+    ("pointer repeatability, settling and pivot play", "the pointer's own, the same with any camera"),
+    ("camera-mount drift", "the mount's, the same with any camera"),
+    ("fixed-pattern noise (PRNU, DSNU)", "the cameras list has no columns for it"),
+    ("the voltage source's errors (sweeps)", "the source's, the same with any camera: an ideal source is assumed"),
+)
+"""Components a rig budget has that the choice leaves out, with why: each is an optimistic omission
+(the candidates' U is smaller than the rig's will be), said in every report of ``choose``; ``run`` on
+the rig written by ``--rig-out`` lists them among its assumptions."""
 _DEG = 180.0 / math.pi
 
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-from budget.choice.model import COMPONENTS
+from budget.choice.model import COMPONENTS, OMITTED
 from budget.choice.rank import Choice
 from budget.report.safe_write import clean_text
 
@@ -57,6 +57,12 @@ def choice_rows(ch: Choice, limit: int | None = None) -> list[dict]:
     return rows
 
 
+def omitted_line() -> str:
+    """The components every candidate's U leaves out, in words."""
+    return ("Optimistic omissions (not in any candidate's U; add them to the rig before relying on a margin): "
+            + "; ".join(f"{c} ({why})" for c, why in OMITTED) + ".")
+
+
 def _confirmation(c) -> dict | None:
     if c is None:
         return None
@@ -81,6 +87,7 @@ def choice_to_dict(ch: Choice, input_path: str = "", limit: int | None = SHOWN, 
         "meeting_at_shortest_distance": None if ch.shortest is None else int(ch.shortest.meets.sum()),
         "shown": len(rows), "not_shown": len(ch.order) - len(rows), "ranking": rows,
         "top_pick": {**rows[0], "rig_model": _confirmation(confirmation), "seed": seed} if rows else None,
+        "omitted": [{"component": c, "reason": why} for c, why in OMITTED],
         "method": "surrogate: JCGM 100 linear propagation with closed-form first-order sensitivities, all candidates "
                   "and settings at once (tested against the rig model); the top pick's rig_model block, where "
                   "given, is the rig model itself",
@@ -167,6 +174,7 @@ def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirm
             lines.append(f"least pixels across the field that meet the goal: {lp.pixels:.0f} "
                          f"(pitch {lp.pitch_um:.3g} µm on a {spec.pixel_model['sensor_width_mm']:g} mm sensor; "
                          f"{lp.note}).")
+    lines.append(omitted_line())
     lines.append("Each candidate's working distance is searched over the allowed range (and f-number and exposure "
                  "where [search] lists them); U includes any known offset (rolling-shutter rows). Tilt enters the "
                  "surrogate to first order only: the rig model (--verify, or run on --rig-out) has the rest.")
@@ -213,7 +221,8 @@ def write_choice_xlsx(ch: Choice, path: Path, provenance: list[tuple[str, str]] 
     text(prov, 1, 1, f"Camera choice: {ch.spec.title}", TITLE)
     stamp = _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")
     items = [("tool", f"thetabudget {__version__}"), *(provenance or []), ("written (UTC)", stamp),
-             ("candidates", f"{len(rows)}, best first (ranked as the console shows them)")]
+             ("candidates", f"{len(rows)}, best first (ranked as the console shows them)"),
+             ("not modelled", omitted_line())]
     for r, (label, value) in enumerate(items, start=3):
         text(prov, r, 1, label, BOLD)
         text(prov, r, 2, value).alignment = WRAP
