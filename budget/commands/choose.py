@@ -38,7 +38,7 @@ def execute(args: argparse.Namespace) -> int:
     if args.json:
         text = dumps(choice_to_dict(result, str(args.file), limit, confirmation, seed)) + "\n"
     else:
-        text = render_choice(result, limit, confirmation=confirmation)
+        text = render_choice(result, limit, width=_width(), confirmation=confirmation)
     written = []
     with FileSet(args.force) as files:  # every file or none, before anything is printed
         if args.rig_out is not None:
@@ -54,6 +54,15 @@ def execute(args: argparse.Namespace) -> int:
         for p in written:
             print(f"wrote {p}")
     return 0
+
+
+def _width() -> int | None:
+    """The terminal's columns (or ``COLUMNS``); None when the text goes to a file or a pipe: the whole table."""
+    import os
+
+    from budget.report.console import terminal_width
+
+    return terminal_width() if sys.stdout.isatty() or "COLUMNS" in os.environ else None
 
 
 def _provenance(args: argparse.Namespace, spec, seed) -> list[tuple[str, str]]:

@@ -119,6 +119,11 @@ def _top_lines(ch: Choice, row: dict, confirmation) -> list[str]:
     return lines
 
 
+NARROW_DROPS = ("mm/px", "σ px", "R px", "t ms", "f/N", "price", "U at shortest D", "D mm", "limited by")
+"""Columns of the console table a narrow terminal goes without, first the first (the JSON and the
+workbook keep every one)."""
+
+
 def _plain_table(cols: list[str], body: list[list[str]], left: set[str]) -> list[str]:
     """A plain text table (user text printed verbatim; only the rows given are formatted)."""
     widths = [max(len(c), *(len(r[j]) for r in body)) if body else len(c) for j, c in enumerate(cols)]
@@ -130,11 +135,12 @@ def _plain_table(cols: list[str], body: list[list[str]], left: set[str]) -> list
     return [line(cols), "  ".join("-" * w for w in widths), *(line(r) for r in body)]
 
 
-def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirmation=None) -> str:
-    """The ranking as a text table (rich), the top pick with its margin, and the continuous model's answer.
+def render_choice(ch: Choice, top: int | None = SHOWN, width: int | None = None, confirmation=None) -> str:
+    """The ranking as a text table, the top pick with its margin, and the continuous model's answer.
 
     Only the first ``top`` rows are built (None: every one); the title says how many are not shown.
-    ``width`` is kept for callers: the plain table is as wide as its cells.
+    ``width`` (a terminal's columns; None: no limit) leaves out the columns of :data:`NARROW_DROPS`, in
+    that order, until the table fits, says which, and wraps the text at words.
     """
     spec, p = ch.spec, ch.pred
     gain = p.u_gain_pct is not None
@@ -154,8 +160,19 @@ def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirm
                     ["—" if at_short is None else f"{at_short:.3g}", f"{row['margin_pct']:+.1f}",
                      "yes" if row["meets"] else "no", row["limiting"]])
     left = {"camera", "lens", "meets", "limited by"}
-    lines = [f"{spec.title}: {len(ch.order)} camera × lens candidates, best first{more}", "",
-             *_plain_table(cols, body, left), ""]
+    dropped: list[str] = []
+    table = _plain_table(cols, body, left)
+    for name in NARROW_DROPS:
+        if width is None or max(map(len, table)) <= width:
+            break
+        j = cols.index(name)
+        cols, body = cols[:j] + cols[j + 1:], [r[:j] + r[j + 1:] for r in body]
+        dropped.append(name)
+        table = _plain_table(cols, body, left)
+    lines = [f"{spec.title}: {len(ch.order)} camera × lens candidates, best first{more}", "", *table, ""]
+    if dropped:
+        lines.append(f"Columns left out at this width ({width}): {', '.join(dropped)}; a wider terminal, --json or "
+                     "--xlsx shows them.")
     goal = ", ".join(f"{k} = {v:g}" for k, v in spec.goal.items() if k in ("angle_U_deg", "gain_U_pct", "p"))
     short = "" if ch.shortest is None else f" ({int(ch.shortest.meets.sum())} at their shortest distance)"
     lines.append(f"goal: {goal} (k = {p.k:.3f}); {int(p.meets.sum())} of {len(ch.order)} candidates meet it at "
@@ -178,7 +195,17 @@ def render_choice(ch: Choice, top: int | None = SHOWN, width: int = 170, confirm
     lines.append("Each candidate's working distance is searched over the allowed range (and f-number and exposure "
                  "where [search] lists them); U includes any known offset (rolling-shutter rows). Tilt enters the "
                  "surrogate to first order only: the rig model (--verify, or run on --rig-out) has the rest.")
+    if width is not None:  # the text at words; the table's lines as they are
+        n_table = 2 + len(table)
+        lines = [*_wrapped(lines[:1], width), *lines[1:n_table], *_wrapped(lines[n_table:], width)]
     return "\n".join(lines) + "\n"
+
+
+def _wrapped(lines: list[str], width: int) -> list[str]:
+    import textwrap
+
+    return [w for line in lines
+            for w in (textwrap.wrap(line, width, subsequent_indent="  ", break_on_hyphens=False) or [""])]
 
 
 def write_choice_xlsx(ch: Choice, path: Path, provenance: list[tuple[str, str]] | None = None) -> None:

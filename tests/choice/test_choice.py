@@ -241,7 +241,7 @@ def test_square_brackets_in_a_camera_name_are_printed_as_written(tmp_path):
     doc = _doc()
     doc["candidates"]["cameras_csv"] = str(cams)
     doc["title"] = "choice [/] (invented)"
-    text = render_choice(choose(parse_choose(doc)), width=400)
+    text = render_choice(choose(parse_choose(doc)))
     assert "choice [/] (invented)" in text and "demo [/] cam [bold]b[/bold]" in text
 
 

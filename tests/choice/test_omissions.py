@@ -33,3 +33,24 @@ def test_every_choose_report_names_the_omissions(tmp_path):
     # the rig written for the top pick: run lists the pointer's and the mount's terms as omissions
     fields = {a.field for a in load_rig(tmp_path / "top.toml").assumptions}
     assert any(f.startswith("pointer") for f in fields) and any("mount" in f for f in fields), fields
+
+
+def test_a_narrow_terminal_gets_a_table_that_fits_and_is_told_what_it_lacks(tmp_path, monkeypatch):
+    from budget.report.choice import NARROW_DROPS
+
+    ws = make_workspace(tmp_path)
+    wide = call(["choose", ws["choose"]], tmp_path)  # not a terminal, no COLUMNS: the whole table
+    assert "Columns left out" not in wide.out and "mm/px" in wide.out
+    for width in (80, 100, 120):
+        monkeypatch.setenv("COLUMNS", str(width))
+        o = call(["choose", ws["choose"]], tmp_path)
+        assert o.code == 0, o.err
+        assert max(len(line) for line in o.out.splitlines()) <= width, width
+        said = next(line for line in o.out.splitlines() if line.startswith("Columns left out"))
+        assert f"({width})" in said and "mm/px" in said
+        header = next(line for line in o.out.splitlines() if line.startswith(" #"))
+        assert "camera" in header and "margin %" in header and "meets" in header
+        assert "mm/px" not in header and NARROW_DROPS[0] == "mm/px"
+        for row in wide.out.splitlines():  # every candidate row is still there, by its rank
+            if row[:3].strip().isdigit():
+                assert any(line.startswith(row[:4]) for line in o.out.splitlines())
