@@ -57,12 +57,14 @@ def execute(args: argparse.Namespace) -> int:
 
 
 def _width() -> int | None:
-    """The terminal's columns (or ``COLUMNS``); None when the text goes to a file or a pipe: the whole table."""
+    """The terminal's columns (or ``COLUMNS``), at least 80; None when the text goes to a file or a pipe: the
+    whole table. (As :func:`budget.report.console.terminal_width`, without importing the run's console.)"""
     import os
+    import shutil
 
-    from budget.report.console import terminal_width
-
-    return terminal_width() if sys.stdout.isatty() or "COLUMNS" in os.environ else None
+    if not (sys.stdout.isatty() or "COLUMNS" in os.environ):
+        return None
+    return max(80, shutil.get_terminal_size((120, 24)).columns)
 
 
 def _provenance(args: argparse.Namespace, spec, seed) -> list[tuple[str, str]]:
