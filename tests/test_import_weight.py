@@ -52,3 +52,19 @@ def test_run_imports_no_heavy_module(template):
         "assert rc == 0, rc"
     )
     assert not [m for m in RUN_HEAVY if m in loaded], sorted(m for m in loaded if m.split(".")[0] in RUN_HEAVY)
+
+
+@pytest.mark.parametrize("columns", [None, "100"])
+def test_choose_imports_no_heavy_module(columns):
+    # The camera choice prints a plain table: no rich, scipy, pandas, matplotlib or openpyxl, whether or
+    # not it fits a terminal's width.
+    argv = ["choose", str(TEMPLATES / "choose_cameras.toml")]
+    env = "" if columns is None else f"import os; os.environ['COLUMNS'] = {columns!r}\n"
+    loaded = _modules_after(
+        env + "import contextlib, io\n"
+        "from budget.cli import main\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        f"    rc = main({argv!r})\n"
+        "assert rc == 0, rc"
+    )
+    assert not [m for m in HEAVY if m in loaded], sorted(m for m in loaded if m.split(".")[0] in HEAVY)
