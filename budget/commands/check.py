@@ -8,13 +8,12 @@ __all__ = ["execute"]
 
 
 def execute(args: argparse.Namespace) -> int:
-    from budget.errors import BudgetInputError
     from budget.imaging.locator_model import locator_model
     from budget.inputs.data_csv import read_rig_data
     from budget.inputs.rig_file import load_rig
     from budget.inputs.schema import read_toml
     from budget.report.console import fmt, fmt_dof
-    from budget.rig.arc import short_arc_reason
+    from budget.rig.arc import refuse_short_arc
     from budget.rig.components import build_inputs
     from budget.rig.evaluation import load_evaluation
 
@@ -25,9 +24,7 @@ def execute(args: argparse.Namespace) -> int:
     ev = load_evaluation(rig, read_rig_data(rig))
     rig = ev.rig
     inputs, corr = build_inputs(rig, ev.type_a)
-    reason = short_arc_reason(rig, inputs)
-    if reason is not None:  # what run, advise and predict would refuse
-        raise BudgetInputError(f"The pivot cannot be found: {reason}")
+    refuse_short_arc(rig, inputs)  # what run, advise and predict would refuse
     lm = locator_model(rig)
     print(f"{args.file}: valid. {rig.title}")
     print(f"pointer radius {rig.radius_px:.1f} px, spot sigma {lm.sigma_px:.3g} px, "

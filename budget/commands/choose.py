@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from budget.commands.common import dumps, make_rng, seed_of
+from budget.commands.common import dumps, make_rng, seed_of, terminal_width
 from budget.errors import BudgetInputError
 from budget.report.safe_write import check_targets
 
@@ -38,7 +38,7 @@ def execute(args: argparse.Namespace) -> int:
     if args.json:
         text = dumps(choice_to_dict(result, str(args.file), limit, confirmation, seed)) + "\n"
     else:
-        text = render_choice(result, limit, width=_width(), confirmation=confirmation)
+        text = render_choice(result, limit, width=terminal_width(None), confirmation=confirmation)
     written = []
     with FileSet(args.force) as files:  # every file or none, before anything is printed
         if args.rig_out is not None:
@@ -54,17 +54,6 @@ def execute(args: argparse.Namespace) -> int:
         for p in written:
             print(f"wrote {p}")
     return 0
-
-
-def _width() -> int | None:
-    """The terminal's columns (or ``COLUMNS``), at least 80; None when the text goes to a file or a pipe: the
-    whole table. (As :func:`budget.report.console.terminal_width`, without importing the run's console.)"""
-    import os
-    import shutil
-
-    if not (sys.stdout.isatty() or "COLUMNS" in os.environ):
-        return None
-    return max(80, shutil.get_terminal_size((120, 24)).columns)
 
 
 def _provenance(args: argparse.Namespace, spec, seed) -> list[tuple[str, str]]:

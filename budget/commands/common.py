@@ -1,4 +1,4 @@
-"""What every sub-command shares: the one random-generator factory, progress, JSON text.
+"""What every sub-command shares: the one random-generator factory, progress, JSON text, the terminal's width.
 
 Sub-commands live one per module in this package; each exposes ``execute(args) -> int`` and
 raises :class:`budget.errors.BudgetInputError` for bad input (:mod:`budget.cli` maps it to
@@ -16,7 +16,8 @@ import numpy as np
 
 from budget.report.safe_write import remove_pending
 
-__all__ = ["SEED_BOUND", "make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending"]
+__all__ = ["SEED_BOUND", "make_rng", "seed_of", "progress_bar", "dumps", "rig_inputs", "remove_pending",
+           "terminal_width"]
 
 
 SEED_BOUND = 2**32
@@ -74,3 +75,14 @@ def rig_inputs(path: Path, rig=None, data=None) -> list[Path]:
         elif kind == "image":
             out.append(Path(name) if Path(name).is_absolute() else folder / name)
     return out
+
+
+def terminal_width(default: int | None = 120) -> int | None:
+    """The terminal's width (``COLUMNS`` when set), at least 80; ``default`` when the text goes to a file or a
+    pipe (None: no limit)."""
+    import os
+    import shutil
+
+    if default is None and not (sys.stdout.isatty() or "COLUMNS" in os.environ):
+        return None
+    return max(80, shutil.get_terminal_size((default or 120, 24)).columns)

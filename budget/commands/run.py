@@ -72,7 +72,8 @@ def execute(args: argparse.Namespace) -> int:
 
         text = run_to_json(result)
     else:
-        from budget.report.console import render_run, terminal_width
+        from budget.commands.common import terminal_width
+        from budget.report.console import render_run
 
         text = render_run(result, width=terminal_width(), detail=getattr(args, "detail", False))
     written = []

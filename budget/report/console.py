@@ -11,7 +11,7 @@ from rich.table import Table
 
 from budget.results import OutputBudget, RunResult
 
-__all__ = ["render_run", "budget_table", "summary_table", "fmt_near", "terminal_width", "fmt", "fmt_dof",
+__all__ = ["render_run", "budget_table", "summary_table", "fmt_near", "fmt", "fmt_dof",
            "reference_line", "data_table"]
 
 
@@ -190,13 +190,6 @@ def _data_section(con: Console, result: RunResult, roomy: bool = True) -> None:
                   "Markdown and workbook)" + (f"; {missing} not found, their recorded SHA-256 kept" if missing else ""))
     con.print(data_table(result, roomy))
     con.print(f"  {d.scatter_check}")
-
-
-def terminal_width(default: int = 120) -> int:
-    """The terminal's width (``COLUMNS`` when set), ``default`` when not a terminal; at least 80."""
-    import shutil
-
-    return max(80, shutil.get_terminal_size((default, 24)).columns)
 
 
 def render_run(result: RunResult, width: int = 120, detail: bool = False) -> str:

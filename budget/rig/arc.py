@@ -10,12 +10,11 @@ from __future__ import annotations
 
 import math
 
+from budget.errors import BudgetInputError
 from budget.rig.description import RigDescription
+from budget.rig.model import LOCATOR_KINDS
 
-__all__ = ["arc_bow", "short_arc_reason"]
-
-_LOCATED = ("quant", "lock", "noise", "fpn", "resid")
-"""The located points' own errors along one image axis (px), as the rig's inputs name them."""
+__all__ = ["arc_bow", "short_arc_reason", "refuse_short_arc"]
 
 
 def arc_bow(rig: RigDescription) -> tuple[float, float] | None:
@@ -50,9 +49,16 @@ def short_arc_reason(rig: RigDescription, inputs: dict | None = None) -> str | N
     if inputs is None:
         return _reason(rig, span, sagitta, "") if sagitta < 1.0 else None
     u_point = 0.0
-    for key in {k.split("_", 1)[1] for k in inputs if k.startswith(_LOCATED) and "_" in k}:  # "x_P3", "y_Z", …
-        u2 = sum(inputs[f"{kind}_{key}"].distribution.u ** 2 for kind in _LOCATED if f"{kind}_{key}" in inputs)
+    for key in {k.split("_", 1)[1] for k in inputs if k.startswith(LOCATOR_KINDS) and "_" in k}:  # "x_P3", "y_Z", …
+        u2 = sum(inputs[f"{kind}_{key}"].distribution.u ** 2 for kind in LOCATOR_KINDS if f"{kind}_{key}" in inputs)
         u_point = max(u_point, math.sqrt(u2))
     if sagitta >= u_point:
         return None
     return _reason(rig, span, sagitta, f", less than a located point's own scatter, u = {u_point:.2g} px")
+
+
+def refuse_short_arc(rig: RigDescription, inputs: dict) -> None:
+    """Raise :class:`BudgetInputError` (before any work) when :func:`short_arc_reason` gives a reason."""
+    reason = short_arc_reason(rig, inputs)
+    if reason is not None:
+        raise BudgetInputError(f"The pivot cannot be found: {reason}")

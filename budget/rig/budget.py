@@ -30,7 +30,7 @@ from budget.propagation.model import NonFiniteOutput
 from budget.results import ComponentLine, GainSummary, OutputBudget, RunResult
 from budget.rig import checks
 from budget.rig import components as comp
-from budget.rig.arc import short_arc_reason
+from budget.rig.arc import refuse_short_arc, short_arc_reason
 from budget.rig.attribution import exact_pivot_linear, with_pivot_attribution
 from budget.rig.description import RigDescription
 from budget.rig.evaluation import Evaluation
@@ -201,9 +201,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
     for note in rig.input_warnings:  # numbers outside their plausible range: into every report
         warn(note)
     inputs, corr = comp.build_inputs(rig, type_a)
-    reason = short_arc_reason(rig, inputs)
-    if reason is not None:  # refused before any work, whatever the draws would give
-        raise BudgetInputError(f"The pivot cannot be found: {reason}")
+    refuse_short_arc(rig, inputs)  # before any work, whatever the draws would give
     nominal = {f"P{i + 1}": a for i, a in enumerate(rig.nominal_angles_deg)}
     if rig.sweep is not None:
         nominal.update(gain=rig.sweep.nominal_gain_deg_per_v, intercept=0.0)

@@ -27,9 +27,12 @@ from budget.rig.geometry import (
 )
 from budget.rig.source import shared_names
 
-__all__ = ["VirtualRig"]
+__all__ = ["VirtualRig", "LOCATOR_KINDS"]
 
 _FLOAT = np.dtype(float)
+LOCATOR_KINDS = ("quant", "lock", "noise", "fpn", "resid")
+"""The located points' own errors along one image axis (px), in the order they are added; inputs
+``{kind}_{x|y}_{label}``."""
 
 
 def _add_rows(arr: np.ndarray, kw: dict, keys: list[tuple[int, str]], scale: float = 1.0) -> None:
@@ -81,7 +84,7 @@ class VirtualRig:
                             for name in ("lsb_mv", "inl_mv", "vnoise_mv", "dmm_res_mv", "jitter_ms")}
         self.shared = bool(shared_names(rig))
         self.per_point = {(ax, kind): [(j, f"{kind}_{ax}_{lab}") for j, lab in enumerate(self.labels)]
-                          for ax in ("x", "y") for kind in ("quant", "lock", "noise", "fpn", "resid", "play")}
+                          for ax in ("x", "y") for kind in (*LOCATOR_KINDS, "play")}
         self.pointer_rows = {kind: [(i, f"{kind}_deg_P{i + 1}") for i in readings] for kind in ("repeat", "settle")}
         self.mount_px = rig.magnification / self.pitch_mm * 1e-3  # px in the image per µm at the dial
         # Inputs that move the pointer or its pivot on the dial (they shape the image); the fast path of
@@ -134,7 +137,7 @@ class VirtualRig:
 
     def _locator_errors(self, kw: dict, img_x: np.ndarray, img_y: np.ndarray) -> None:
         for ax, arr in (("x", img_x), ("y", img_y)):
-            for kind in ("quant", "lock", "noise", "fpn", "resid"):  # this order of additions per point
+            for kind in LOCATOR_KINDS:  # this order of additions per point
                 _add_rows(arr, kw, self.per_point[ax, kind])
         for key, (j, ux, uy) in self.directions.items():
             if key in kw:
@@ -282,8 +285,7 @@ class VirtualRig:
         count each set as one quantity (:func:`budget.propagation.stencils.paired_inputs`); tests/rig/
         test_additive_inputs.py holds the rig to this."""
         have = set(names)
-        kinds = ("quant", "lock", "noise", "fpn", "resid")
-        sets = [[self.per_point[ax, kind][j][1] for kind in kinds]
+        sets = [[self.per_point[ax, kind][j][1] for kind in LOCATOR_KINDS]
                 for ax in ("x", "y") for j in range(len(self.labels))]
         for i in range(self.n_read):
             sets.append([self.per_reading[name][i][1] for name in ("lsb_mv", "inl_mv", "vnoise_mv")])

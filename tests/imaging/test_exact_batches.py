@@ -80,7 +80,10 @@ def test_dither_series_leaves_the_locator_figures(phi, rel, monkeypatch):
     # on both routes they differ only by the sums' truncation (Φ(−6.5) = 4e-11 per pixel): measured 6.5e-10
     # relative on the fixed variance, 1.7e-9 on the largest bias; tolerance 5e-9. With A&S 7.1.26 the sums
     # carry up to 7.5e-8 count per threshold, and the fixed variance (squares of biases near 1e-3 px) shows
-    # it at 3e-6 relative (measured); tolerance 2e-5. Reference: the same model by the sums alone.
+    # it at 3e-6 relative (measured); tolerance 2e-5. Internal consistency: the expected value is the same
+    # model by the sums alone. The outside checks of each route (scipy.special.ndtr's rounded-normal
+    # probability mass) are in tests/imaging/test_rounding.py; the scipy Φ here only removes A&S 7.1.26's
+    # own error from the comparison.
     from scipy.special import ndtr
 
     from budget.imaging import rounding

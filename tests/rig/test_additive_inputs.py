@@ -41,6 +41,7 @@ def _sets(rig):
 
 @pytest.mark.parametrize("name", list(RIGS))
 def test_declared_sets_enter_only_through_their_sum(name):
+    # Internal consistency (no outside reference): the rig against its own declaration.
     inputs, model, sets = _sets(RIGS[name]())
     assert sets, "every template has a point with more than one locator error"
     names = list(inputs)
@@ -62,6 +63,9 @@ def test_declared_sets_enter_only_through_their_sum(name):
 
 @pytest.mark.parametrize("name", list(RIGS))
 def test_sets_counted_once_keep_the_second_order_u(name):
+    # Internal consistency: the same model with and without the declaration. The outside check of the
+    # algebra is JCGM 100:2008 5.1.2 eq. (14) written out by hand, in tests/propagation/test_second_order.py
+    # (test_inputs_read_through_one_sum_count_once); the 1e-6 is issue 14's tolerance for second-order terms.
     inputs, model, sets = _sets(RIGS[name]())
     once = linear(model, inputs, second_order=True)
     apart = linear(_Apart(model), inputs, second_order=True)
@@ -71,6 +75,7 @@ def test_sets_counted_once_keep_the_second_order_u(name):
 
 
 def test_evaluation_mode_keeps_the_declaration():
+    # Internal consistency: the evaluation-mode wrapper forwards what the rig declares.
     rig = RIGS["gain_sweep"]()
     inputs, model, sets = _sets(rig)
     wrapped = TrueValueModel(model, located={}, nominal={})

@@ -19,6 +19,7 @@ from budget.inputs.rig_file import load_rig
 from budget.rig import components as comp
 from budget.rig.arc import arc_bow, short_arc_reason
 from budget.rig.budget import run_budget
+from budget.rig.model import LOCATOR_KINDS
 from tests.paths import TEMPLATES
 
 
@@ -28,7 +29,7 @@ def _scaled(rig, factor):
 
 
 def _u_point(inputs):
-    kinds = ("quant", "lock", "noise", "fpn", "resid")
+    kinds = LOCATOR_KINDS
     keys = {k.split("_", 1)[1] for k in inputs if k.startswith(kinds)}
     return max(math.sqrt(sum(inputs[f"{kd}_{key}"].distribution.u ** 2 for kd in kinds if f"{kd}_{key}" in inputs))
                for key in keys)
