@@ -16,18 +16,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from budget.errors import field_error
-from budget.propagation.distributions import Normal, Rectangular
-from budget.propagation.joint import draw_joint, joint_groups
 from budget.propagation.lpu import check_p
-from budget.propagation.model import (
-    SINGLE,
-    Model,
-    correlated_factor,
-    correlation_from_covariance,
-    correlation_matrix,
-    evaluate,
-)
+from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantities import as_quantities
+from budget.propagation.sampling import Sampler
 from budget.propagation.streaming import Accumulator, Derived, Moments
 
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "monte_carlo_u",
@@ -144,63 +136,6 @@ def numerical_tolerance(u: float, n_dig: int) -> float:
     return 0.5 * 10.0**l
 
 
-class _Sampler:
-    """Draws chunks of input vectors; correlated inputs through a factor of r."""
-
-    def __init__(self, q: dict, r: np.ndarray | None) -> None:
-        self.names = list(q)
-        self.dists = [q[n].distribution for n in self.names]
-        self.joint = joint_groups(self.dists)  # drawn together (JCGM 102 6.5.3)
-        self.corr_idx: list[int] = []
-        self.factor = None
-        self.normal: list[int] = []
-        self.uniform: list[int] = []
-        if r is not None:
-            involved = [i for i in range(len(self.names)) if np.any(r[i, np.arange(len(r)) != i] != 0)]
-            for i in involved:
-                if not isinstance(self.dists[i], Normal):
-                    raise field_error(
-                        "correlation",
-                        "pairs of Normal inputs for Monte Carlo (JCGM 101 6.4.8)",
-                        f"{self.names[i]} ({self.dists[i].kind})",
-                    )
-            self.corr_idx = involved
-            self.factor = correlated_factor(r[np.ix_(involved, involved)])
-        # Uncorrelated normal and rectangular inputs are drawn together, one call each
-        # (JCGM 101 6.4.7, 6.4.3: μ + σz and a + (b − a)u from standard variates).
-        for i, d in enumerate(self.dists):
-            if i not in self.corr_idx and type(d) in (Normal, Rectangular):
-                (self.normal if type(d) is Normal else self.uniform).append(i)
-        self.loc = np.array([[self.dists[i].mean] for i in self.normal])
-        self.centred = not np.any(self.loc)  # every normal input has mean 0: μ + σz is σz, nothing to add
-        self.scale = np.array([[self.dists[i].sd] for i in self.normal])
-        self.low = np.array([[self.dists[i].low] for i in self.uniform])
-        self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
-
-    def draw(self, rng: np.random.Generator, size: int) -> dict[str, np.ndarray]:
-        out: dict[str, np.ndarray] = draw_joint(rng, size, self.names, self.dists, self.joint)
-        if self.factor is not None:
-            z = rng.standard_normal(size=(size, len(self.corr_idx))) @ self.factor.T
-            for col, i in enumerate(self.corr_idx):
-                d = self.dists[i]
-                out[self.names[i]] = d.mean + d.sd * z[:, col]
-        if self.normal:
-            z = rng.standard_normal(size=(len(self.normal), size))
-            z *= self.scale
-            if not self.centred:
-                z += self.loc
-            out.update((self.names[i], row) for i, row in zip(self.normal, z, strict=True))
-        if self.uniform:
-            u = rng.random(size=(len(self.uniform), size))
-            u *= self.width
-            u += self.low
-            out.update((self.names[i], row) for i, row in zip(self.uniform, u, strict=True))
-        for i, nm in enumerate(self.names):
-            if nm not in out:
-                out[nm] = self.dists[i].sample(rng, size)
-        return out
-
-
 def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
     """Mean, u and the probabilistically symmetric interval of one sequence (JCGM 101 7.9.4 b-d).
 
@@ -267,7 +202,7 @@ def monte_carlo(
     if not isinstance(rng, np.random.Generator):
         raise field_error("rng", "a numpy.random.Generator", rng)
     r = correlation_matrix(list(q), correlation)
-    sampler = _Sampler(q, r)
+    sampler = Sampler(q, r)
     j_min = math.ceil(100.0 / (1.0 - p) - 1e-9)
     seed = getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
     chunk = min(MAX_CHUNK, max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q))))
@@ -373,7 +308,7 @@ def monte_carlo_u(
         raise field_error("rng", "a numpy.random.Generator", rng)
     if not isinstance(trials, int | np.integer) or trials < 2:
         raise field_error("trials", "an integer >= 2", trials)
-    sampler = _Sampler(q, correlation_matrix(list(q), correlation))
+    sampler = Sampler(q, correlation_matrix(list(q), correlation))
     chunk = min(MAX_CHUNK, max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q))))
     moments: Moments | None = None
     names: tuple[str, ...] = ()
