@@ -50,8 +50,13 @@ class MonteCarloResult:
     """Monte Carlo result for one output (JCGM 101 7.6–7.8).
 
     ``interval`` is the probabilistically symmetric coverage interval (7.7),
-    ``shortest`` the shortest one (7.8); both are (low, high). ``samples`` holds
+    ``shortest`` the shortest one (7.8); both are (low, high). ``samples`` is
     the sorted output values (the discrete representation G of 7.5).
+
+    The intervals read only the M − q smallest and the M − q largest values, so the engine
+    sorts those tails (``tail_sorted``) and leaves the values between them, ``unsorted``
+    (a slice), in any order; ``samples`` sorts them in place when first read. A run whose
+    report does not need the whole distribution then never pays a full sort.
     """
 
     output: str
@@ -64,8 +69,18 @@ class MonteCarloResult:
     seed: object
     adaptive: bool
     converged: bool
-    samples: np.ndarray = field(repr=False)
+    tail_sorted: np.ndarray = field(repr=False)
     warnings: tuple[str, ...] = ()
+    unsorted: tuple[int, int] = (0, 0)
+
+    @property
+    def samples(self) -> np.ndarray:
+        """All M values, sorted (the middle between the sorted tails is sorted on first read)."""
+        lo, hi = self.unsorted
+        if hi - lo > 1:
+            self.tail_sorted[lo:hi].sort()  # every value there lies between the two tails
+            object.__setattr__(self, "unsorted", (0, 0))
+        return self.tail_sorted
 
 
 @dataclass(frozen=True)
@@ -105,6 +120,10 @@ def _symmetric_ranks(m: int, p: float) -> tuple[int, int]:
 
 def coverage_intervals(sorted_y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[float, float]]:
     """Probabilistically symmetric and shortest coverage intervals of sorted values.
+
+    Only the M − q smallest and the M − q largest values are read, so values sorted in those
+    tails alone (:func:`budget.propagation.streaming.sort_tails` with k = M − q) give the same
+    intervals as a full sort.
 
     Notes
     -----
@@ -256,12 +275,13 @@ def monte_carlo(
     cov = np.atleast_2d(acc.moments.covariance())
     results: dict[str, MonteCarloResult] = {}
     for i, k in enumerate(acc.names):
-        s = acc.sorted_values(k)
+        q, _ = _symmetric_ranks(m, p)
+        s, middle = acc.tail_sorted_values(k, m - q)
         sym, short = coverage_intervals(s, p)
         results[k] = MonteCarloResult(
             output=k, estimate=float(acc.moments.mean[i]), u=math.sqrt(max(float(cov[i, i]), 0.0)),
             interval=sym, shortest=short, trials=m, p=p, seed=seed, adaptive=adaptive,
-            converged=converged, samples=s, warnings=tuple(warns),
+            converged=converged, tail_sorted=s, warnings=tuple(warns), unsorted=middle,
         )
     if acc.names == (SINGLE,):
         return results[SINGLE]

@@ -15,9 +15,27 @@ import numpy as np
 
 from budget.errors import field_error
 
-__all__ = ["Column", "Moments", "Accumulator"]
+__all__ = ["Column", "Moments", "Accumulator", "sort_tails"]
 
 Derived = Mapping[str, Callable[[Mapping[str, np.ndarray]], np.ndarray]]
+
+
+def sort_tails(a: np.ndarray, k: int) -> tuple[int, int]:
+    """Sort in place the k smallest values of ``a`` into a[:k] and the k largest into a[-k:], each in
+    ascending order, every other value between them in any order; returns that middle slice (lo, hi).
+
+    A partition about the two order statistics bounding the middle (introselect, linear time),
+    then two sorts of k values: for the intervals of p = 0.95 (k = M/20) about a fifth of a full
+    sort's time. Where the tails would cover most of the values, the whole array is sorted, (0, 0).
+    """
+    m = a.size
+    if k < 1 or 4 * k >= m:
+        a.sort()
+        return 0, 0
+    a.partition((k - 1, m - k))
+    a[:k].sort()
+    a[m - k:].sort()
+    return k, m - k
 
 
 class Column:
@@ -144,11 +162,11 @@ class Accumulator:
                 self.joint[k].extend(out[k])
         self.moments.add([out[k] for k in self.names])
 
-    def sorted_values(self, name: str) -> np.ndarray:
-        """All values of one output, sorted in place (the column is spent)."""
+    def tail_sorted_values(self, name: str, k: int) -> tuple[np.ndarray, tuple[int, int]]:
+        """All values of one output with its k smallest and k largest sorted in place at either end,
+        and the slice between them left unsorted (:func:`sort_tails`); the column is spent."""
         a = self.values.pop(name).array()
-        a.sort()
-        return a
+        return a, sort_tails(a, k)
 
     def joint_values(self) -> dict[str, np.ndarray]:
         return {k: c.array() for k, c in self.joint.items()}

@@ -1,6 +1,6 @@
 """Streamed Monte Carlo statistics (budget.propagation.streaming) and what monte_carlo keeps:
 chunked means and covariance against numpy's two-pass np.cov, trial-order outputs on request,
-per-trial derived values, growing columns."""
+per-trial derived values, growing columns, tails sorted for the intervals."""
 
 from __future__ import annotations
 
@@ -10,7 +10,8 @@ import pytest
 from budget.errors import BudgetInputError
 from budget.propagation import Normal, Rectangular, monte_carlo, monte_carlo_u
 from budget.propagation import montecarlo as mc_module
-from budget.propagation.streaming import Column, Moments
+from budget.propagation.montecarlo import coverage_intervals
+from budget.propagation.streaming import Column, Moments, sort_tails
 
 
 def _rng(seed: int) -> np.random.Generator:
@@ -102,3 +103,41 @@ def test_monte_carlo_u_is_the_u_of_the_same_run():
     assert only == {k: full[k].u for k in full.names}
     with pytest.raises(BudgetInputError, match="'trials'"):
         monte_carlo_u(_model, INPUTS, 1, rng=_rng(6))
+
+
+@pytest.mark.parametrize(("m", "k"), [(1, 1), (7, 1), (100, 5), (100, 25), (10_001, 500), (10_001, 0)])
+def test_sort_tails_sorts_both_tails_as_a_full_sort_does(m, k):
+    # Against numpy's full sort: the k smallest and k largest values in place, ties and a nan
+    # included (nan sorts last in both), and every value of the middle between the tails.
+    rng = _rng(m + k)
+    y = np.round(rng.normal(size=m), 1)
+    if m > 10:
+        y[3] = np.nan
+    ref = np.sort(y)
+    a = y.copy()
+    lo, hi = sort_tails(a, k)
+    np.testing.assert_array_equal(np.sort(a), ref)  # the same values
+    if hi - lo:
+        np.testing.assert_array_equal(a[:lo], ref[:lo])
+        np.testing.assert_array_equal(a[hi:], ref[hi:])
+        assert lo == k and hi == m - k
+        assert np.all(a[lo:hi] >= a[lo - 1]) and np.all(a[lo:hi] <= a[hi])
+    else:
+        np.testing.assert_array_equal(a, ref)
+
+
+@pytest.mark.parametrize("p", [0.9, 0.95, 0.99])
+def test_intervals_from_sorted_tails_equal_those_of_a_full_sort(p):
+    # JCGM 101 7.7 and 7.8 read only the M - q smallest and largest values: the result's
+    # intervals equal those of numpy's full sort of the same values, and .samples is that sort.
+    rng = _rng(5)
+    res = monte_carlo(lambda a, b: a * b + np.exp(a), {"a": Normal(0.3, 0.5), "b": Rectangular(-1.0, 2.0)},
+                      p=p, trials=50_001, rng=rng)
+    assert res.unsorted != (0, 0)
+    values = res.tail_sorted.copy()
+    full = np.sort(values)
+    sym, short = coverage_intervals(full, p)
+    assert res.interval == sym and res.shortest == short
+    np.testing.assert_array_equal(res.samples, full)
+    assert res.unsorted == (0, 0)
+    np.testing.assert_array_equal(res.samples, full)

@@ -58,7 +58,7 @@ def _mc(low: float, high: float, short: tuple[float, float] | None = None, p: fl
     return MonteCarloResult(
         output="y", estimate=0.5 * (low + high), u=0.05, interval=(low, high),
         shortest=short or (low, high), trials=10**6, p=p, seed=1, adaptive=False,
-        converged=True, samples=np.array([low, high]),
+        converged=True, tail_sorted=np.array([low, high]),
     )
 
 
