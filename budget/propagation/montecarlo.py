@@ -19,7 +19,7 @@ from budget.errors import field_error
 from budget.propagation.lpu import check_p
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantities import as_quantities
-from budget.propagation.sampling import Sampler
+from budget.propagation.sampling import Sampler, additive_sets
 from budget.propagation.streaming import Accumulator, Derived, Moments
 
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "monte_carlo_u",
@@ -221,7 +221,7 @@ def monte_carlo(
     if not isinstance(rng, np.random.Generator):
         raise field_error("rng", "a numpy.random.Generator", rng)
     r = correlation_matrix(list(q), correlation)
-    sampler = Sampler(q, r)
+    sampler = Sampler(q, r, additive_sets(model, q))
     j_min = math.ceil(100.0 / (1.0 - p) - 1e-9)
     seed = getattr(getattr(rng.bit_generator, "seed_seq", None), "entropy", None)
     chunk = min(MAX_CHUNK, max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q))))
@@ -328,7 +328,7 @@ def monte_carlo_u(
         raise field_error("rng", "a numpy.random.Generator", rng)
     if not isinstance(trials, int | np.integer) or trials < 2:
         raise field_error("trials", "an integer >= 2", trials)
-    sampler = Sampler(q, correlation_matrix(list(q), correlation))
+    sampler = Sampler(q, correlation_matrix(list(q), correlation), additive_sets(model, q))
     chunk = min(MAX_CHUNK, max(MIN_CHUNK, CHUNK_VALUES // max(1, len(q))))
     moments: Moments | None = None
     names: tuple[str, ...] = ()

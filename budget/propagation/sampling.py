@@ -4,6 +4,8 @@ uncorrelated input, correlated normal inputs through a factor of their correlati
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from budget.errors import field_error
@@ -11,13 +13,31 @@ from budget.propagation.distributions import Normal, Rectangular
 from budget.propagation.joint import draw_joint, joint_groups
 from budget.propagation.model import correlated_factor
 
-__all__ = ["Sampler"]
+__all__ = ["Sampler", "additive_sets"]
+
+
+def additive_sets(model, q) -> list[dict[str, float]]:
+    """The sets of inputs the model reads only through their sum (``model.additive_inputs(names)``,
+    as for the second-order terms), or none."""
+    groups = getattr(model, "additive_inputs", None)
+    return list(groups(list(q))) if groups is not None else []
 
 
 class Sampler:
-    """Draws chunks of input vectors; correlated inputs through a factor of r."""
+    """Draws chunks of input vectors; correlated inputs through a factor of r.
 
-    def __init__(self, q: dict, r: np.ndarray | None) -> None:
+    ``additive`` (a model's ``additive_inputs(names)``: sets ``{name: c_a}`` of inputs it reads only
+    through their sum Σ c_a·x_a) lets the uncorrelated normal members of a set be drawn as one: the
+    sum of independent normal variables is normal with the sum of their variances (the additive
+    model of JCGM 101:2008 9.2.2, four N(0, 1) inputs giving N(0, 4)), so the set's first such
+    member x_r is drawn from N(μ_r, Σ_a (c_a/c_r)² σ_a²) and the others are held at their means.
+    Σ c_a·x_a, and so every output, then has exactly the distribution it has with each member drawn,
+    from one normal variate per trial where there were several (the 51-point sweep: 415 → 207).
+    The members' own values are no longer each trial's (a held member reads its mean): only a model
+    that truly reads them through their sum may declare them.
+    """
+
+    def __init__(self, q: dict, r: np.ndarray | None, additive: list[dict[str, float]] = ()) -> None:
         self.names = list(q)
         self.dists = [q[n].distribution for n in self.names]
         self.joint = joint_groups(self.dists)  # drawn together (JCGM 102 6.5.3)
@@ -41,9 +61,25 @@ class Sampler:
         for i, d in enumerate(self.dists):
             if i not in self.corr_idx and type(d) in (Normal, Rectangular):
                 (self.normal if type(d) is Normal else self.uniform).append(i)
+        sd = {i: self.dists[i].sd for i in self.normal}
+        self.held: dict[str, float] = {}  # members of a merged set, at their means
+        pos = {nm: i for i, nm in enumerate(self.names)}
+        for group in additive:
+            members = [(pos[nm], float(c)) for nm, c in group.items()
+                       if nm in pos and pos[nm] in sd and c != 0.0 and sd[pos[nm]] > 0.0]
+            if len(members) > 1:
+                (first, c_r), rest = members[0], members[1:]
+                sd[first] = math.sqrt(sum((c / c_r * sd[i]) ** 2 for i, c in members))
+                for i, _ in rest:
+                    del sd[i]
+                    self.held[self.names[i]] = self.dists[i].mean
+        self._views: tuple[int, dict[str, np.ndarray]] = (0, {})
+        self.normal = [i for i in self.normal if i in sd]
+        self.normal_names = [self.names[i] for i in self.normal]
+        self.uniform_names = [self.names[i] for i in self.uniform]
         self.loc = np.array([[self.dists[i].mean] for i in self.normal])
         self.centred = not np.any(self.loc)  # every normal input has mean 0: μ + σz is σz, nothing to add
-        self.scale = np.array([[self.dists[i].sd] for i in self.normal])
+        self.scale = np.array([[sd[i]] for i in self.normal])
         self.low = np.array([[self.dists[i].low] for i in self.uniform])
         self.width = np.array([[self.dists[i].high - self.dists[i].low] for i in self.uniform])
 
@@ -59,13 +95,24 @@ class Sampler:
             z *= self.scale
             if not self.centred:
                 z += self.loc
-            out.update((self.names[i], row) for i, row in zip(self.normal, z, strict=True))
+            out.update(zip(self.normal_names, z, strict=True))
         if self.uniform:
             u = rng.random(size=(len(self.uniform), size))
             u *= self.width
             u += self.low
-            out.update((self.names[i], row) for i, row in zip(self.uniform, u, strict=True))
+            out.update(zip(self.uniform_names, u, strict=True))
+        if self.held:
+            out.update(self._held_views(size))
         for i, nm in enumerate(self.names):
             if nm not in out:
                 out[nm] = self.dists[i].sample(rng, size)
         return out
+
+    def _held_views(self, size: int) -> dict[str, np.ndarray]:
+        """The held members' means as read-only broadcast views of ``size`` trials (a model that wrote
+        into its inputs would fail loudly), made once per chunk size."""
+        if self._views[0] != size:
+            means = np.array(list(self.held.values()))
+            rows = np.broadcast_to(means[:, None], (means.size, size))
+            self._views = (size, dict(zip(self.held, rows, strict=True)))
+        return self._views[1]
