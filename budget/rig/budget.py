@@ -35,6 +35,7 @@ from budget.rig.attribution import exact_pivot_linear, with_pivot_attribution
 from budget.rig.description import RigDescription
 from budget.rig.evaluation import Evaluation
 from budget.rig.model import VirtualRig
+from budget.rig.physics_notes import bias_causes, rig_warnings
 
 __all__ = ["run_budget", "component_mc_u", "GROUP_TRIALS"]
 
@@ -74,9 +75,15 @@ def component_mc_u(model, inputs: dict[str, InputQuantity], corr: dict, members:
     return monte_carlo_u(_fixed_model(model, inputs, members), sub, trials, rng=rng, correlation=sub_corr)
 
 
-def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) -> tuple[ComponentLine, ...]:
+GroupFixed = dict[str, tuple[float | None, str, str]]
+"""Per component: the u of its inputs (None when they differ), their unit and distribution(s)."""
+
+
+def group_fixed(lin) -> GroupFixed:
+    """What a component's line takes from its inputs alone, the same for every output: from the rows of
+    any one output (a sweep's 55 outputs share them; forming them once saves 680 rows per output)."""
     rows = {r.name: r for r in lin.rows}
-    lines = []
+    out: GroupFixed = {}
     for g in lin.groups:
         members = [rows[n] for n in g.inputs]
         first = members[0]
@@ -86,10 +93,20 @@ def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) ->
         dist = kinds[0] if len(kinds) == 1 else " + ".join(kinds)
         if len(members) > 1:
             dist += f" ×{len(members)}"
+        out[g.name] = (first.u if same else None, first.unit if same else "", dist)
+    return out
+
+
+def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str,
+                     fixed: GroupFixed | None = None) -> tuple[ComponentLine, ...]:
+    fixed = fixed or group_fixed(lin)
+    single = {r.name: r.sensitivity for r in lin.rows} if any(len(g.inputs) == 1 for g in lin.groups) else {}
+    lines = []
+    for g in lin.groups:
+        u_input, unit, dist = fixed[g.name]
         lines.append(ComponentLine(
-            name=g.name, evaluation=g.evaluation, distribution=dist,
-            u_input=first.u if same else None, unit=first.unit if same else "",
-            sensitivity=first.sensitivity if len(members) == 1 else None,
+            name=g.name, evaluation=g.evaluation, distribution=dist, u_input=u_input, unit=unit,
+            sensitivity=single[g.inputs[0]] if len(g.inputs) == 1 else None,
             contribution=g.contribution, percent=g.percent, dof=g.dof,
             mc_u=group_mc.get(g.name, {}).get(output), sources=g.sources, inputs=g.inputs,
             description=comp.DESCRIPTIONS.get(g.name, ""),
@@ -98,7 +115,8 @@ def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str) ->
 
 
 def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, group_mc,
-            p: float, symbol: str, method: str = "", bias_causes: tuple[str, ...] = ()) -> OutputBudget:
+            p: float, symbol: str, method: str = "", bias_causes: tuple[str, ...] = (),
+            fixed: GroupFixed | None = None) -> OutputBudget:
     val = validate(lin, mc, n_dig=2)
     # The engine's per-input zero-sensitivity notes list every other point's inputs for each
     # angle; the component-level comparison with Monte Carlo below says what matters.
@@ -106,7 +124,7 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
     if lin2 is not None:  # a negative second-order variance is said, never clamped silently
         warns += [f"{label}: {w}" for w in lin2.warnings if "negative u_c²" in w]
     u2 = lin2.u if lin2 is not None else None
-    lines = _component_lines(lin, group_mc, name)
+    lines = _component_lines(lin, group_mc, name, fixed)
     missed = [c for c in lines if c.mc_u is not None and c.contribution <= 1e-9 * max(lin.u, 1e-300)
               and c.mc_u > 0.05 * mc.u]
     if missed:  # the linear shares are then shares of the wrong total
@@ -236,23 +254,24 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
         groups.setdefault(q.group or name, ())
         groups[q.group or name] += (name,)
     group_mc = {g: component_mc_u(model, inputs, corr, members, rng=rng, p=p) for g, members in groups.items()}
-    causes = _bias_causes(rig)
+    causes = bias_causes(rig)
+    fixed = group_fixed(lin[lin.names[0]])  # every output's component lines share it
     angles = []
     for i in range(len(rig.nominal_angles_deg)):
         name = f"P{i + 1}"
         label = f"angle {name} ({reference[name]:g}°)"
         ob = _budget(name, label, "°", reference[name], lin[name], lin2[name] if lin2 else None,
-                     mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes)
+                     mc[name], group_mc, p, f"θ({name})", rig.pivot.method, causes, fixed)
         if measured_deg is not None:
             ob = replace(ob, reference=checks.reference_check(rig, ob, i))
         angles.append(ob if lin0 is None else with_pivot_attribution(ob, lin0[name], rig.pivot.method))
     gain = summary = None
     if rig.sweep is not None:
         gain = _budget("gain", "gain K", "°/V", reference["gain"], lin["gain"], lin2["gain"] if lin2 else None,
-                       mc["gain"], group_mc, p, "K", rig.pivot.method, causes)
+                       mc["gain"], group_mc, p, "K", rig.pivot.method, causes, fixed)
         intercept = _budget("intercept", "intercept", "°", reference["intercept"], lin["intercept"],
                             lin2["intercept"] if lin2 else None, mc["intercept"], group_mc, p, "θ0",
-                            rig.pivot.method, causes)
+                            rig.pivot.method, causes, fixed)
         if lin0 is not None:
             gain = with_pivot_attribution(gain, lin0["gain"], rig.pivot.method)
             intercept = with_pivot_attribution(intercept, lin0["intercept"], rig.pivot.method)
@@ -268,7 +287,7 @@ def _run_budget(rig: RigDescription, *, rng: np.random.Generator, p: float, tria
                               set_points_v=tuple(rig.sweep.set_points_v), lack_of_fit=lof,
                               measured_deg=tuple(measured_deg) if measured_deg is not None else None)
     notes = locator_model(rig).notes
-    warns = _rig_warnings(rig, notes, evaluated=type_a is not None)
+    warns = rig_warnings(rig, notes, evaluated=type_a is not None)
     if lof is not None and lof.significant:
         warns.insert(0, lof.verdict)
     for ob in angles:
@@ -348,42 +367,4 @@ def _located(rig: RigDescription, measured_deg: tuple[float, ...]) -> dict[str, 
     if rig.sweep is not None:
         slope, intercept = np.polyfit(np.array(rig.sweep.set_points_v), np.array(measured_deg), 1)
         out.update(gain=float(slope), intercept=float(intercept))
-    return out
-
-
-def _bias_causes(rig: RigDescription) -> tuple[str, ...]:
-    """Effects the model carries as known offsets rather than zero-mean errors."""
-    out = []
-    if rig.motion.state == "moving":
-        if rig.motion.timestamp == "start":
-            out.append("start-of-exposure timestamps")
-        if rig.camera.shutter == "rolling":
-            out.append("rolling-shutter row delay")
-    if rig.geometry.tilt_deg:
-        out.append("the measured camera tilt")
-    if rig.source is not None and rig.source.load_resistance_ohm and rig.source.output_impedance_ohm:
-        out.append("the source's output impedance into the load")
-    return tuple(out)
-
-
-def _rig_warnings(rig: RigDescription, locator_notes: tuple[str, ...], evaluated: bool = False) -> list[str]:
-    """What the physics says about this rig, whatever the numbers (``per_reading`` only in design mode)."""
-    out = list(locator_notes)
-    g = rig.geometry
-    if g.tilt_bound_deg is None and g.tilt_deg is None:  # the omission that matters most, also among the notes
-        out.append("No camera tilt is given ([geometry] tilt_bound_deg, or tilt_deg with tilt_u_deg): the budget has "
-                   "no camera-tilt term, often its largest component, and is optimistic by it.")
-    if rig.frames.per_reading > 1 and rig.locator.method in ("integer", "centroid") and not evaluated:
-        what = "pixel quantization" if rig.locator.method == "integer" else "pixel-locking"
-        out.append(
-            f"Averaging {rig.frames.per_reading} frames divides the centroid noise by "
-            f"√{rig.frames.per_reading} but leaves {what} unchanged: a static target keeps its "
-            "sub-pixel phase in every frame."
-        )
-    if rig.motion.state == "moving" and rig.motion.timestamp == "start":
-        b = rig.motion.rate_deg_per_s * 0.5 * rig.camera.exposure_ms * 1e-3
-        out.append(
-            f"Start-of-exposure timestamps: the image shows the mid-exposure angle, a bias of "
-            f"ω·t_e/2 = {b:+.3g}° in every moving reading; stamp the middle of the exposure or correct it."
-        )
     return out
