@@ -30,7 +30,7 @@ CHUNK_VALUES = 1_048_576
 (against 2^18: the sweep template's MC 0.79 → 0.57 s, benchmarks/README.md), arrays of a few MB."""
 MIN_CHUNK = 1000
 """Fewest trials per model call, however many inputs."""
-MAX_CHUNK = 8192
+MAX_CHUNK = 4096
 """Most trials per model call, however few inputs vary: the model's own arrays stay a few MB."""
 MAX_TRIALS = 10_000_000
 """Upper bound of the adaptive procedure; reaching it is reported as a warning."""
