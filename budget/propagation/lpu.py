@@ -1,8 +1,7 @@
 """The law of propagation of uncertainty (JCGM 100:2008 clause 5, annex G).
 
-Sensitivity coefficients come from the model itself by central differences with
-steps scaled to each input's standard uncertainty; every perturbed point goes to
-the model in one vectorized call.
+Sensitivity coefficients come from the model itself by central differences with steps scaled to
+each input's standard uncertainty; every perturbed point goes to the model in one vectorized call.
 """
 
 from __future__ import annotations
@@ -249,6 +248,9 @@ def _ws(u_c: float, cu: np.ndarray, rr: np.ndarray | None, dofs: np.ndarray, joi
         subset: list[int] | None = None) -> float:
     """ν_eff over the inputs ``subset`` (all by default), each joint quantity and each set of correlated
     inputs counted once (:func:`correlated_clusters`, smallest ν of the set)."""
+    sel = slice(None) if subset is None else subset
+    if rr is None and not joint:  # independent inputs: every term on its own (collapse_joint does nothing)
+        return welch_satterthwaite(u_c, np.abs(cu[sel]), dofs[sel])
     idx = list(range(cu.size)) if subset is None else list(subset)
     pos = {i: k for k, i in enumerate(idx)}
     groups = [[pos[i] for i in g if i in pos] for g in correlated_clusters(rr, joint)]
