@@ -30,6 +30,7 @@ vector additions and a point's coordinate is a contiguous slice.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 
@@ -145,30 +146,38 @@ def tilt_vector(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.n
 
 def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
                  reading_deg: np.ndarray | None = None, zero_deg: np.ndarray | None = None,
-                 shift_mm: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+                 shift_mm: Callable[[np.ndarray, np.ndarray], None] | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """Noise-free image coordinates (x right, y down, px) of every located point, each (n_points, T).
 
     ``dial_deg`` are the points' nominal directions (:func:`dial_angles_deg`); ``reading_deg``
     (n_readings, T), if given, replaces the readings (angles travelled from the zero image);
     ``zero_deg`` (T,), if given, is where the pointer rests in the zero image (travelled from its
-    nominal); ``shift_mm`` (dx, dy), each (n_points, T), moves points in the dial plane (x right,
-    y up; the pivot's play). ``kw`` holds the trial values (T,) of the geometric inputs (tilt,
-    target height, mark offset, k1).
+    nominal); ``shift_mm(x, y)``, if given, adds to the points' dial-plane x, y (mm, x right, y up;
+    each (n_points, T)) in place how far each has moved (the pivot's play). ``kw`` holds the trial
+    values (T,) of the geometric inputs (tilt, target height, mark offset, k1).
+
+    Every row is written once: the readings' (and the zero image's) from their angles, the others
+    from the nominal directions.
     """
     g = rig.geometry
     n_read = len(rig.nominal_angles_deg)
     r_mm = g.pointer_radius_mm
     h = kw.get("target_height_mm", np.full(t, g.target_height_mm))
     dial = np.radians(dial_deg)[:, None]
-    x = np.repeat(r_mm * np.cos(dial), t, axis=1)
-    y = np.repeat(r_mm * np.sin(dial), t, axis=1)
+    x = np.empty((dial.shape[0], t))
+    y = np.empty((dial.shape[0], t))
+    fixed = np.ones(dial.shape[0], dtype=bool)  # rows at their nominal direction
     if reading_deg is not None:  # only the readings move from trial to trial
-        x[1:1 + n_read], y[1:1 + n_read] = _reading_dial_xy(rig, reading_deg)
+        _reading_dial_xy(rig, reading_deg, out=(x[1:1 + n_read], y[1:1 + n_read]))
+        fixed[1:1 + n_read] = False
     if zero_deg is not None:  # the pointer's rest in the zero image (its repeatability)
-        x[0], y[0] = _reading_dial_xy(rig, zero_deg)
+        _reading_dial_xy(rig, zero_deg, out=(x[0], y[0]))
+        fixed[0] = False
+    x[fixed] = r_mm * np.cos(dial[fixed])
+    y[fixed] = r_mm * np.sin(dial[fixed])
     if shift_mm is not None:
-        x += shift_mm[0]
-        y += shift_mm[1]
+        shift_mm(x, y)
     z = h  # one height per trial, the same for every target point
     if rig.pivot.method == "mark":  # the mark sits on the dial at the pivot
         x[-1] = kw.get("mark_offset_x_mm", 0.0)
@@ -191,11 +200,22 @@ def reading_image_points(rig: RigDescription, kw: dict, t: int, reading_deg: np.
     return _dial_to_image(rig, kw, t, x, y, h)
 
 
-def _reading_dial_xy(rig: RigDescription, reading_deg: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Dial-plane x, y (mm) of the pointer tip at reading angles ``reading_deg``."""
+def _reading_dial_xy(rig: RigDescription, reading_deg: np.ndarray,
+                     out: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Dial-plane x, y (mm) of the pointer tip at reading angles ``reading_deg`` (into ``out`` if given)."""
     g = rig.geometry
-    moved = np.radians(g.zero_direction_deg + travel_sign(rig) * reading_deg)
-    return g.pointer_radius_mm * np.cos(moved), g.pointer_radius_mm * np.sin(moved)
+    # zero direction ± reading (the travel's sign), in radians
+    moved = np.add(reading_deg, g.zero_direction_deg) if travel_sign(rig) > 0 \
+        else np.subtract(g.zero_direction_deg, reading_deg)
+    np.radians(moved, out=moved)
+    if out is None:
+        out = (np.empty_like(moved), np.empty_like(moved))
+    x, y = out
+    np.cos(moved, out=x)
+    x *= g.pointer_radius_mm
+    np.sin(moved, out=y)
+    y *= g.pointer_radius_mm
+    return x, y
 
 
 def _dial_to_image(rig: RigDescription, kw: dict, t: int, x: np.ndarray, y: np.ndarray, z: np.ndarray

@@ -12,6 +12,8 @@ sampled by Monte Carlo, so the two methods cannot disagree about the model.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 from budget.fit import ols_batch
@@ -219,23 +221,26 @@ class VirtualRig:
 
     def _pointer_deg(self, kw: dict, t: int, true_deg: np.ndarray | None) -> np.ndarray | None:
         """Where the pointer rests for each reading, (n, T) deg from the zero image: the nominal (or the
-        sweep's true angle) plus its repeatability and settling; None when neither is an input."""
+        sweep's true angle, which this adds to in place) plus its repeatability and settling; None when
+        neither is an input."""
         keys = [k for rows in self.pointer_rows.values() for _, k in rows if k in kw]
         if not keys:
             return true_deg
-        out = np.repeat(self.nominal_deg[:, None], t, axis=1) if true_deg is None else true_deg.copy()
+        out = np.repeat(self.nominal_deg[:, None], t, axis=1) if true_deg is None else true_deg
         for rows in self.pointer_rows.values():
             _add_rows(out, kw, rows)
         return out
 
-    def _play_mm(self, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray] | None:
-        """The pivot's play at every located point, (dx, dy) each (n_points, T) mm (dial x right, y up)."""
+    def _play_mm(self, kw: dict) -> Callable[[np.ndarray, np.ndarray], None] | None:
+        """What adds the pivot's play at every located point (dx, dy in mm, dial x right, y up) into the
+        dial-plane points, row by row in place (:func:`budget.rig.geometry.image_points`); None without play."""
         if not any(k in kw for _, k in self.per_point["x", "play"]):
             return None
-        dx, dy = np.zeros((len(self.labels), t)), np.zeros((len(self.labels), t))
-        _add_rows(dx, kw, self.per_point["x", "play"])
-        _add_rows(dy, kw, self.per_point["y", "play"])
-        return dx, dy
+
+        def shift(x: np.ndarray, y: np.ndarray) -> None:
+            _add_rows(x, kw, self.per_point["x", "play"])
+            _add_rows(y, kw, self.per_point["y", "play"])
+        return shift
 
     def _image(self, kw: dict, t: int) -> tuple[np.ndarray | None, np.ndarray, np.ndarray]:
         """The voltages at the pointer (sweep; else None) and the noise-free image points (n, T).
@@ -253,7 +258,7 @@ class VirtualRig:
             volts = self._actual_volts(kw, t) if sweep is not None else None
             true_deg = self._pointer_deg(kw, t, sweep.nominal_gain_deg_per_v * volts if sweep is not None else None)
             img_x, img_y = image_points(self.rig, kw, t, self.dial_deg, reading_deg=true_deg,
-                                        zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw, t))
+                                        zero_deg=kw.get("repeat_deg_Z"), shift_mm=self._play_mm(kw))
             return volts, img_x, img_y
         kw1 = {k: a[:1] for k, a in kw.items()}
         one = self._actual_volts(kw1, 1) if sweep is not None else None
