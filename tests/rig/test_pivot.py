@@ -106,6 +106,44 @@ def test_fixed_steps_converge_geometrically():
     assert err[4] < 1e-12
 
 
+def test_a_row_stops_when_its_step_is_at_the_rounding_floor(monkeypatch):
+    # [derived] A row stops refining after a step that moved it by no more than pivot.CONVERGED
+    # (1e-14 of the points' rms spread). On a well-conditioned arc every row stops after its third
+    # step, and the result is that of twelve fixed steps (which converge:
+    # test_fixed_steps_converge_geometrically) to rounding; on a short noisy arc no row converges
+    # that far within four steps, and the result is that of four steps without the stop, bit for bit.
+    import budget.rig.pivot as pivot
+
+    x, y = _arc(np.random.default_rng(seed=11), 500, 52, np.radians(45.0), 0.01)  # sigma/R 1e-4, as the rigs
+    np.testing.assert_allclose(np.stack(fit_circle(x, y)), np.stack(fit_circle(x, y, iterations=12)),
+                               rtol=0, atol=1e-13 * 100.0)
+    hard = _arc(np.random.default_rng(seed=12), 500, 10, np.radians(20.0), 1.0)
+    early = np.stack(fit_circle(*hard))
+    steps = []
+    orig = np.sqrt
+
+    def counting_sqrt(v, *args, **kw):  # one square root of the (n, m) work array per step
+        if np.ndim(v) == 2:
+            steps.append(v.shape)
+        return orig(v, *args, **kw)
+
+    monkeypatch.setattr(pivot.np, "sqrt", counting_sqrt)
+    fit_circle(x, y)
+    assert len(steps) == 3
+    monkeypatch.setattr(pivot, "CONVERGED", 0.0)
+    np.testing.assert_array_equal(np.stack(fit_circle(*hard)), early)
+
+
+def test_a_rows_fit_does_not_depend_on_the_rows_batched_with_it():
+    # Internal: the early stop is each row's own, so a row fitted alone and fitted beside rows that
+    # need every step (a short noisy arc) gives the same centre and radius, to the last bit.
+    easy = _arc(np.random.default_rng(seed=13), 3, 52, np.radians(45.0), 0.01)
+    hard = _arc(np.random.default_rng(seed=14), 3, 52, np.radians(20.0), 1.0)
+    alone = np.stack(fit_circle(*easy))
+    mixed = np.stack(fit_circle(np.vstack([easy[0], hard[0]]), np.vstack([easy[1], hard[1]])))
+    np.testing.assert_array_equal(mixed[:, :3], alone)
+
+
 def test_central_differences_through_the_fit_give_the_linearization():
     # [derived] Chernov 2010, ch. 7 basis of the covariance: moving point i radially by eps
     # moves (a, b, R) by eps * [(J^T J)^-1 J^T]_(:, i), J_i = [cos phi_i, sin phi_i, 1].  The
