@@ -158,11 +158,13 @@ def numerical_tolerance(u: float, n_dig: int) -> float:
 def _summaries(y: np.ndarray, p: float) -> tuple[float, float, float, float]:
     """Mean, u and the probabilistically symmetric interval of one sequence (JCGM 101 7.9.4 b-d).
 
-    The interval needs two order statistics, so the values are partitioned, not sorted.
+    The interval needs two order statistics, so the values are partitioned in place (``y`` is the
+    caller's own copy), not sorted.
     """
     q, r = _symmetric_ranks(y.size, p)
-    part = np.partition(y, (r - 1, r + q - 1))
-    return float(y.mean()), float(y.std(ddof=1)), float(part[r - 1]), float(part[r + q - 1])
+    mean, sd = float(y.mean()), float(y.std(ddof=1))
+    y.partition((r - 1, r + q - 1))
+    return mean, sd, float(y[r - 1]), float(y[r + q - 1])
 
 
 def monte_carlo(
