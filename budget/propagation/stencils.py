@@ -125,12 +125,14 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
     a = np.array([-1.0, -1.0, 1.0, 1.0])
     b = np.array([-1.0, 1.0, -1.0, 1.0])
     per_call = max(250, PAIR_CHUNK_VALUES // (4 * n))
-    parts: dict[str, list[np.ndarray]] = {}
     costly = getattr(model, "costly_inputs", None)
     where = {int(k): p for p, k in enumerate(idx)}
     apart = frozenset(where[names.index(nm)] for nm in costly(names) if names.index(nm) in where) \
         if costly is not None else frozenset()
     batches = _pair_batches(idx.size, per_call, apart)
+    total = sum(i.size for i, _ in batches)
+    values: dict[str, np.ndarray] = {}  # each output's (P, 2, 2), filled batch by batch
+    start = 0
     for i, j in batches:
         m = i.size
         fi, fj = idx[i], idx[j]  # the inputs moved, by their index among all
@@ -146,10 +148,13 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
         points = {nm: pts[r] if r >= 0 else still[k] for k, (nm, r) in enumerate(zip(names, row.tolist(), strict=True))}
         out = evaluate(model, points, 4 * m)
         for key, v in out.items():
-            parts.setdefault(key, []).append(v.reshape(m, 2, 2))
+            if key not in values:
+                values[key] = np.empty((total, 2, 2))
+            values[key][start:start + m] = v.reshape(m, 2, 2)
+        start += m
     ii = np.concatenate([i for i, _ in batches]) if batches else np.empty(0, dtype=int)
     jj = np.concatenate([j for _, j in batches]) if batches else np.empty(0, dtype=int)
-    return ii, jj, {key: np.concatenate(v) for key, v in parts.items()}
+    return ii, jj, values
 
 
 def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,

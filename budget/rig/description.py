@@ -7,6 +7,7 @@ assumed) that reaches every report. Units are in the field names.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 from budget.imaging import optics
 
@@ -278,7 +279,7 @@ class RigDescription:
         """m = f/(D − f) (thin lens, :func:`budget.imaging.optics.magnification`)."""
         return float(optics.magnification(self.lens.focal_length_mm, self.geometry.working_distance_mm))
 
-    @property
+    @cached_property
     def focal_px(self) -> float:
         """Image distance in pixels: the pinhole constant of the projection."""
         d_i = optics.image_distance_mm(self.lens.focal_length_mm, self.geometry.working_distance_mm)
@@ -290,9 +291,10 @@ class RigDescription:
         return self.geometry.pointer_radius_mm / float(optics.object_pixel_mm(self.camera.pitch_um,
                                                                               self.magnification))
 
-    @property
+    @cached_property
     def nominal_angles_deg(self) -> tuple[float, ...]:
-        """Angles of the readings relative to the zero image."""
+        """Angles of the readings relative to the zero image (formed once: the rig model reads them in
+        every call)."""
         if self.sweep is not None:
             k = self.sweep.nominal_gain_deg_per_v
             return tuple(k * v for v in self.sweep.set_points_v)
