@@ -334,7 +334,7 @@ def linear(
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
     if second_order:
         ii, jj, pair_f = pair_values(model, names, x0, h2, paired) if paired.size > 1 else \
-            (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((0, 2, 2)) for on in out_names})
+            (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((2, 2, 0)) for on in out_names})
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T

@@ -108,7 +108,8 @@ def _pair_batches(n: int, per_call: int, apart: frozenset[int] = frozenset()
 
 def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
                 among: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
-    """Model values at x0 ± h2_i e_i ± h2_j e_j for every pair i < j: (ii, jj, {output: (P, 2, 2)}).
+    """Model values at x0 ± h2_i e_i ± h2_j e_j for every pair i < j: (ii, jj, {output: (2, 2, P)}), indexed
+    [sign of i, sign of j, pair] (each sign − then +), so that each of the four is one contiguous row.
 
     With ``among`` (input indices, increasing), only the pairs of those inputs, ``h2`` then one step
     per input of ``among`` and ``ii``, ``jj`` positions in ``among``; every other input is held.
@@ -131,7 +132,7 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
         if costly is not None else frozenset()
     batches = _pair_batches(idx.size, per_call, apart)
     total = sum(i.size for i, _ in batches)
-    values: dict[str, np.ndarray] = {}  # each output's (P, 2, 2), filled batch by batch
+    values: dict[str, np.ndarray] = {}  # each output's (2, 2, P), filled batch by batch
     start = 0
     for i, j in batches:
         m = i.size
@@ -149,8 +150,8 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
         out = evaluate(model, points, 4 * m)
         for key, v in out.items():
             if key not in values:
-                values[key] = np.empty((total, 2, 2))
-            values[key][start:start + m] = v.reshape(m, 2, 2)
+                values[key] = np.empty((2, 2, total))
+            values[key][:, :, start:start + m] = v.reshape(m, 2, 2).transpose(1, 2, 0)
         start += m
     ii = np.concatenate([i for i, _ in batches]) if batches else np.empty(0, dtype=int)
     jj = np.concatenate([j for _, j in batches]) if batches else np.empty(0, dtype=int)
@@ -162,8 +163,8 @@ def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.nd
     """The double sum of JCGM 100 eq. (14) from central differences with steps h = r·u.
 
     ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
-    ``pairs`` f at x0 ± h_i ± h_j for the pairs i < j (``ii``, ``jj``), shape (P, 2, 2) indexed
-    [sign of i, sign of j], each giving the terms of (i, j) and of (j, i); ``cu`` the
+    ``pairs`` f at x0 ± h_i ± h_j for the pairs i < j (``ii``, ``jj``), shape (2, 2, P) indexed
+    [sign of i, sign of j, pair], each giving the terms of (i, j) and of (j, i); ``cu`` the
     first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
     matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/r²), so no power of a tiny or huge
     u is ever formed on its own and nothing under- or overflows. The terms are summed in
@@ -175,7 +176,7 @@ def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.nd
     total = float(np.sum(0.5 * d2**2 + cu * d3))
     if ii.size:
         n = diag.shape[0]
-        g00, g01, g10, g11 = pairs[:, 0, 0], pairs[:, 0, 1], pairs[:, 1, 0], pairs[:, 1, 1]
+        g00, g01, g10, g11 = pairs[0, 0], pairs[0, 1], pairs[1, 0], pairs[1, 1]
         dij = (g11 - g10 - g01 + g00) / (4.0 * r**2)  # · u_i u_j
         dji = (g11 - g01 - g10 + g00) / (4.0 * r**2)
         # ∂³f/∂x_i∂x_j² · u_i u_j²: second difference in j at x_i ± h_i (middle points from the axis
