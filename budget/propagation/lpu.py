@@ -18,14 +18,13 @@ from budget.propagation.joint import collapse_joint, joint_correlation, joint_gr
 from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
 from budget.propagation.quantiles import t_quantile
 from budget.propagation.quantities import InputQuantity, as_quantities
-from budget.propagation.stencils import axis_points, pair_values, paired_inputs, second_order_terms
+from budget.propagation.second_order import second_order_sums
+from budget.propagation.stencils import axis_points
 
 __all__ = ["Row", "GroupRow", "LinearResult", "MultiLinearResult", "linear", "coverage_factor"]
 
 STEP = 1e-2
 """First derivatives: step h_i = STEP·u(x_i) in a five-point stencil (error O(h⁴))."""
-STEP2 = 5e-2
-"""Second and third derivatives (second-order terms): h_i = STEP2·u(x_i)."""
 NEGLIGIBLE = 1e-9
 """A first-order contribution below NEGLIGIBLE·u_c counts as zero sensitivity."""
 WS_RTOL = 1e-9
@@ -320,11 +319,7 @@ def linear(
     dofs = np.array([q[nm].distribution.dof for nm in names], dtype=float)
     h = STEP * u
     n_in = len(names)
-    if second_order:
-        paired, u_paired = paired_inputs(model, names, u)
-        h2 = STEP2 * u_paired
-    blocks = [x0[None, :], axis_points(x0, h)] + ([axis_points(x0, h2, paired)] if second_order else [])
-    pts = np.vstack(blocks)
+    pts = np.vstack([x0[None, :], axis_points(x0, h)])
     out = evaluate(model, {nm: pts[:, i] for i, nm in enumerate(names)}, len(pts))
     out_names = list(out)
     first = {on: out[on][1:1 + 4 * n_in].reshape(n_in, 4) for on in out_names}
@@ -332,9 +327,8 @@ def linear(
     for k, on in enumerate(out_names):
         fm2, fm1, fp1, fp2 = first[on].T
         jac[k] = (fm2 - 8.0 * fm1 + 8.0 * fp1 - fp2) / (12.0 * h)
-    if second_order:
-        ii, jj, pair_f = pair_values(model, names, x0, h2, paired) if paired.size > 1 else \
-            (np.empty(0, dtype=int), np.empty(0, dtype=int), {on: np.empty((2, 2, 0)) for on in out_names})
+    u2 = second_order_sums(model, names, x0, u, jac, out_names, np.array([out[on][0] for on in out_names])) \
+        if second_order else np.zeros(len(out_names))
     rr = np.eye(n_in) if r is None else r
     cov_x = rr * np.outer(u, u)
     cov_y = jac @ cov_x @ jac.T
@@ -351,10 +345,7 @@ def linear(
         cov_share = None if r is None else np.outer(cu, cu) * rr
         row_share = cu * cu if r is None else cov_share.sum(axis=1)
         u1_2 = float(row_share.sum())
-        u2_2 = 0.0
-        if second_order:
-            diag = out[on][1 + 4 * n_in:].reshape(paired.size, 4)
-            u2_2 = second_order_terms(float(out[on][0]), diag, pair_f[on], ii, jj, c[paired] * u_paired, STEP2)
+        u2_2 = float(u2[k])
         u_c2 = u1_2 + u2_2
         warn: list[str] = []
         if u_c2 < 0:  # eq. (14) is a truncated series; far from linear its sum can be negative

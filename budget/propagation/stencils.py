@@ -8,6 +8,7 @@ call's arrays stay in the processor's cache and only the inputs a tile moves are
 from __future__ import annotations
 
 import math
+from collections.abc import Collection
 
 import numpy as np
 
@@ -35,7 +36,8 @@ def axis_points(x0: np.ndarray, h: np.ndarray, among: np.ndarray | None = None) 
     return pts
 
 
-def paired_inputs(model: Model, names: list[str], u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def paired_inputs(model: Model, names: list[str], u: np.ndarray, more: list[dict[str, float]] = (),
+                  leave_out: Collection[str] = ()) -> tuple[np.ndarray, np.ndarray]:
     """The inputs the second-order terms move (indices, increasing) and the u of each.
 
     An input with u = 0 adds nothing to eq. (14) and is left out. Inputs that a model reads only
@@ -45,20 +47,23 @@ def paired_inputs(model: Model, names: list[str], u: np.ndarray) -> tuple[np.nda
     each other and with every other input, is that of x_r alone carrying
     u² = Σ_a (c_a/c_r)² u²(x_a) (the algebra of JCGM 100 5.1.2 and of eq. 14, term by term).
     The pair stencil then has one input where the group had many (a 51-point sweep: 680 → 319
-    inputs, 4.5 times fewer pairs).
+    inputs, 4.5 times fewer pairs). ``more`` are further such sets, for a sum over pairs that moves
+    none of ``leave_out`` (:mod:`budget.propagation.second_order`); the inputs ``leave_out`` are
+    left out.
     """
     u = u.copy()
     drop = u == 0.0
     groups = getattr(model, "additive_inputs", None)
-    if groups is not None:
-        pos = {nm: i for i, nm in enumerate(names)}
-        for group in groups(names):
-            members = [(pos[nm], float(c)) for nm, c in group.items() if nm in pos and u[pos[nm]] > 0.0 and c != 0.0]
-            if len(members) < 2:
-                continue
-            (r, c_r), rest = members[0], members[1:]
-            u[r] = math.sqrt(sum((c / c_r * u[i]) ** 2 for i, c in members))
-            drop[[i for i, _ in rest]] = True
+    pos = {nm: i for i, nm in enumerate(names)}
+    drop[[pos[nm] for nm in leave_out if nm in pos]] = True
+    sets = [*(groups(names) if groups is not None else ()), *more]
+    for group in sets:  # a later set meets an earlier one's first member carrying the earlier set's u
+        members = [(pos[nm], float(c)) for nm, c in group.items() if nm in pos and not drop[pos[nm]] and c != 0.0]
+        if len(members) < 2:
+            continue
+        (r, c_r), rest = members[0], members[1:]
+        u[r] = math.sqrt(sum((c / c_r * u[i]) ** 2 for i, c in members))
+        drop[[i for i, _ in rest]] = True
     keep = np.flatnonzero(~drop)
     return keep, u[keep]
 
@@ -106,13 +111,22 @@ def _pair_batches(n: int, per_call: int, apart: frozenset[int] = frozenset()
     return batches
 
 
+def _touching_batches(n: int, touch: Collection[int], per_call: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The unordered pairs i < j of n inputs with i or j among ``touch``, in batches of ``per_call``."""
+    pairs = np.array(sorted({(min(t, k), max(t, k)) for t in touch for k in range(n) if k != t}),
+                     dtype=int).reshape(-1, 2)
+    return [(pairs[s:s + per_call, 0], pairs[s:s + per_call, 1]) for s in range(0, len(pairs), per_call)]
+
+
 def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
-                among: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+                among: np.ndarray | None = None, touching: Collection[int] | None = None
+                ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
     """Model values at x0 ± h2_i e_i ± h2_j e_j for every pair i < j: (ii, jj, {output: (2, 2, P)}), indexed
     [sign of i, sign of j, pair] (each sign − then +), so that each of the four is one contiguous row.
 
     With ``among`` (input indices, increasing), only the pairs of those inputs, ``h2`` then one step
-    per input of ``among`` and ``ii``, ``jj`` positions in ``among``; every other input is held.
+    per input of ``among`` and ``ii``, ``jj`` positions in ``among``; every other input is held. With
+    ``touching`` (positions in ``among``), only the pairs with at least one of those.
 
     Each pair is evaluated once (the stencil of (j, i) is that of (i, j) with its two sign
     axes swapped). An input moved in a batch reaches the model as one contiguous array, every
@@ -130,7 +144,8 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
     where = {int(k): p for p, k in enumerate(idx)}
     apart = frozenset(where[names.index(nm)] for nm in costly(names) if names.index(nm) in where) \
         if costly is not None else frozenset()
-    batches = _pair_batches(idx.size, per_call, apart)
+    batches = _pair_batches(idx.size, per_call, apart) if touching is None else \
+        _touching_batches(idx.size, touching, per_call)
     total = sum(i.size for i, _ in batches)
     values: dict[str, np.ndarray] = {}  # each output's (2, 2, P), filled batch by batch
     start = 0
@@ -159,7 +174,7 @@ def pair_values(model: Model, names: list[str], x0: np.ndarray, h2: np.ndarray,
 
 
 def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.ndarray, jj: np.ndarray,
-                       cu: np.ndarray, r: float) -> float:
+                       cu: np.ndarray, r: float, diagonal: np.ndarray | None = None) -> float:
     """The double sum of JCGM 100 eq. (14) from central differences with steps h = r·u.
 
     ``diag`` holds f at x0 − 2h, −h, +h, +2h along each input, shape (n, 4);
@@ -168,12 +183,14 @@ def second_order_terms(f0: float, diag: np.ndarray, pairs: np.ndarray, ii: np.nd
     first-order terms c_i·u(x_i). Every derivative is formed already multiplied by the
     matching powers of u (e.g. ∂²f/∂x_i²·u_i² = Δ²f/r²), so no power of a tiny or huge
     u is ever formed on its own and nothing under- or overflows. The terms are summed in
-    the order of the ordered pairs (i, j), i ≠ j, row by row.
+    the order of the ordered pairs (i, j), i ≠ j, row by row. ``diagonal`` (a mask), if given, keeps
+    only those inputs' own terms (i = j).
     """
     fm2, fm1, fp1, fp2 = diag.T
     d2 = (fp1 - 2.0 * f0 + fm1) / r**2  # ∂²f/∂x_i² · u_i²
     d3 = (fp2 - 2.0 * fp1 + 2.0 * fm1 - fm2) / (2.0 * r**3)  # ∂³f/∂x_i³ · u_i³
-    total = float(np.sum(0.5 * d2**2 + cu * d3))
+    own = 0.5 * d2**2 + cu * d3
+    total = float(np.sum(own if diagonal is None else own[diagonal]))
     if ii.size:
         n = diag.shape[0]
         g00, g01, g10, g11 = pairs[0, 0], pairs[0, 1], pairs[1, 0], pairs[1, 1]
