@@ -3,10 +3,10 @@
 The double sum runs over the inputs the pair stencil moves (:func:`budget.propagation.stencils.
 paired_inputs`: an input with u = 0 left out, each set of inputs the model reads only through their
 sum counted once). A model may also name sets that it reads through a sum only while some other
-inputs are held (``model.additive_apart(names)``: a list of ``({name: c_a}, apart)``, c_a the
-coefficients at the estimates of the ``apart`` inputs): the virtual rig's source errors and pointer
-offsets at one reading, summed in the pointer's angle with a weight that the source's gain and load
-set. The double sum then splits exactly into
+inputs are held (``model.additive_apart(estimates)``, given every input's estimate: a list of
+``({name: c_a}, apart)``, c_a the coefficients at the estimates of the ``apart`` inputs): the
+virtual rig's source errors and pointer offsets at one reading, summed in the pointer's angle with a
+weight that the source's gain and load set. The double sum then splits exactly into
 
 (a) the terms of every pair that moves none of the apart inputs: every derivative in them is taken
     with the apart inputs at their estimates, where each such set is read through its sum, so the
@@ -31,10 +31,11 @@ STEP2 = 5e-2
 """Second and third derivatives (second-order terms): h_i = STEP2·u(x_i)."""
 
 
-def _passes(model: Model, names: list[str], u: np.ndarray) -> list[tuple[np.ndarray, np.ndarray, list[int] | None]]:
+def _passes(model: Model, names: list[str], x0: np.ndarray, u: np.ndarray
+            ) -> list[tuple[np.ndarray, np.ndarray, list[int] | None]]:
     """(inputs moved, their u, positions of the apart inputs among them or None for every pair) per pass."""
     declared = getattr(model, "additive_apart", None)
-    parts = list(declared(names)) if declared is not None else []
+    parts = list(declared(dict(zip(names, x0.tolist(), strict=True)))) if declared is not None else []
     apart = sorted({nm for _, away in parts for nm in away if nm in names})
     sets = [s for s, _ in parts]
     if not apart:  # nothing is held apart: the sets are plain sums
@@ -49,7 +50,7 @@ def second_order_sums(model: Model, names: list[str], x0: np.ndarray, u: np.ndar
     """The double sum of eq. (14) for each output (``jac`` its first derivatives, rows in ``out_names``
     order; ``f0`` its values at x0): one number per output."""
     total = np.zeros(len(out_names))
-    for keep, uk, touch in _passes(model, names, u):
+    for keep, uk, touch in _passes(model, names, x0, u):
         if not keep.size:
             continue
         h2 = STEP2 * uk

@@ -337,6 +337,10 @@ class TrueValueModel:
         """The wrapped rig's, for the same reason."""
         return self.model.additive_inputs(names)
 
+    def additive_apart(self, estimates) -> list[tuple[dict[str, float], tuple[str, ...]]]:
+        """The wrapped rig's, for the same reason."""
+        return self.model.additive_apart(estimates)
+
     def __call__(self, **kw: np.ndarray) -> dict[str, np.ndarray]:
         out = self.model(**kw)
         # the terms calibration and use share are an effect on the line, not a measurand: kept as they are

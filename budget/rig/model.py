@@ -297,6 +297,30 @@ class VirtualRig:
             sets.append([self.pointer_rows[kind][i][1] for kind in ("repeat", "settle")])
         return [{key: 1.0 for key in keys if key in have} for keys in sets]
 
+    def additive_apart(self, estimates: dict[str, float]) -> list[tuple[dict[str, float], tuple[str, ...]]]:
+        """Sets of inputs the rig reads only through their sum while the source's gain and load impedance
+        are held, each ``({name: c_a}, apart)`` with c_a at the ``estimates`` (name: value) of those two.
+
+        At each set point of a sweep whose fit takes the commanded voltages, the source's errors (mV) and the
+        pointer's repeatability and settling (deg) enter only the pointer's angle, θ = K·v + offsets with
+        v = ((V + e·10⁻³)(1 + g·10⁻²) + o·10⁻³)·R_L/(R_L + Z) (:meth:`_actual_volts`): e weighs
+        K·10⁻³(1 + g·10⁻²)·R_L/(R_L + Z) there, the offsets 1. The linear method's second-order terms count
+        each set as one quantity in the pairs that move neither g nor Z
+        (:mod:`budget.propagation.second_order`). With a read-back meter the fit reads the voltages too:
+        no such sets."""
+        sweep, s = self.rig.sweep, self.rig.source
+        if sweep is None or s is None or s.readback != "commanded":
+            return []
+        w = sweep.nominal_gain_deg_per_v * 1e-3 * (1.0 + estimates.get("source_gain_pct", 0.0) * 1e-2)
+        if "source_zout_ohm" in estimates and s.load_resistance_ohm is not None:
+            w *= s.load_resistance_ohm / (s.load_resistance_ohm + estimates["source_zout_ohm"])
+        out = []
+        for i in range(self.n_read):
+            members = {self.per_reading[nm][i][1]: w for nm in ("lsb_mv", "inl_mv", "vnoise_mv")}
+            members.update({self.pointer_rows[kind][i][1]: 1.0 for kind in ("repeat", "settle")})
+            out.append(({k: c for k, c in members.items() if k in estimates}, ("source_gain_pct", "source_zout_ohm")))
+        return out
+
     def _moving_readings(self, kw: dict, t: int) -> list[int] | None:
         """The readings whose source inputs vary across the trials when nothing else that shapes the
         image does; None when something else does (or T = 1: nothing to save).

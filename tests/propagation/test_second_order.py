@@ -196,3 +196,65 @@ def test_inputs_read_through_one_sum_are_paired_once():
     linear(counted, {"a": Normal(1.5, 0.2), "b": Rectangular(0.2, 0.8), "d": Normal(2.0, 0.3)}, second_order=True)
     # 1 + 4·3 first-order points, 4·2 axis points of (s, d), 4 points of the one pair (s, d)
     assert sum(calls) == 1 + 12 + 8 + 4
+
+
+class _Weighted:
+    """y = s²·d + g·s with s = (1 + g)·a + b: a and b are read through s, a's weight set by g."""
+
+    def __init__(self, declare: bool) -> None:
+        if declare:
+            self.additive_apart = lambda est: [({"a": 1.0 + est["g"], "b": 1.0}, ("g",))]
+
+    def __call__(self, a, b, g, d):
+        s = (1.0 + g) * a + b
+        return s**2 * d + g * s
+
+
+def _eq14_weighted_by_hand(x: dict[str, float], u: dict[str, float]) -> float:
+    """The double sum of JCGM 100 eq. (14) for :class:`_Weighted`, its derivatives written out by hand."""
+    a, g, d = x["a"], x["g"], x["d"]
+    s = (1.0 + g) * a + x["b"]
+    first = {"a": (2 * s * d + g) * (1 + g), "b": 2 * s * d + g, "g": 2 * s * d * a + s + g * a, "d": s**2}
+    second = {("a", "a"): 2 * d * (1 + g) ** 2, ("a", "b"): 2 * d * (1 + g), ("b", "b"): 2 * d,
+              ("a", "g"): (2 * d * a + 1) * (1 + g) + 2 * s * d + g, ("b", "g"): 2 * d * a + 1,
+              ("g", "g"): 2 * d * a**2 + 2 * a, ("a", "d"): 2 * s * (1 + g), ("b", "d"): 2 * s,
+              ("d", "g"): 2 * s * a, ("d", "d"): 0.0}
+    third = {("a", "a", "d"): 2 * (1 + g) ** 2, ("a", "b", "d"): 2 * (1 + g), ("b", "b", "d"): 2.0,
+             ("a", "a", "g"): 4 * d * (1 + g), ("a", "b", "g"): 2 * d, ("a", "g", "g"): 4 * d * a + 2,
+             ("a", "d", "g"): 2 * a * (1 + g) + 2 * s, ("b", "d", "g"): 2 * a, ("d", "g", "g"): 2 * a**2}
+
+    def h(i, j):
+        return second[tuple(sorted((i, j)))]
+
+    def t(i, j, k):
+        return third.get(tuple(sorted((i, j, k))), 0.0)
+
+    names = ("a", "b", "g", "d")
+    return sum((0.5 * h(i, j) ** 2 + first[i] * t(i, j, j)) * u[i] ** 2 * u[j] ** 2 for i in names for j in names)
+
+
+def test_inputs_summed_while_others_are_held_count_once_in_the_other_pairs():
+    # A model that reads a and b through s = (1 + g)·a + b may say so for the pairs that hold g
+    # (``additive_apart``): those pairs then move s once, the pairs with g move a and b as they are.
+    # Both ways give the double sum of JCGM 100 eq. (14) with the derivatives written out by hand.
+    inputs = {"a": Normal(1.5, 0.2), "b": Rectangular(0.2, 0.8), "g": Normal(0.1, 0.05), "d": Normal(2.0, 0.3)}
+    x = {k: v.mean for k, v in inputs.items()}
+    u = {k: v.u for k, v in inputs.items()}
+    expected = _eq14_weighted_by_hand(x, u)
+    declared = linear(_Weighted(True), inputs, second_order=True)
+    each = linear(_Weighted(False), inputs, second_order=True)
+    for res in (declared, each):
+        assert np.sign(res.u_second_order) * res.u_second_order**2 == pytest.approx(expected, rel=1e-6)
+    assert declared.u == pytest.approx(each.u, rel=1e-9)
+    calls: list[int] = []
+    model = _Weighted(True)
+
+    def counted(**kw):
+        calls.append(len(next(iter(kw.values()))))
+        return model(**kw)
+
+    counted.additive_apart = model.additive_apart
+    linear(counted, inputs, second_order=True)
+    # 1 + 4·4 first-order points; (s, d) without g: 4·2 axis points and one pair; (a, b, g, d): 4·4 axis
+    # points and the three pairs with g
+    assert sum(calls) == 17 + (8 + 4) + (16 + 3 * 4)

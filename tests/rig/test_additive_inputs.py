@@ -81,3 +81,43 @@ def test_evaluation_mode_keeps_the_declaration():
     wrapped = TrueValueModel(model, located={}, nominal={})
     assert wrapped.additive_inputs(list(inputs)) == model.additive_inputs(list(inputs))
     assert wrapped.costly_inputs(list(inputs)) == model.costly_inputs(list(inputs))
+    x0 = {k: q.distribution.mean for k, q in inputs.items()}
+    assert wrapped.additive_apart(x0) == model.additive_apart(x0) != []
+
+
+@pytest.mark.parametrize("name", ["gain_sweep", "gain_sweep, 21 points", "bench_sweep"])
+def test_sets_held_apart_enter_through_their_weighted_sum(name):
+    # Internal consistency (no outside reference): the rig against its own declaration. With the source's
+    # gain and load at their estimates, moving a source error by d and a pointer offset at the same set point
+    # by -w·d (w the declared weight) changes no output; with the gain moved off its estimate it does (the
+    # reason those two are held apart). An outside check of the algebra is in tests/propagation/
+    # test_second_order.py.
+    rig = RIGS[name]()
+    inputs, _ = comp.build_inputs(rig)
+    model = VirtualRig(rig)
+    x0 = {k: q.distribution.mean for k, q in inputs.items()}
+    declared = model.additive_apart(x0)
+    if rig.source is None or rig.source.readback != "commanded":
+        assert declared == []
+        return
+    assert len(declared) == len(rig.sweep.set_points_v)
+    base = model(**{k: np.full(2, v) for k, v in x0.items()})
+    for members, apart in declared[:: max(1, len(declared) // 4)]:
+        src = [k for k in members if not k.startswith(("repeat", "settle"))]
+        ptr = [k for k in members if k.startswith(("repeat", "settle"))]
+        if not src or not ptr:
+            continue
+        a, b = src[0], ptr[0]
+        d = inputs[a].distribution.u
+        kw = {k: np.full(2, v) for k, v in x0.items()}
+        kw[a] = kw[a] + d
+        kw[b] = kw[b] - members[a] / members[b] * d
+        moved = model(**kw)
+        for out, v in base.items():
+            np.testing.assert_allclose(moved[out], v, rtol=0, atol=1e-10 * max(1.0, abs(v[0])), err_msg=f"{a} {out}")
+        if "source_gain_pct" in apart and "source_gain_pct" in x0:
+            kw["source_gain_pct"] = kw["source_gain_pct"] + 50 * inputs["source_gain_pct"].distribution.u
+            off = dict(kw)
+            off[a], off[b] = x0[a] + np.zeros(2), x0[b] + np.zeros(2)
+            reading = a.rsplit("_", 1)[1]  # the angle of that set point
+            assert not np.allclose(model(**kw)[reading], model(**off)[reading], rtol=0, atol=1e-13)

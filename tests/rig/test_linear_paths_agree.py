@@ -48,6 +48,7 @@ class _Plain:
     def __init__(self, model: VirtualRig) -> None:
         self.model = model
         self.additive_inputs = model.additive_inputs
+        self.additive_apart = model.additive_apart
 
     def __call__(self, **kw):
         return self.model(**{k: np.array(v, dtype=float) for k, v in kw.items()})
