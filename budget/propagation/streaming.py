@@ -1,7 +1,8 @@
 """What a Monte Carlo run keeps while its chunks stream past (JCGM 101:2008 7.5-7.8).
 
 The intervals need every value of an output (its order statistics), so each output is kept
-once, in one array that is sorted in place at the end; outputs asked for in trial order (to
+once, in one array whose two tails are sorted in place at the end (the middle when a report
+first reads every value); outputs asked for in trial order (to
 propagate them further, e.g. a gain and intercept pair) are kept a second time unsorted.
 Means, variances and the output covariance are accumulated chunk by chunk, so no matrix of
 every output of every trial is ever formed.

@@ -141,8 +141,8 @@ def fit_circle(
         Point coordinates; axis ``axis`` holds the n >= 3 points of one track, the other axes
         are trials.  Any length unit (pixels, mm); the result is in the same unit.
     iterations : int, optional
-        Number of Gauss-Newton steps of the orthogonal-distance refinement (default 4;
-        0 returns the Taubin fit).
+        Most Gauss-Newton steps of the orthogonal-distance refinement (default 4; fewer for a
+        row that has converged; 0 returns the Taubin fit).
     axis : int, optional
         The axis of the points: -1 (default) or 0.  The fit works with the points on the
         first axis, each point's values contiguous, so that every sum over the points is a
@@ -171,14 +171,14 @@ def fit_circle(
     leading-order covariance.  The start is exact for noise-free points, including n = 3.
 
     Refinement: Gauss-Newton on d_i = |p_i - c| - R with J_i = -[cos phi_i, sin phi_i, 1]
-    (Chernov 2010, ch. 4), a fixed number of steps with no branch per row, so the result is a
-    smooth function of the data and central differences through it are well defined.  A row
-    stops early once a step moved it by no more than 1e-14 of the points' rms spread
-    (:data:`CONVERGED`): the steps left would move it by about as little again (Gauss-Newton
-    converges linearly, each step a fraction of the last), at the rounding floor of the fit
-    itself (about 1e-15 here); the decision is the row's own, so its result does not depend
-    on the other rows of the call.  On the templates' rigs the third step is at that floor,
-    so the fourth is skipped.
+    (Chernov 2010, ch. 4), at most ``iterations`` steps.  A row stops early once a step moved
+    it by no more than 1e-14 of the points' rms spread (:data:`CONVERGED`): the steps left
+    would move it by about as little again (Gauss-Newton converges linearly, each step a
+    fraction of the last), at the rounding floor of the fit itself (about 1e-15 here), so the
+    result is a smooth function of the data to that floor and central differences through it
+    are well defined; the decision is the row's own, so its result does not depend on the
+    other rows of the call.  On the templates' rigs the third step is at that floor, so the
+    fourth is skipped.
     Taubin and geometric estimates differ by O(sigma^2), and Gauss-Newton converges
     linearly with a rate set by the residual size relative to the arc's conditioning.
     Measured (n = 10, 2*10^4 rows, distance to a 30-step solution relative to R, 99th
