@@ -244,7 +244,7 @@ def monte_carlo(
             progress(int(trials))
         converged, adaptive = True, False
     else:
-        acc = Accumulator(None, joint, derived)
+        acc = Accumulator(None, joint, derived, blocks=True)  # each sequence's values kept as its own block
         seq = max(j_min, 10_000)
         stats: dict[str, list[tuple[float, float, float, float]]] = {}
         converged, adaptive, h = False, True, 0
@@ -263,7 +263,9 @@ def monte_carlo(
                     parts.setdefault(k, []).append(v)
                 done += n
             for k, v in parts.items():
-                stats.setdefault(k, []).append(_summaries(np.concatenate(v), p))
+                y = np.concatenate(v)
+                stats.setdefault(k, []).append(_summaries(y, p))
+                acc.add_block(k, y)
             h += 1
             converged = h >= 2 and all(_stable(np.array(st), n_dig) for st in stats.values())
             if progress:

@@ -16,7 +16,7 @@ import numpy as np
 
 from budget.errors import field_error
 
-__all__ = ["Column", "Moments", "Accumulator", "sort_tails"]
+__all__ = ["Column", "Blocks", "Moments", "Accumulator", "sort_tails"]
 
 Derived = Mapping[str, Callable[[Mapping[str, np.ndarray]], np.ndarray]]
 
@@ -64,6 +64,34 @@ class Column:
             self._a.resize(self.n, refcheck=False)
         a, self._a = self._a, np.empty(0)
         return a
+
+
+class Blocks:
+    """One float64 value per trial, kept as the caller's own arrays (blocks) and joined once, at the end.
+
+    For the adaptive procedure, whose length is not known ahead: each sequence's values are already
+    one array of their own (its summaries are taken from it), so keeping that array costs no copy
+    and no growing column; the join frees each block as it is copied.
+    """
+
+    def __init__(self) -> None:
+        self._blocks: list[np.ndarray] = []
+        self.n = 0
+
+    def append(self, block: np.ndarray) -> None:
+        self._blocks.append(block)
+        self.n += block.shape[0]
+
+    def array(self) -> np.ndarray:
+        """The values of every block, in block order; the blocks are spent."""
+        out = np.empty(self.n)
+        pos = 0
+        self._blocks.reverse()
+        while self._blocks:
+            b = self._blocks.pop()
+            out[pos:pos + b.shape[0]] = b
+            pos += b.shape[0]
+        return out
 
 
 _BLAS_SERIAL = 262_143
@@ -127,22 +155,26 @@ class Accumulator:
     """Everything a Monte Carlo result needs, from chunks of model outputs.
 
     ``joint`` names the outputs also kept in trial order (True: all); ``derived`` maps names
-    to functions of a chunk's outputs giving one more value per trial, kept in trial order.
+    to functions of a chunk's outputs giving one more value per trial, kept in trial order. With
+    ``blocks`` the outputs' values are not taken from the chunks: the caller hands them over in
+    blocks of its own (:meth:`add_block`, any order within a block).
     """
 
-    def __init__(self, size: int | None, joint: bool | Collection[str], derived: Derived | None) -> None:
+    def __init__(self, size: int | None, joint: bool | Collection[str], derived: Derived | None,
+                 blocks: bool = False) -> None:
         self.size = size
+        self.blocks = blocks
         self.joint_spec = joint
         self.derived = dict(derived or {})
         self.names: tuple[str, ...] = ()
-        self.values: dict[str, Column] = {}
+        self.values: dict[str, Column | Blocks] = {}
         self.joint: dict[str, Column] = {}
         self.moments: Moments | None = None
 
     def add(self, out: Mapping[str, np.ndarray]) -> None:
         if self.moments is None:
             self.names = tuple(out)
-            self.values = {k: Column(self.size) for k in self.names}
+            self.values = {k: Blocks() if self.blocks else Column(self.size) for k in self.names}
             spec = self.joint_spec
             keep = self.names if spec is True else tuple(spec or ())
             unknown = [k for k in keep if k not in self.names]
@@ -154,14 +186,19 @@ class Accumulator:
                                   clash[0])
             self.joint = {k: Column(self.size) for k in (*keep, *self.derived)}
             self.moments = Moments(len(self.names))
-        for k in self.names:
-            self.values[k].extend(out[k])
+        if not self.blocks:
+            for k in self.names:
+                self.values[k].extend(out[k])
         for k, fn in self.derived.items():
             self.joint[k].extend(np.asarray(fn(out), dtype=float))
         for k in self.joint:
             if k not in self.derived:
                 self.joint[k].extend(out[k])
         self.moments.add([out[k] for k in self.names])
+
+    def add_block(self, name: str, values: np.ndarray) -> None:
+        """Keep ``values`` (the caller's own array, not copied) as values of output ``name``."""
+        self.values[name].append(values)
 
     def tail_sorted_values(self, name: str, k: int) -> tuple[np.ndarray, tuple[int, int]]:
         """All values of one output with its k smallest and k largest sorted in place at either end,
