@@ -14,7 +14,7 @@ weight that the source's gain and load set. The double sum then splits exactly i
 (b) the terms of every pair that moves an apart input, and the apart inputs' own terms, with the sets
     as the inputs they are.
 
-On the 51-point sweep (319 paired inputs, two apart) that is 35 245 + 633 pairs where there were
+On the 51-point sweep (319 paired inputs, two apart) that is 35 245 + 635 pairs where there were
 50 721.
 """
 
