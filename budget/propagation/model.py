@@ -16,7 +16,8 @@ import numpy as np
 
 from budget.errors import BudgetInputError, field_error
 
-__all__ = ["evaluate", "correlation_matrix", "correlation_from_covariance", "SINGLE", "NonFiniteOutput"]
+__all__ = ["evaluate", "correlation_matrix", "correlation_from_covariance", "SINGLE", "NonFiniteOutput",
+           "additive_sets", "merge_summed"]
 
 
 class NonFiniteOutput(BudgetInputError):
@@ -155,3 +156,34 @@ def correlated_factor(r: np.ndarray) -> np.ndarray:
     except np.linalg.LinAlgError:
         w, v = np.linalg.eigh(r)
         return v * np.sqrt(np.clip(w, 0.0, None))
+
+
+def additive_sets(model, names) -> list[dict[str, float]]:
+    """The sets of inputs the model reads only through their sum Σ c_a·x_a (``model.additive_inputs(names)``:
+    a list of ``{name: c_a}``), or none."""
+    groups = getattr(model, "additive_inputs", None)
+    return list(groups(list(names))) if groups is not None else []
+
+
+def merge_summed(names: list[str], spread: dict[int, float], sets) -> list[int]:
+    """Each set of inputs read only through Σ c_a·x_a as one quantity: its first member x_r, among the
+    inputs ``spread`` lists (index: u or σ, updated in place), carries √(Σ_a (c_a/c_r)² u_a²) and the
+    others leave ``spread``; returns those others, set by set.
+
+    Independent contributions to one sum add in variance (JCGM 100 5.1.2; and for normal inputs the
+    sum is normal, JCGM 101 9.2.2). A set meeting an earlier set's first member sees it with the earlier
+    set's u, so sets that share members merge as one.
+    """
+    pos = {nm: i for i, nm in enumerate(names)}
+    away: list[int] = []
+    for group in sets:
+        members = [(pos[nm], float(c)) for nm, c in group.items()
+                   if nm in pos and pos[nm] in spread and c != 0.0 and spread[pos[nm]] > 0.0]
+        if len(members) < 2:
+            continue
+        (first, c_r), rest = members[0], members[1:]
+        spread[first] = math.sqrt(sum((c / c_r * spread[i]) ** 2 for i, c in members))
+        for i, _ in rest:
+            del spread[i]
+            away.append(i)
+    return away

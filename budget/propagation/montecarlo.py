@@ -17,9 +17,16 @@ import numpy as np
 
 from budget.errors import field_error
 from budget.propagation.lpu import check_p
-from budget.propagation.model import SINGLE, Model, correlation_from_covariance, correlation_matrix, evaluate
+from budget.propagation.model import (
+    SINGLE,
+    Model,
+    additive_sets,
+    correlation_from_covariance,
+    correlation_matrix,
+    evaluate,
+)
 from budget.propagation.quantities import as_quantities
-from budget.propagation.sampling import Sampler, additive_sets
+from budget.propagation.sampling import Sampler
 from budget.propagation.streaming import Accumulator, Derived, Moments
 
 __all__ = ["MonteCarloResult", "MultiMonteCarloResult", "monte_carlo", "monte_carlo_u",

@@ -4,23 +4,14 @@ uncorrelated input, correlated normal inputs through a factor of their correlati
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 from budget.errors import field_error
 from budget.propagation.distributions import Normal, Rectangular
 from budget.propagation.joint import draw_joint, joint_groups
-from budget.propagation.model import correlated_factor
+from budget.propagation.model import correlated_factor, merge_summed
 
-__all__ = ["Sampler", "additive_sets"]
-
-
-def additive_sets(model, q) -> list[dict[str, float]]:
-    """The sets of inputs the model reads only through their sum (``model.additive_inputs(names)``,
-    as for the second-order terms), or none."""
-    groups = getattr(model, "additive_inputs", None)
-    return list(groups(list(q))) if groups is not None else []
+__all__ = ["Sampler"]
 
 
 class Sampler:
@@ -62,17 +53,7 @@ class Sampler:
             if i not in self.corr_idx and type(d) in (Normal, Rectangular):
                 (self.normal if type(d) is Normal else self.uniform).append(i)
         sd = {i: self.dists[i].sd for i in self.normal}
-        self.held: dict[str, float] = {}  # members of a merged set, at their means
-        pos = {nm: i for i, nm in enumerate(self.names)}
-        for group in additive:
-            members = [(pos[nm], float(c)) for nm, c in group.items()
-                       if nm in pos and pos[nm] in sd and c != 0.0 and sd[pos[nm]] > 0.0]
-            if len(members) > 1:
-                (first, c_r), rest = members[0], members[1:]
-                sd[first] = math.sqrt(sum((c / c_r * sd[i]) ** 2 for i, c in members))
-                for i, _ in rest:
-                    del sd[i]
-                    self.held[self.names[i]] = self.dists[i].mean
+        self.held = {self.names[i]: self.dists[i].mean for i in merge_summed(self.names, sd, additive)}
         self._views: tuple[int, dict[str, np.ndarray]] = (0, {})
         self.normal = [i for i in self.normal if i in sd]
         self.normal_names = [self.names[i] for i in self.normal]

@@ -12,7 +12,7 @@ from collections.abc import Collection
 
 import numpy as np
 
-from budget.propagation.model import Model, evaluate
+from budget.propagation.model import Model, additive_sets, evaluate, merge_summed
 
 __all__ = ["axis_points", "pair_values", "paired_inputs", "second_order_terms", "PAIR_CHUNK_VALUES"]
 
@@ -51,21 +51,11 @@ def paired_inputs(model: Model, names: list[str], u: np.ndarray, more: list[dict
     none of ``leave_out`` (:mod:`budget.propagation.second_order`); the inputs ``leave_out`` are
     left out.
     """
-    u = u.copy()
-    drop = u == 0.0
-    groups = getattr(model, "additive_inputs", None)
-    pos = {nm: i for i, nm in enumerate(names)}
-    drop[[pos[nm] for nm in leave_out if nm in pos]] = True
-    sets = [*(groups(names) if groups is not None else ()), *more]
-    for group in sets:  # a later set meets an earlier one's first member carrying the earlier set's u
-        members = [(pos[nm], float(c)) for nm, c in group.items() if nm in pos and not drop[pos[nm]] and c != 0.0]
-        if len(members) < 2:
-            continue
-        (r, c_r), rest = members[0], members[1:]
-        u[r] = math.sqrt(sum((c / c_r * u[i]) ** 2 for i, c in members))
-        drop[[i for i, _ in rest]] = True
-    keep = np.flatnonzero(~drop)
-    return keep, u[keep]
+    gone = set(leave_out)
+    spread = {i: float(x) for i, (nm, x) in enumerate(zip(names, u, strict=True)) if x > 0.0 and nm not in gone}
+    merge_summed(names, spread, [*additive_sets(model, names), *more])
+    keep = np.array(sorted(spread), dtype=int)
+    return keep, np.array([spread[i] for i in keep], dtype=float)
 
 
 def _pair_batches(n: int, per_call: int, apart: frozenset[int] = frozenset()

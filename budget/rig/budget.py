@@ -98,8 +98,7 @@ def group_fixed(lin) -> GroupFixed:
 
 
 def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str,
-                     fixed: GroupFixed | None = None) -> tuple[ComponentLine, ...]:
-    fixed = fixed or group_fixed(lin)
+                     fixed: GroupFixed) -> tuple[ComponentLine, ...]:
     single = {r.name: r.sensitivity for r in lin.rows} if any(len(g.inputs) == 1 for g in lin.groups) else {}
     lines = []
     for g in lin.groups:
@@ -115,8 +114,7 @@ def _component_lines(lin, group_mc: dict[str, dict[str, float]], output: str,
 
 
 def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, group_mc,
-            p: float, symbol: str, method: str = "", bias_causes: tuple[str, ...] = (),
-            fixed: GroupFixed | None = None) -> OutputBudget:
+            p: float, symbol: str, method: str, causes: tuple[str, ...], fixed: GroupFixed) -> OutputBudget:
     val = validate(lin, mc, n_dig=2)
     # The engine's per-input zero-sensitivity notes list every other point's inputs for each
     # angle; the component-level comparison with Monte Carlo below says what matters.
@@ -145,10 +143,10 @@ def _budget(name: str, label: str, unit: str, nominal: float, lin, lin2, mc, gro
                      + (f": {why}." if why else "."))
     bias = mc.estimate - nominal
     if abs(bias) > 3 * mc.u / math.sqrt(mc.trials) and abs(bias) > 0.05 * mc.u:
-        causes = f" ({', '.join(bias_causes)})" if bias_causes else ""
+        which = f" ({', '.join(causes)})" if causes else ""
         warns.append(
             f"{label}: the estimate differs from {nominal:g} {unit} (the nominal, or in evaluation mode the "
-            f"measured value) by {bias:+.2g} {unit}: systematic effects{causes} that the model carries as "
+            f"measured value) by {bias:+.2g} {unit}: systematic effects{which} that the model carries as "
             "offsets; correct them at the source or report them."
         )
     lin_stmt = statement(symbol, lin.estimate, lin.U, lin.k, p, unit) if lin.U > 0 else \
