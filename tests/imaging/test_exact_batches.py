@@ -30,6 +30,8 @@ def _cameras(n: int, seed: int) -> dict:
 
 @pytest.mark.parametrize("method", ["centroid", "fit"])
 def test_many_candidates_in_one_call_equal_each_alone(method, monkeypatch):
+    # Internal consistency: a batch against each candidate alone (no outside reference; the model itself is
+    # checked against rendered images in tests/imaging/test_locator_rendered.py).
     kw = _cameras(90, 3)
     pixel_model._EXACT_MEMO.clear()
     monkeypatch.setattr(pixel_model, "_CHUNK_VALUES", 1 << 14)  # several chunks per window size
@@ -45,6 +47,7 @@ def test_many_candidates_in_one_call_equal_each_alone(method, monkeypatch):
 
 
 def test_memo_tells_candidates_apart():
+    # Internal consistency: a memoised figure against the same figure computed afresh.
     kw = _cameras(80, 5)
     pixel_model._EXACT_MEMO.clear()
     first = pixel_model.locator_terms("centroid", **kw)
@@ -57,7 +60,9 @@ def test_memo_tells_candidates_apart():
 
 
 def test_adu_moments_over_an_image_equal_each_pixel_alone():
-    # per-candidate camera figures broadcast against (C, P, P, J, J) pixels, as the locator model calls it
+    # Internal consistency: per-candidate camera figures broadcast against (C, P, P, J, J) pixels, as the
+    # locator model calls it, against each pixel alone. The outside check of one pixel's moments (the
+    # rounded normal's probability mass by scipy.special.ndtr) is tests/imaging/test_rounding.py.
     rng = np.random.default_rng(11)
     c = 6
     col = (slice(None), None, None, None, None)
