@@ -36,10 +36,11 @@ import numpy as np
 
 from budget.rig.description import RigDescription
 from budget.rig.pivot import fit_circle
+from budget.rig.trig import cos_sin_deg, screen_angles_near_deg
 
 __all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "reading_image_points",
            "principal_point",
-           "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg", "nearest_branch_deg",
+           "travel_sign", "nominal_image_points", "estimate_pivot", "reading_angles_deg",
            "screen_angles_deg", "true_pivot_image"]
 
 
@@ -164,18 +165,21 @@ def image_points(rig: RigDescription, kw: dict, t: int, dial_deg: np.ndarray,
     n_read = len(rig.nominal_angles_deg)
     r_mm = g.pointer_radius_mm
     h = kw.get("target_height_mm", np.full(t, g.target_height_mm))
-    dial = np.radians(dial_deg)[:, None]
-    x = np.empty((dial.shape[0], t))
-    y = np.empty((dial.shape[0], t))
-    fixed = np.ones(dial.shape[0], dtype=bool)  # rows at their nominal direction
+    n = len(dial_deg)
+    x = np.empty((n, t))
+    y = np.empty((n, t))
+    fixed = np.ones(n, dtype=bool)  # rows at their nominal direction
     if reading_deg is not None:  # only the readings move from trial to trial
         _reading_dial_xy(rig, reading_deg, out=(x[1:1 + n_read], y[1:1 + n_read]))
         fixed[1:1 + n_read] = False
     if zero_deg is not None:  # the pointer's rest in the zero image (its repeatability)
         _reading_dial_xy(rig, zero_deg, out=(x[0], y[0]))
         fixed[0] = False
-    x[fixed] = r_mm * np.cos(dial[fixed])
-    y[fixed] = r_mm * np.sin(dial[fixed])
+    if fixed.any():  # by the readings' arithmetic, so that a row is the same value either way
+        fx, fy = np.empty(fixed.sum()), np.empty(fixed.sum())
+        cos_sin_deg(np.asarray(dial_deg, dtype=float)[fixed], (fx, fy), scale=r_mm)
+        x[fixed] = fx[:, None]
+        y[fixed] = fy[:, None]
     if shift_mm is not None:
         shift_mm(x, y)
     z = h  # one height per trial, the same for every target point
@@ -207,15 +211,10 @@ def _reading_dial_xy(rig: RigDescription, reading_deg: np.ndarray,
     # zero direction ± reading (the travel's sign), in radians
     moved = np.add(reading_deg, g.zero_direction_deg) if travel_sign(rig) > 0 \
         else np.subtract(g.zero_direction_deg, reading_deg)
-    np.radians(moved, out=moved)
     if out is None:
         out = (np.empty_like(moved), np.empty_like(moved))
-    x, y = out
-    np.cos(moved, out=x)
-    x *= g.pointer_radius_mm
-    np.sin(moved, out=y)
-    y *= g.pointer_radius_mm
-    return x, y
+    cos_sin_deg(moved, out, scale=g.pointer_radius_mm)
+    return out
 
 
 def _dial_to_image(rig: RigDescription, kw: dict, t: int, x: np.ndarray, y: np.ndarray, z: np.ndarray
@@ -250,18 +249,6 @@ def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) ->
     return xc, yc
 
 
-def nearest_branch_deg(angle_deg: np.ndarray, nominal_deg: np.ndarray) -> np.ndarray:
-    """An angle from atan2, in (−180°, 180°], moved by whole turns to the branch nearest its nominal.
-
-    The offset from the nominal loses no digits when no turn is added (the usual case): it is
-    not shifted by 180° and back.
-    """
-    d = angle_deg - nominal_deg
-    if not np.abs(d).max(initial=0.0) <= 180.0:  # a turn to remove somewhere (else every turn is 0)
-        d -= 360.0 * np.round(d / 360.0)
-    return nominal_deg + d
-
-
 def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
     """Angle from the vector (x0, y0) to (x, y), both in image coordinates, counterclockwise on screen.
 
@@ -291,13 +278,17 @@ def reading_angles_deg(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray
     """The readings' angles about the estimated pivot relative to the zero image, (n, T) deg.
 
     Rows of ``img_x``, ``img_y`` (n_points, T; image coordinates) follow :func:`point_labels`. The angle
-    travelled from the zero image in the rig's ``travel`` direction (:func:`screen_angles_deg`
+    travelled from the zero image in the rig's ``travel`` direction (the screen angle of
+    :func:`screen_angles_deg`, taken by :func:`budget.rig.trig.screen_angles_near_deg` near the nominal,
     times :func:`travel_sign`), on the branch nearest the nominal reading. ``pivot`` (each (T,)), if given,
     replaces the pivot the rig's method finds (:func:`true_pivot_image` for an exact pivot).
     """
     xc, yc = estimate_pivot(rig, img_x, img_y) if pivot is None else pivot
     n_read = len(rig.nominal_angles_deg)
     x0, y0 = img_x[0] - xc, img_y[0] - yc
-    xs, ys = img_x[1:1 + n_read] - xc, img_y[1:1 + n_read] - yc
-    angle = travel_sign(rig) * screen_angles_deg(x0, y0, xs, ys)
-    return nearest_branch_deg(angle, np.array(rig.nominal_angles_deg)[:, None])
+    sign = travel_sign(rig)
+    angle = screen_angles_near_deg(x0, y0, img_x[1:1 + n_read], img_y[1:1 + n_read], (xc, yc),
+                                   sign * np.array(rig.nominal_angles_deg))
+    if sign < 0:
+        np.negative(angle, out=angle)
+    return angle
