@@ -47,7 +47,7 @@ def with_pivot_attribution(ob: OutputBudget, lin_exact, method: str) -> OutputBu
     if share < SHOWN_SHARE:
         return out
     moved = sorted(((c.contribution**2 - (c.u_exact_pivot or 0.0) ** 2, c) for c in comps), key=lambda x: -x[0])
-    through = ", ".join(f"{c.name} {c.contribution:.2g} (exact pivot {c.u_exact_pivot:.2g})"
+    through = ", ".join(f"{c.name} {c.contribution:.2g} (exact pivot {_at_digits_of(c.u_exact_pivot or 0.0, u)})"
                         for d, c in moved[:3] if d > 0.05 * (u**2 - u0**2))
     how = {"readings": "a circle through the zero image and the readings",
            "arc": "a circle through the pivot-arc points"}.get(method, "a circle")
@@ -60,3 +60,11 @@ def with_pivot_attribution(ob: OutputBudget, lin_exact, method: str) -> OutputBu
              + f". The budget lists these effects under their causes; {lever} would remove most of "
              f"{math.sqrt(max(u**2 - u0**2, 0.0)):.2g} {ob.unit} of it.")
     return replace(out, warnings=(*out.warnings, words))
+
+
+def _at_digits_of(value: float, u: float) -> str:
+    """``value`` to two significant digits, or 0 where it is zero at the decimals of u's two digits (a
+    contribution at the linear method's rounding floor, about 1e-13 of u, is not printed as 6.1e-14)."""
+    if value == 0.0 or abs(value) < 0.5 * 10.0 ** (math.floor(math.log10(u)) - 1):
+        return "0"
+    return f"{value:.2g}"

@@ -74,3 +74,14 @@ def test_a_pivot_mark_has_no_fit_to_attribute():
     res = run_budget(rig, rng=np.random.default_rng(np.random.SeedSequence(1)), trials=2000)
     assert all(ob.u_exact_pivot is None for ob in res.angles)
     assert not any("comes through the fit" in w for ob in res.angles for w in ob.warnings)
+
+
+def test_a_contribution_at_the_rounding_floor_prints_as_zero():
+    """With an exact pivot a tilt moves a gain only at second order, and the linear method's central
+    differences leave about 1e-13 of u there: the words print it as 0 at u's digits, not as 6.1e-14."""
+    from budget.rig.attribution import _at_digits_of
+    assert _at_digits_of(6.1e-14, 0.0088) == "0"
+    assert _at_digits_of(0.0, 0.0088) == "0"
+    assert _at_digits_of(4.9e-5, 0.0088) == "0"  # below the last of u's two digits (0.0001 / 2)
+    assert _at_digits_of(5.1e-5, 0.0088) == "5.1e-05"
+    assert _at_digits_of(0.0019, 0.0088) == "0.0019"
