@@ -58,6 +58,7 @@ def _fixed_model(model, inputs: dict[str, InputQuantity], keep: tuple[str, ...])
         full.update(kw)
         return model(**full)
 
+    wrapped.max_chunk = getattr(model, "max_chunk", None)  # the model's own limit on trials per call
     return wrapped
 
 
@@ -326,6 +327,11 @@ class TrueValueModel:
     @property
     def shared(self) -> bool:
         return self.model.shared
+
+    @property
+    def max_chunk(self) -> int | None:
+        """The wrapped rig's limit on trials per call."""
+        return getattr(self.model, "max_chunk", None)
 
     def costly_inputs(self, names) -> list[str]:
         """The wrapped rig's: the true value is the located one moved by a constant."""

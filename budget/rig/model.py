@@ -64,6 +64,11 @@ class VirtualRig:
     (see :mod:`budget.rig.geometry`).
     """
 
+    max_chunk = 4096
+    """Most trials per call for the Monte Carlo (:func:`budget.propagation.montecarlo.chunk_trials`): the
+    (points, trials) arrays of a 52-point sweep stay in the cache (its nine one-component runs 1.36 →
+    1.03–1.06 s against 8192, benchmarks/README.md)."""
+
     def __init__(self, rig: RigDescription, type_a: dict | None = None, exact_pivot: bool = False) -> None:
         self.rig = rig
         self.exact_pivot = exact_pivot  # the angles about the true pivot, not the one the rig's method finds

@@ -203,6 +203,32 @@ def test_chunking_gives_exactly_m_values(monkeypatch):
     assert mc.trials == 2500 and mc.samples.size == 2500
 
 
+def test_a_model_may_ask_for_fewer_trials_per_call():
+    # Two inputs: CHUNK_VALUES // 2 is above MAX_CHUNK, so a call gets MAX_CHUNK trials, or the model's max_chunk.
+    class Capped:
+        max_chunk = 700
+
+        def __init__(self) -> None:
+            self.sizes: list[int] = []
+
+        def __call__(self, a, b):
+            self.sizes.append(a.size)
+            return a - b
+
+    inputs = {"a": Normal(0.0, 1.0), "b": Normal(0.0, 1.0)}
+    capped = Capped()
+    monte_carlo(capped, inputs, trials=2000, rng=_rng())
+    assert capped.sizes == [700, 700, 600]
+    sizes = []
+
+    def plain(a, b):
+        sizes.append(a.size)
+        return a - b
+
+    monte_carlo(plain, inputs, trials=mc_module.MAX_CHUNK + 5, rng=_rng())
+    assert sizes == [mc_module.MAX_CHUNK, 5]
+
+
 def test_seed_entropy_is_recorded():
     mc = monte_carlo(lambda a: a, {"a": Normal(0.0, 1.0)}, trials=2000, rng=_rng(1234))
     assert mc.seed == 1234

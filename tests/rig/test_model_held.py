@@ -85,3 +85,17 @@ def test_only_readings_whose_source_inputs_move_are_projected_per_trial():
     _, held, _ = _calls(rig, set())
     held["someone_elses_input"] = np.zeros(T)  # not known to enter after the image: never held
     assert model._moving_readings(held, T) is None
+
+
+def test_the_rig_and_its_wrappers_limit_the_trials_per_call():
+    """The virtual rig's (points, trials) arrays stay in the cache at 4096 trials a call; the evaluation-mode
+    wrapper and the one-component Monte Carlo's held model pass its limit on to the engine."""
+    from budget.propagation.montecarlo import chunk_trials
+    from budget.rig.budget import TrueValueModel, _fixed_model
+    rig = load_rig(TEMPLATES / "gain_sweep.toml")
+    model = VirtualRig(rig)
+    inputs, _ = comp.build_inputs(rig)
+    assert chunk_trials(model, 2) == 4096
+    assert chunk_trials(TrueValueModel(model, located={}, nominal={}), 2) == 4096
+    assert chunk_trials(_fixed_model(model, inputs, ("tilt_x_deg",)), 1) == 4096
+    assert chunk_trials(lambda a: a, 2) > 4096
