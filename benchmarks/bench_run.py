@@ -18,6 +18,9 @@ Run by hand (never as a timed test)::
    ``run_budget`` in CPU seconds against the same floor measured in process; aim: 51 points
    under 5 s. With ``--lean`` also the same sweeps without the pointer, fixed-pattern and
    camera-mount components (added after the aim was set: 366 inputs at 51 points, not 680).
+
+In process the script fixes glibc's malloc thresholds as the command does (``budget/heap.py``), unless
+``--default-heap``; the floor measured in process runs under the same setting.
 """
 
 from __future__ import annotations
@@ -39,6 +42,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
+from budget.heap import keep_heap  # noqa: E402
 from budget.inputs.rig_file import load_rig, parse_rig  # noqa: E402
 from budget.propagation import Normal, linear, monte_carlo  # noqa: E402
 from budget.rig import components as comp  # noqa: E402
@@ -186,8 +190,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--skip-phases", action="store_true")
     ap.add_argument("--lean", action="store_true", help="--points also without the components added after the aims")
     ap.add_argument("--profile", action="store_true", help="cProfile one whole run_budget (CPU time)")
+    ap.add_argument("--default-heap", action="store_true",
+                    help="in process, leave glibc's malloc thresholds as they are (the command sets them)")
     args = ap.parse_args(argv)
-    print(f"Python {platform.python_version()}, numpy {np.__version__}, {platform.machine()}")
+    kept = False if args.default_heap else keep_heap()
+    print(f"Python {platform.python_version()}, numpy {np.__version__}, {platform.machine()}; "
+          f"in-process heap thresholds {'kept as the command keeps them' if kept else 'glibc defaults'}")
     whole_command(args.file, args.repeat)
     if not args.skip_phases:
         phases(args.file, max(1, args.repeat // 2), args.seed)

@@ -22,6 +22,7 @@ from pathlib import Path
 from budget import __version__
 from budget.commands.new import KINDS
 from budget.errors import BudgetComputationError, BudgetInputError, BudgetWarning
+from budget.heap import keep_heap
 
 __all__ = ["main", "build_parser", "MAX_TRIALS", "MAX_RENDERS", "MAX_FRAMES"]
 
@@ -238,6 +239,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def _execute(module, args: argparse.Namespace) -> int:
+    keep_heap()  # the model's large temporaries reuse the heap instead of faulting in fresh pages (budget/heap.py)
     try:
         with _signals_raise(), _library_warnings_kept():
             return int(module.execute(args))

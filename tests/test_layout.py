@@ -23,9 +23,11 @@ ALLOWED = {
     "results": {"errors", "propagation", "dataframes"},
     "dataframes": set(),
     "resources": {"errors"},
-    "imaging": {"errors", "propagation", "rig.description"},
+    "scratch": set(),
+    "heap": set(),
+    "imaging": {"errors", "propagation", "rig.description", "scratch"},
     "inputs": {"errors", "rig.description", "imaging.locator_model"},
-    "rig": {"budget", "errors", "propagation", "fit", "imaging", "results"},
+    "rig": {"budget", "errors", "propagation", "fit", "imaging", "results", "scratch"},
     "choice": {"errors", "propagation", "imaging", "rig", "inputs.choose_file"},
     "advice": {"errors", "propagation", "fit", "imaging", "rig", "choice", "results", "inputs"},
     "report": {"budget", "errors", "results", "dataframes", "propagation", "choice", "advice"},
@@ -33,7 +35,7 @@ ALLOWED = {
     "reference_cases": {"budget", "errors", "propagation", "fit", "resources", "reference_models"},
     "commands": {"*"},
     "api": {"*"},
-    "cli": {"budget", "errors", "commands"},
+    "cli": {"budget", "errors", "commands", "heap"},
     "__main__": {"cli"},
     "budget": {"api", "results"},  # only inside its PEP 562 __getattr__, on first use (see LAZY)
 }

@@ -9,19 +9,20 @@ A pixel reads R = round(X) clipped to [0, top], X normal (x, s²) in counts. Whe
   least :data:`SERIES_FROM` counts and both clips lie :data:`CLIP_REACH` sd or more from x: three
   terms, some thirty array passes per pixel against five to nine evaluations of Φ.
 
-The work arrays are kept between calls (:func:`scratch`): fresh arrays of some 10^4–10^5 values are
-mapped from the system on each allocation, and their page faults cost more than the arithmetic on them
-(``choose`` over 10^4 options: 3.6·10^5 faults, about a second, without them); each thread has its own.
+The work arrays are kept between calls (:func:`budget.scratch.scratch`, re-exported here): fresh arrays of
+some 10^4–10^5 values are mapped from the system on each allocation, and their page faults cost more than
+the arithmetic on them (``choose`` over 10^4 options: 3.6·10^5 faults, about a second, without them); each
+thread has its own.
 """
 
 from __future__ import annotations
 
 import math
-import threading
 
 import numpy as np
 
 from budget.imaging.special import phi_coarse_into
+from budget.scratch import scratch
 
 __all__ = ["CLIP_REACH", "SERIES_FROM", "SERIES_TERMS", "SUM_REACH", "dither_series", "exact_moments",
            "exact_moments_into", "moments_at", "scratch", "split", "threshold_sums"]
@@ -35,24 +36,6 @@ CLIP_REACH = 7.0
 SUM_REACH = 6.5
 """The threshold sums take the thresholds within this many sd of x (Φ(−6.5) = 4e-11); those below are passed,
 those above not, for certain (the former bands of 1–4 counts left out thresholds from 5.3 sd on)."""
-
-_WORK = threading.local()
-"""Each thread's work arrays, by name."""
-_WORK_MAX = 1 << 16
-"""Largest work array kept (512 kB; the locator model's chunks of pixel values): larger calls allocate afresh."""
-
-
-def scratch(name: str, n: int, dtype=float) -> np.ndarray:
-    """A work array of n values kept between calls under ``name`` in this thread (grown when too small, up to
-    ``_WORK_MAX``); its contents are undefined."""
-    if n > _WORK_MAX:
-        return np.empty(n, dtype=dtype)
-    work = _WORK.__dict__
-    buf = work.get(name)
-    if buf is None or buf.size < n or buf.dtype != dtype:
-        buf = np.empty(max(n, 1 << 12), dtype=dtype)
-        work[name] = buf
-    return buf[:n]
 
 
 def dither_series(x: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -26,12 +26,14 @@ import math
 
 import numpy as np
 
+from budget.scratch import scratch
+
 __all__ = ["cos_sin_deg", "screen_angles_near_deg"]
 
 _NODES_PER_DEG = 4
 _LIMIT_DEG = 720  # the table covers ±2 turns; an angle beyond (or nan) is left to np.cos / np.sin
 _OFFSET = _NODES_PER_DEG * _LIMIT_DEG
-_BLOCK = 8192  # values a block: a dozen work arrays of this size stay in a core's cache
+_BLOCK = 8192  # values a block: its dozen work arrays (budget.scratch, kept between calls) stay in the cache
 _ATAN_LIMIT = 1.0 / 32.0
 
 
@@ -78,29 +80,32 @@ def cos_sin_deg(angle_deg: np.ndarray, out: tuple[np.ndarray, np.ndarray], scale
 
 
 def _cos_sin_block(a: np.ndarray, xo: np.ndarray, yo: np.ndarray, scale: float) -> None:
-    k = np.multiply(a, float(_NODES_PER_DEG))
+    n = a.size
+    k, d, d2, sd, cm, cb, sb = (scratch(f"trig{i}", n) for i in range(7))
+    idx = scratch("trig_idx", n, np.intp)
+    np.multiply(a, float(_NODES_PER_DEG), out=k)
     np.rint(k, out=k)
     beyond = None
     if not (-_OFFSET <= k.min(initial=0.0) and k.max(initial=0.0) <= _OFFSET):  # beyond the table, or nan
         beyond = np.flatnonzero(~(np.abs(k) <= _OFFSET))
         k[beyond] = 0.0
-    d = np.multiply(k, 1.0 / _NODES_PER_DEG)
+    np.multiply(k, 1.0 / _NODES_PER_DEG, out=d)
     np.subtract(a, d, out=d)  # δ in degrees: exact (a and its node are within a factor 2, or δ = a)
     d *= _RAD
-    idx = k.astype(np.intp)
+    np.copyto(idx, k, casting="unsafe")
     idx += _OFFSET
-    cb = _COS.take(idx)
-    sb = _SIN.take(idx)
+    _COS.take(idx, out=cb)
+    _SIN.take(idx, out=sb)
     if scale != 1.0:
         cb *= scale
         sb *= scale
-    d2 = np.multiply(d, d)
-    sd = np.multiply(d2, 1.0 / 120.0)  # sin δ = δ + δ·δ²(−1/6 + δ²/120)
+    np.multiply(d, d, out=d2)
+    np.multiply(d2, 1.0 / 120.0, out=sd)  # sin δ = δ + δ·δ²(−1/6 + δ²/120)
     sd -= 1.0 / 6.0
     sd *= d2
     sd *= d
     sd += d
-    cm = np.multiply(d2, -1.0 / 24.0)  # 1 − cos δ = δ²(1/2 − δ²/24)
+    np.multiply(d2, -1.0 / 24.0, out=cm)  # 1 − cos δ = δ²(1/2 − δ²/24)
     cm += 0.5
     cm *= d2
     # cos(b + δ) = cos b − (cos b·(1 − cos δ) + sin b·sin δ); sin(b + δ) = sin b − (sin b·(1 − cos δ) − cos b·sin δ)
@@ -137,22 +142,25 @@ def screen_angles_near_deg(x0: np.ndarray, y0: np.ndarray, x: np.ndarray, y: np.
     cos_sin_deg(near, (cos_phi, sin_phi))  # the reference turned to radians exactly, as the readings are
     for i in range(0, out.shape[0], step):
         rows = slice(i, i + step)
-        xs = np.subtract(x[rows], origin[0])
-        ys = np.subtract(y[rows], origin[1])
+        shape = out[rows].shape
+        xs, ys = (scratch(name, math.prod(shape)).reshape(shape) for name in ("angle0", "angle1"))
+        np.subtract(x[rows], origin[0], out=xs)
+        np.subtract(y[rows], origin[1], out=ys)
         _angle_block(x0, y0, xs, ys, cos_phi[rows], sin_phi[rows], near[rows, None], out[rows])
     return out
 
 
 def _angle_block(x0, y0, x, y, cos_phi, sin_phi, near, out) -> None:
     """One block of :func:`screen_angles_near_deg` (``x``, ``y`` already about the origin)."""
-    c = np.multiply(y0, x)  # the cross product y0·x − x0·y
-    w = np.multiply(x0, y)
+    c, w, d, t = (scratch(f"angle{i}", x.size).reshape(x.shape) for i in range(2, 6))
+    np.multiply(y0, x, out=c)  # the cross product y0·x − x0·y
+    np.multiply(x0, y, out=w)
     c -= w
-    d = np.multiply(x0, x)  # the dot product
+    np.multiply(x0, x, out=d)  # the dot product
     np.multiply(y0, y, out=w)
     d += w
     # rotated back by φ: c′ = c cos φ − d sin φ, d′ = d cos φ + c sin φ; then t = c′/d′
-    t = np.multiply(c, cos_phi)
+    np.multiply(c, cos_phi, out=t)
     np.multiply(d, sin_phi, out=w)
     t -= w
     np.multiply(c, sin_phi, out=w)
@@ -175,9 +183,10 @@ def _angle_block(x0, y0, x, y, cos_phi, sin_phi, near, out) -> None:
     out += near
     # beyond the series' reach, behind the reference (d′ ≤ 0), or not finite: np.arctan2 itself
     np.abs(t, out=t)
-    far = ~(t <= _ATAN_LIMIT)
-    far |= ~(d > 0.0)
-    if far.any():
+    near_enough = np.less_equal(t, _ATAN_LIMIT, out=scratch("angle_ok", t.size, bool).reshape(t.shape))
+    near_enough &= np.greater(d, 0.0, out=scratch("angle_ok2", t.size, bool).reshape(t.shape))
+    if not near_enough.all():
+        far = ~near_enough
         rows, cols = np.nonzero(far)
         a0, b0 = x0[cols], y0[cols]
         xf, yf = x[rows, cols], y[rows, cols]
