@@ -208,7 +208,7 @@ def _reading_dial_xy(rig: RigDescription, reading_deg: np.ndarray,
                      out: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Dial-plane x, y (mm) of the pointer tip at reading angles ``reading_deg`` (into ``out`` if given)."""
     g = rig.geometry
-    # zero direction ± reading (the travel's sign), in radians
+    # zero direction ± reading (the travel's sign), in degrees
     moved = np.add(reading_deg, g.zero_direction_deg) if travel_sign(rig) > 0 \
         else np.subtract(g.zero_direction_deg, reading_deg)
     if out is None:

@@ -65,9 +65,9 @@ class VirtualRig:
     """
 
     max_chunk = 4096
-    """Most trials per call for the Monte Carlo (:func:`budget.propagation.montecarlo.chunk_trials`): the
-    (points, trials) arrays of a 52-point sweep stay in the cache (its nine one-component runs 1.36 →
-    1.03–1.06 s against 8192, benchmarks/README.md)."""
+    """Most trials per call for the Monte Carlo (:func:`budget.propagation.montecarlo.chunk_trials`), so that
+    the (points, trials) arrays of a 52-point sweep stay small (in process its nine one-component runs took
+    1.03–1.06 s against 1.36 s at 8192; alternating rounds did not show it again: benchmarks/README.md)."""
 
     def __init__(self, rig: RigDescription, type_a: dict | None = None, exact_pivot: bool = False) -> None:
         self.rig = rig
