@@ -32,6 +32,12 @@ def run(rig, *, seed: int | None = None, trials: int | None = None, p: float | N
     Returns
     -------
     RunResult
+
+    Notes
+    -----
+    The command line also fixes glibc's malloc thresholds for its process (:func:`budget.heap.keep_heap`),
+    which spares a long sweep's Monte Carlo many page faults; a program may call it once itself. It is
+    not called here, because it changes how the whole process returns memory.
     """
     from budget.advice.range_claim import claim_for_range
     from budget.advice.targets import run_p, with_verdicts
