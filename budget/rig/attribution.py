@@ -14,6 +14,7 @@ import math
 from dataclasses import replace
 
 from budget.propagation import linear
+from budget.propagation.rounding import round_pair
 from budget.results import OutputBudget
 
 __all__ = ["exact_pivot_linear", "with_pivot_attribution", "SHOWN_SHARE"]
@@ -63,8 +64,9 @@ def with_pivot_attribution(ob: OutputBudget, lin_exact, method: str) -> OutputBu
 
 
 def _at_digits_of(value: float, u: float) -> str:
-    """``value`` to two significant digits, or 0 where it is zero at the decimals of u's two digits (a
-    contribution at the linear method's rounding floor, about 1e-13 of u, is not printed as 6.1e-14)."""
-    if value == 0.0 or abs(value) < 0.5 * 10.0 ** (math.floor(math.log10(u)) - 1):
+    """``value`` to two significant digits, or 0 where it is zero at the decimals of u's two digits (JCGM 100
+    7.2.6, :func:`budget.propagation.rounding.round_pair`): a contribution at the linear method's rounding
+    floor, about 1e-13 of u, is not printed as 6.1e-14."""
+    if value == 0.0 or float(round_pair(value, u)[0]) == 0.0:
         return "0"
     return f"{value:.2g}"

@@ -36,7 +36,7 @@ import numpy as np
 
 from budget.rig.description import RigDescription
 from budget.rig.pivot import fit_circle
-from budget.rig.trig import cos_sin_deg, screen_angles_near_deg
+from budget.rig.trig import cos_sin_deg, screen_angles_deg, screen_angles_near_deg
 
 __all__ = ["rotate_tilt", "project", "dial_angles_deg", "tilt_vector", "image_points", "reading_image_points",
            "principal_point",
@@ -247,18 +247,6 @@ def estimate_pivot(rig: RigDescription, img_x: np.ndarray, img_y: np.ndarray) ->
     rows = slice(1 + n_read, None) if method == "arc" else slice(0, 1 + n_read)
     xc, yc, _ = fit_circle(img_x[rows], img_y[rows], axis=0)
     return xc, yc
-
-
-def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
-    """Angle from the vector (x0, y0) to (x, y), both in image coordinates, counterclockwise on screen.
-
-    Notes
-    -----
-    atan2(r0 × r, r0 · r) with the cross product taken in a y-up frame: with y down it is
-    y0·x − x0·y. atan2, never the law of cosines, whose derivative is infinite at zero
-    deflection. Result in (−180°, 180°].
-    """
-    return np.degrees(np.arctan2(y0 * x - x0 * y, x0 * x + y0 * y))
 
 
 def true_pivot_image(rig: RigDescription, kw: dict, t: int) -> tuple[np.ndarray, np.ndarray]:

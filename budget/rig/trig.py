@@ -28,7 +28,7 @@ import numpy as np
 
 from budget.scratch import scratch
 
-__all__ = ["cos_sin_deg", "screen_angles_near_deg"]
+__all__ = ["cos_sin_deg", "screen_angles_deg", "screen_angles_near_deg"]
 
 _NODES_PER_DEG = 4
 _LIMIT_DEG = 720  # the table covers ±2 turns; an angle beyond (or nan) is left to np.cos / np.sin
@@ -40,16 +40,14 @@ _ATAN_LIMIT = 1.0 / 32.0
 def _table() -> tuple[np.ndarray, np.ndarray]:
     """cos and sin at every node k/4° (|k/4| ≤ 720), each reduced to within 45° of a multiple of 90°
     first, so that the quarter turns are exact (cos 90° = 0, not 6·10⁻¹⁷)."""
-    cos, sin = [], []
-    for k in range(-_OFFSET, _OFFSET + 1):
-        deg = k / _NODES_PER_DEG
-        q = round(deg / 90.0)
-        r = math.radians(deg - 90.0 * q)  # deg − 90q is exact
-        c, s = math.cos(r), math.sin(r)
-        c, s = ((c, s), (-s, c), (-c, -s), (s, -c))[q % 4]
-        cos.append(c)
-        sin.append(s)
-    return np.array(cos), np.array(sin)
+    deg = np.arange(-_OFFSET, _OFFSET + 1) / _NODES_PER_DEG
+    q = np.round(deg / 90.0)
+    r = np.radians(deg - 90.0 * q)  # deg − 90q is exact
+    c, s = np.cos(r), np.sin(r)
+    turn = q.astype(int) % 4  # cos(r + 90°q), sin(r + 90°q): (c, s), (−s, c), (−c, −s), (s, −c)
+    cos = np.choose(turn, (c, -s, -c, s))
+    sin = np.choose(turn, (s, c, -s, -c))
+    return cos, sin
 
 
 _COS, _SIN = _table()
@@ -123,6 +121,19 @@ def _cos_sin_block(a: np.ndarray, xo: np.ndarray, yo: np.ndarray, scale: float) 
         yo[beyond] = np.sin(r) * scale
 
 
+def screen_angles_deg(x0, y0, x, y) -> np.ndarray:
+    """Angle from the vector (x0, y0) to (x, y), both in image coordinates, counterclockwise on screen.
+
+    Notes
+    -----
+    atan2(r0 × r, r0 · r) with the cross product taken in a y-up frame: with y down it is
+    y0·x − x0·y. atan2, never the law of cosines, whose derivative is infinite at zero
+    deflection. Result in (−180°, 180°]. The definition; :func:`screen_angles_near_deg` is the fast
+    form the rig takes, and falls back on this one.
+    """
+    return np.degrees(np.arctan2(y0 * x - x0 * y, x0 * x + y0 * y))
+
+
 def screen_angles_near_deg(x0: np.ndarray, y0: np.ndarray, x: np.ndarray, y: np.ndarray,
                            origin: tuple[np.ndarray, np.ndarray], near_deg: np.ndarray) -> np.ndarray:
     """The angle from the vector (x0, y0) to each (x, y) − ``origin``, in degrees counterclockwise on the
@@ -190,6 +201,6 @@ def _angle_block(x0, y0, x, y, cos_phi, sin_phi, near, out) -> None:
         rows, cols = np.nonzero(far)
         a0, b0 = x0[cols], y0[cols]
         xf, yf = x[rows, cols], y[rows, cols]
-        dev = np.degrees(np.arctan2(b0 * xf - a0 * yf, a0 * xf + b0 * yf)) - near[rows, 0]
+        dev = screen_angles_deg(a0, b0, xf, yf) - near[rows, 0]
         dev -= 360.0 * np.round(dev / 360.0)
         out[rows, cols] = near[rows, 0] + dev

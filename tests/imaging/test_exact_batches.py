@@ -5,8 +5,9 @@ figures of a candidate already computed in the process taken from a memo. None o
 figure: each candidate alone (one rig, no memo) is the reference, to 1e-10 relative or 1e-16 px²
 (floating-point summation order only; a bias of 1e-5 px squared keeps few digits).
 
-Not a reference check: the expected value is the same model on one candidate (internal
-consistency of the batching). The model itself is checked against rendered images, an outside
+Not a reference check: in every test below the expected value is the same model computed another way
+(one candidate alone, afresh instead of from the memo, by the threshold sums instead of the series):
+internal consistency, said beside each check. The model itself is checked against rendered images, an outside
 simulation, in tests/imaging/test_locator_rendered.py.
 """
 
@@ -88,7 +89,9 @@ def test_dither_series_leaves_the_locator_figures(phi, rel, monkeypatch):
     # it at 3e-6 relative (measured); tolerance 2e-5. Internal consistency: the expected value is the same
     # model by the sums alone. The outside checks of each route (scipy.special.ndtr's rounded-normal
     # probability mass) are in tests/imaging/test_rounding.py; the scipy Φ here only removes A&S 7.1.26's
-    # own error from the comparison.
+    # own error from the comparison. Sources of what is compared: the series is the quantization theory of
+    # Widrow & Kollár, Quantization Noise (Cambridge UP 2008), chs. 4–5, cited from memory; A&S 7.1.26 is
+    # Abramowitz & Stegun, Handbook of Mathematical Functions (1964), eq. 7.1.26.
     from scipy.special import ndtr
 
     from budget.imaging import rounding

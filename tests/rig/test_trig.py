@@ -3,8 +3,10 @@
 References: numpy's ``cos``, ``sin`` and ``arctan2`` evaluated in x86 extended precision (``np.longdouble``,
 64-bit significand, errors near 1e-19), rounded to double, stand for the true values; in double precision
 ``np.cos(np.radians(a))`` itself is off by up to about 1e-15 near ±720° (the rounding of the angle in
-radians), so the faster functions are held to the extended-precision values, not to it. The series' error
-bounds (the first omitted Taylor terms) are in the module's notes.
+radians), so the faster functions are held to the extended-precision values, not to it. The series are
+those of Abramowitz & Stegun, Handbook of Mathematical Functions (1964), 4.3.65–4.3.66 (sin, cos) and
+4.4.42 (arctan) (clause numbers cited from memory); their error bounds, the first omitted terms, are in the
+module's notes. Each check says beside it which of these it rests on, or that it is internal consistency.
 """
 
 from __future__ import annotations
@@ -12,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from budget.rig.trig import cos_sin_deg, screen_angles_near_deg
+from budget.rig.trig import cos_sin_deg, screen_angles_deg, screen_angles_near_deg
 
 EXTENDED = np.finfo(np.longdouble).precision >= 18
 needs_extended = pytest.mark.skipif(not EXTENDED, reason="np.longdouble is not wider than double here")
@@ -32,6 +34,7 @@ def _angles() -> np.ndarray:
 
 @needs_extended
 def test_cos_sin_agree_with_extended_precision_to_the_last_digits():
+    # Reference: numpy's cos and sin in x86 extended precision (np.longdouble), rounded to double.
     a = _angles()
     x, y = np.empty_like(a), np.empty_like(a)
     cos_sin_deg(a, (x, y))
@@ -46,6 +49,8 @@ def test_cos_sin_agree_with_extended_precision_to_the_last_digits():
 
 
 def test_quarter_turns_are_exact_and_scale_multiplies():
+    # Reference: the exact values of cos and sin at multiples of 90° (their definition); the scale, internal
+    # consistency (the same values times 40 to the last digit).
     a = np.array([0.0, 90.0, 180.0, 270.0, -90.0, 360.0, 720.0, -720.0])
     x, y = np.empty_like(a), np.empty_like(a)
     cos_sin_deg(a, (x, y))
@@ -61,6 +66,8 @@ def test_quarter_turns_are_exact_and_scale_multiplies():
 
 
 def test_beyond_the_table_or_not_finite_falls_back_to_numpy():
+    # Reference: numpy's np.cos and np.sin themselves, bit for bit, for the values the table does not cover;
+    # the others, internal consistency (the same values computed alone).
     a = np.array([[1000.0, 3.0], [np.nan, -5000.5], [7.0, 9.0]])
     x, y = np.empty_like(a), np.empty_like(a)
     cos_sin_deg(a, (x, y), scale=2.0)
@@ -75,6 +82,7 @@ def test_beyond_the_table_or_not_finite_falls_back_to_numpy():
 
 
 def test_a_value_does_not_depend_on_what_it_is_computed_with():
+    # Internal consistency: the same angles in other batches and layouts, bit for bit.
     rng = np.random.default_rng(7)
     a = rng.uniform(-400.0, 400.0, (37, 3001))
     x, y = np.empty_like(a), np.empty_like(a)
@@ -117,6 +125,8 @@ def _nearest(a: np.ndarray, near: np.ndarray) -> np.ndarray:
 
 @needs_extended
 def test_screen_angles_agree_with_extended_precision_arctan2():
+    # Reference: numpy's arctan2 in x86 extended precision (np.longdouble) of the same vectors; and no worse
+    # than twice the double-precision definition's own error (screen_angles_deg).
     x0, y0, x, y, (ox, oy), nominal = _screen_case(1)
     got = screen_angles_near_deg(x0, y0, x, y, (ox, oy), nominal)
     L = np.longdouble
@@ -126,16 +136,17 @@ def test_screen_angles_agree_with_extended_precision_arctan2():
     want = _nearest(true, nominal[:, None])
     # the inputs' own rounding (the vectors' differences, in double on the tested side) bounds the agreement
     np.testing.assert_allclose(got, want, rtol=0, atol=2e-12)
-    plain = np.degrees(np.arctan2(y0 * (x - ox) - x0 * (y - oy), x0 * (x - ox) + y0 * (y - oy)))
+    plain = screen_angles_deg(x0, y0, x - ox, y - oy)
     assert np.abs(got - want).max() <= 2.0 * np.abs(_nearest(plain, nominal[:, None]) - want).max() + 1e-13
 
 
 def test_screen_angles_far_values_and_nan_take_arctan2():
+    # Reference: the definition (screen_angles_deg, numpy's arctan2) bit for bit where the series does not
+    # reach; elsewhere within 1e-12° of it.
     x0, y0, x, y, (ox, oy), nominal = _screen_case(2)
     x[2, 7] = np.nan
     got = screen_angles_near_deg(x0, y0, x, y, (ox, oy), nominal)
-    plain = _nearest(np.degrees(np.arctan2(y0 * (x - ox) - x0 * (y - oy), x0 * (x - ox) + y0 * (y - oy))),
-                     nominal[:, None])
+    plain = _nearest(screen_angles_deg(x0, y0, x - ox, y - oy), nominal[:, None])
     far = np.abs(plain - nominal[:, None]) > 1.8
     assert far.sum() > 250
     np.testing.assert_array_equal(got[far], plain[far])  # taken by arctan2 itself
@@ -145,6 +156,7 @@ def test_screen_angles_far_values_and_nan_take_arctan2():
 
 
 def test_screen_angles_do_not_depend_on_batching():
+    # Internal consistency: one trial alone and one row alone, bit for bit.
     x0, y0, x, y, origin, nominal = _screen_case(3)
     got = screen_angles_near_deg(x0, y0, x, y, origin, nominal)
     one = screen_angles_near_deg(x0[:1], y0[:1], x[:, :1], y[:, :1], (origin[0][:1], origin[1][:1]), nominal)
